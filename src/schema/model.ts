@@ -1,0 +1,37 @@
+import { z } from 'zod';
+import { fraction, finite, idSchema, nonNegative, positiveInt, precisionSchema } from './common.js';
+
+const increasing = <T>(key: keyof T & string) => (points: T[]) =>
+  points.every((p, i) => i === 0 || (p[key] as number) > (points[i - 1]![key] as number));
+
+export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction() });
+export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction() });
+
+export const modelSchema = z.strictObject({
+  kind: z.literal('model').optional(),
+  id: idSchema,
+  name: z.string().min(1).max(200),
+  version: z.string().min(1).max(64),
+  demoData: z.boolean().optional(),
+  notes: z.string().max(4000).optional(),
+  sha256: z.string().regex(/^[0-9a-f]{64}$/, 'must be 64 lower-case hex digits'),
+  sizeBytes: z.number().int().nonnegative(),
+  inputWidthPx: positiveInt(),
+  inputHeightPx: positiveInt(),
+  networkId: idSchema,
+  precision: precisionSchema,
+  /** Accuracy measured by the user on their own data at increasing total blur (pixels, blur-spot diameter). */
+  accuracyVsBlur: z
+    .array(blurCurvePointSchema)
+    .min(2)
+    .refine(increasing<{ blurPx: number }>('blurPx'), { message: 'points must be in strictly increasing blurPx' })
+    .optional(),
+  /** Accuracy measured at increasing signal-to-noise ratio (dB). */
+  accuracyVsSnr: z
+    .array(snrCurvePointSchema)
+    .min(2)
+    .refine(increasing<{ snrDb: number }>('snrDb'), { message: 'points must be in strictly increasing snrDb' })
+    .optional(),
+});
+
+export type Model = z.infer<typeof modelSchema>;

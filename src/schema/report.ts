@@ -1,0 +1,34 @@
+import { z } from 'zod';
+
+export const checkStatusSchema = z.enum(['pass', 'warn', 'fail']);
+export type CheckStatus = z.infer<typeof checkStatusSchema>;
+
+/** One finding of the validator: data, never an exception. Every figure carries its unit. */
+export const checkSchema = z.object({
+  code: z.string(),
+  status: checkStatusSchema,
+  actual: z.number().nullable(),
+  limit: z.number().nullable(),
+  unit: z.string(),
+  path: z.string(),
+  message: z.string(),
+});
+export type Check = z.infer<typeof checkSchema>;
+
+export const reportSchema = z.object({
+  status: checkStatusSchema,
+  checks: z.array(checkSchema),
+  /** Figures the checks were computed from (per-stage latency and energy, blur curve...), for plots. */
+  figures: z.record(z.string(), z.unknown()).optional(),
+});
+export type Report = z.infer<typeof reportSchema>;
+
+/** The worst status wins: one fail fails the report, otherwise one warn warns it. */
+export function worstStatus(statuses: Iterable<CheckStatus>): CheckStatus {
+  let worst: CheckStatus = 'pass';
+  for (const s of statuses) {
+    if (s === 'fail') return 'fail';
+    if (s === 'warn') worst = 'warn';
+  }
+  return worst;
+}
