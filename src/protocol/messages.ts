@@ -1,0 +1,98 @@
+import { z } from 'zod';
+
+export const PROTOCOL_VERSION = 1;
+const v = z.literal(PROTOCOL_VERSION);
+const isoTime = z.string().datetime({ offset: true });
+const taskName = z.string().min(1).max(64);
+const count = z.number().int().nonnegative();
+const measure = z.number().nonnegative().refine(Number.isFinite, 'must be finite');
+
+/** Device → server, retained. The device's own account of what it runs; the truth about what is applied. */
+export const stateMessageSchema = z.strictObject({
+  v,
+  online: z.boolean(),
+  agentVersion: z.string().max(64),
+  ts: isoTime,
+  releaseId: z.string().max(64).nullable(),
+  releaseVersion: z.number().int().positive().nullable(),
+  activeTask: taskName.nullable(),
+  profileId: z.string().max(64).nullable(),
+  profileRevision: z.number().int().positive().nullable(),
+  moving: z.boolean(),
+  /** A release received but not applied yet, and why. */
+  pending: z.strictObject({ releaseId: z.string().max(64), version: z.number().int().positive(), reason: z.string().max(500) }).nullable(),
+  /** The last release this device refused, and why. */
+  refused: z.strictObject({ releaseId: z.string().max(64).nullable(), reason: z.string().max(2000) }).nullable(),
+  lastSeq: count,
+});
+export type StateMessage = z.infer<typeof stateMessageSchema>;
+
+const switchReason = z.enum(['local', 'command', 'release', 'startup', 'restore']);
+
+export const eventBodySchema = z.discriminatedUnion('type', [
+  z.strictObject({ type: z.literal('agent-started'), agentVersion: z.string().max(64) }),
+  z.strictObject({
+    type: z.literal('task-switched'),
+    fromTask: taskName.nullable(),
+    toTask: taskName,
+    profileId: z.string().max(64),
+    profileRevision: z.number().int().positive(),
+    releaseId: z.string().max(64),
+    reason: switchReason,
+    /** Time inside the agent, excluding the driver's actuation. */
+    overheadMs: measure,
+    /** Time the driver spent moving focus and aperture and loading weights. */
+    actuationMs: measure,
+  }),
+  z.strictObject({
+    type: z.literal('switch-failed'),
+    toTask: taskName,
+    step: z.string().max(64),
+    error: z.string().max(2000),
+    restored: z.boolean(),
+  }),
+  z.strictObject({ type: z.literal('release-applied'), releaseId: z.string().max(64), version: z.number().int().positive() }),
+  z.strictObject({ type: z.literal('release-deferred'), releaseId: z.string().max(64), version: z.number().int().positive(), reason: z.string().max(500) }),
+  z.strictObject({ type: z.literal('release-refused'), releaseId: z.string().max(64).nullable(), reason: z.string().max(2000) }),
+  z.strictObject({
+    type: z.literal('telemetry'),
+    task: taskName,
+    profileId: z.string().max(64),
+    profileRevision: z.number().int().positive(),
+    releaseId: z.string().max(64),
+    frames: count,
+    windowS: measure,
+    inferenceMsMean: measure,
+    inferenceMjMean: measure,
+    frameEnergyMjMean: measure,
+  }),
+  z.strictObject({ type: z.literal('motion'), moving: z.boolean() }),
+]);
+export type EventBody = z.infer<typeof eventBodySchema>;
+export type EventType = EventBody['type'];
+
+export const deviceEventSchema = z.intersection(
+  z.object({ seq: z.number().int().positive(), ts: isoTime }),
+  eventBodySchema,
+);
+export type DeviceEvent = z.infer<typeof deviceEventSchema>;
+
+/** Device → server: a batch of numbered events, oldest first. */
+export const eventsMessageSchema = z.strictObject({ v, events: z.array(deviceEventSchema).min(1).max(500) });
+export type EventsMessage = z.infer<typeof eventsMessageSchema>;
+
+/** Server → device: every event up to and including `upTo` is stored. */
+export const ackMessageSchema = z.strictObject({ v, upTo: count });
+export type AckMessage = z.infer<typeof ackMessageSchema>;
+
+/** Server → device: operator commands. */
+export const commandMessageSchema = z.strictObject({
+  v,
+  id: z.string().min(1).max(64),
+  issuedBy: z.string().max(200),
+  command: z.discriminatedUnion('type', [
+    z.strictObject({ type: z.literal('set-task'), task: taskName }),
+    z.strictObject({ type: z.literal('report-state') }),
+  ]),
+});
+export type CommandMessage = z.infer<typeof commandMessageSchema>;

@@ -1,0 +1,31 @@
+/** MQTT topic layout, version 1. Every device lives in its own subtree; the server trusts the topic's id. */
+export const TOPIC_ROOT = 'ocellus/v1/dev';
+
+export type DeviceChannel = 'release' | 'cmd' | 'state' | 'events' | 'ack';
+export const DEVICE_CHANNELS: readonly DeviceChannel[] = ['release', 'cmd', 'state', 'events', 'ack'];
+
+/** Device ids: no MQTT wildcards, no level separator, no control characters, bounded length. */
+export const DEVICE_ID_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]{0,63}$/;
+
+export function isValidDeviceId(id: string): boolean {
+  return DEVICE_ID_PATTERN.test(id);
+}
+
+export function deviceTopic(deviceId: string, channel: DeviceChannel): string {
+  if (!isValidDeviceId(deviceId)) throw new RangeError(`invalid device id ${JSON.stringify(deviceId)}`);
+  return `${TOPIC_ROOT}/${deviceId}/${channel}`;
+}
+
+/** Subscription filter for one channel of every device (server side). */
+export function allDevicesFilter(channel: DeviceChannel): string {
+  return `${TOPIC_ROOT}/+/${channel}`;
+}
+
+/** Splits a device topic; null when the topic is not one of ours or the id is invalid. */
+export function parseDeviceTopic(topic: string): { deviceId: string; channel: DeviceChannel } | null {
+  const parts = topic.split('/');
+  if (parts.length !== 5 || `${parts[0]}/${parts[1]}/${parts[2]}` !== TOPIC_ROOT) return null;
+  const [, , , deviceId, channel] = parts as [string, string, string, string, string];
+  if (!isValidDeviceId(deviceId) || !(DEVICE_CHANNELS as readonly string[]).includes(channel)) return null;
+  return { deviceId, channel: channel as DeviceChannel };
+}
