@@ -5,3 +5,4 @@ export * from './release.js';
 export * from './signing.js';
 export * from './messages.js';
 export * from './decode.js';
+export * from './verify-release.js';
