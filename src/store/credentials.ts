@@ -1,0 +1,40 @@
+import { createHash, randomBytes, scryptSync, timingSafeEqual } from 'node:crypto';
+
+// scrypt cost parameters: N = 2^14, r = 8, p = 1 are the interactive-login values of the scrypt paper
+// (Percival, "Stronger key derivation via sequential memory-hard functions", 2009) and Node's defaults.
+const SCRYPT = { N: 16384, r: 8, p: 1 } as const;
+const KEY_BYTES = 32;
+
+/** A fresh random secret, URL-safe, for device passwords and bearer tokens. */
+export function newSecret(bytes = 24): string {
+  return randomBytes(bytes).toString('base64url');
+}
+
+/** Hash of a password for storage: "scrypt$N$r$p$<salt b64>$<key b64>". */
+export function hashPassword(password: string): string {
+  const salt = randomBytes(16);
+  const key = scryptSync(password, salt, KEY_BYTES, SCRYPT);
+  return ['scrypt', SCRYPT.N, SCRYPT.r, SCRYPT.p, salt.toString('base64'), key.toString('base64')].join('$');
+}
+
+/** Constant-time comparison of a password with a stored scrypt hash; false for any malformed hash. */
+export function verifyPassword(password: string, stored: string): boolean {
+  const parts = stored.split('$');
+  if (parts.length !== 6 || parts[0] !== 'scrypt') return false;
+  const [N, r, p] = parts.slice(1, 4).map(Number) as [number, number, number];
+  const salt = Buffer.from(parts[4]!, 'base64');
+  const expected = Buffer.from(parts[5]!, 'base64');
+  if (!Number.isInteger(N) || !Number.isInteger(r) || !Number.isInteger(p) || expected.length === 0) return false;
+  const actual = scryptSync(password, salt, expected.length, { N, r, p });
+  return timingSafeEqual(actual, expected);
+}
+
+/** Bearer tokens are long random secrets, so a fast unsalted sha256 is enough to keep them unreadable at rest. */
+export function hashToken(token: string): string {
+  return createHash('sha256').update(token, 'utf8').digest('hex');
+}
+
+/** A new bearer token; the prefix makes a leaked one easy to recognise. */
+export function newToken(): string {
+  return `ocl_${newSecret(32)}`;
+}

@@ -1,0 +1,113 @@
+import type Database from 'better-sqlite3';
+
+/** One event as stored: numbered by the device, unique per (device, seq). */
+export interface StoredDeviceEvent {
+  deviceId: string;
+  seq: number;
+  /** When the device recorded it (ISO 8601, the device's clock). */
+  ts: string;
+  type: string;
+  /** The event as the device sent it (src/protocol DeviceEvent). */
+  event: unknown;
+  receivedAt: string;
+}
+
+export interface NewDeviceEvent {
+  seq: number;
+  ts: string;
+  type: string;
+  /** JSON text of the whole event. */
+  json: string;
+}
+
+interface Row {
+  device_id: string;
+  seq: number;
+  ts: string;
+  type: string;
+  event: string;
+  received_at: string;
+}
+
+export interface DeviceEventRepository {
+  /** Inserts events; a (device, seq) already stored is ignored, so a resent batch is harmless. Returns how many were new. Call inside a transaction. */
+  insert(deviceId: string, events: readonly NewDeviceEvent[], receivedAt: string): number;
+  /** Highest seq n such that every event 1..n of the device is stored (0 when event 1 is missing). */
+  contiguousSeq(deviceId: string): number;
+  setContiguousSeq(deviceId: string, seq: number): void;
+  /** Stored seqs above a given one, ascending: the events that arrived ahead of a gap. */
+  seqsAbove(deviceId: string, seq: number): number[];
+  list(deviceId: string, options?: { afterSeq?: number; type?: string; limit?: number }): StoredDeviceEvent[];
+  count(deviceId?: string): number;
+}
+
+function toRecord(row: Row): StoredDeviceEvent {
+  return { deviceId: row.device_id, seq: row.seq, ts: row.ts, type: row.type, event: JSON.parse(row.event), receivedAt: row.received_at };
+}
+
+export function createDeviceEventRepository(db: Database.Database): DeviceEventRepository {
+  // Prepared once: the bridge inserts tens of thousands of rows a second through these.
+  const insertRow = db.prepare('INSERT OR IGNORE INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+  const cursorRow = db.prepare('SELECT contiguous_seq AS n FROM device_event_cursor WHERE device_id = ?');
+  const setCursor = db.prepare(`INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, ?)
+    ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
+  const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
+  const listRows = db.prepare(`SELECT * FROM device_events WHERE device_id = @deviceId AND seq > @afterSeq
+    AND (@type IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
+  const countAll = db.prepare('SELECT COUNT(*) AS n FROM device_events');
+  const countOne = db.prepare('SELECT COUNT(*) AS n FROM device_events WHERE device_id = ?');
+
+  return {
+    insert: function insert(deviceId, events, receivedAt) {
+      let added = 0;
+      for (const e of events) added += insertRow.run(deviceId, e.seq, e.ts, e.type, e.json, receivedAt).changes;
+      return added;
+    },
+    contiguousSeq: function contiguousSeq(deviceId) {
+      return (cursorRow.get(deviceId) as { n: number } | undefined)?.n ?? 0;
+    },
+    setContiguousSeq: function setContiguousSeq(deviceId, seq) {
+      setCursor.run(deviceId, seq);
+    },
+    seqsAbove: function seqsAbove(deviceId, seq) {
+      return above.all(deviceId, seq) as number[];
+    },
+    list: function list(deviceId, options = {}) {
+      const rows = listRows.all({ deviceId, afterSeq: options.afterSeq ?? 0, type: options.type ?? null, limit: options.limit ?? 1000 }) as Row[];
+      return rows.map(toRecord);
+    },
+    count: function count(deviceId) {
+      return ((deviceId === undefined ? countAll.get() : countOne.get(deviceId)) as { n: number }).n;
+    },
+  };
+}
+
+/** Migration 002 (appended to src/store/migrations.ts): the bus bridge's tables. */
+export const DEVICE_TABLES_SQL = `
+  CREATE TABLE device_state (
+    device_id TEXT PRIMARY KEY,
+    online INTEGER NOT NULL DEFAULT 0 CHECK (online IN (0, 1)),
+    last_seen_at TEXT NOT NULL,
+    state TEXT,
+    release_id TEXT,
+    release_version INTEGER,
+    active_task TEXT,
+    updated_at TEXT NOT NULL
+  );
+
+  CREATE TABLE device_events (
+    device_id TEXT NOT NULL,
+    seq INTEGER NOT NULL CHECK (seq > 0),
+    ts TEXT NOT NULL,
+    type TEXT NOT NULL,
+    event TEXT NOT NULL,
+    received_at TEXT NOT NULL,
+    PRIMARY KEY (device_id, seq)
+  ) WITHOUT ROWID;
+  CREATE INDEX device_events_by_type ON device_events (type, device_id, seq);
+
+  CREATE TABLE device_event_cursor (
+    device_id TEXT PRIMARY KEY,
+    contiguous_seq INTEGER NOT NULL CHECK (contiguous_seq >= 0)
+  );
+`;

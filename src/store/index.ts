@@ -1,0 +1,16 @@
+export { openStore } from './store.js';
+export type { Store, OpenStoreOptions } from './store.js';
+export { migrations, applyMigrations } from './migrations.js';
+export type { Migration } from './migrations.js';
+export { createBlobStore } from './blobs.js';
+export type { BlobStore, BlobPutResult, BlobPutExpectation } from './blobs.js';
+export { loadOrCreateSigningKey } from './signing-key.js';
+export type { SigningKeyFile } from './signing-key.js';
+export { ROLES } from './tokens.js';
+export type { Role, TokenRecord, TokenRepository } from './tokens.js';
+export type { DocumentRecord, DocumentRepository, VersionedKind } from './documents.js';
+export type { ProfileRevision, ProfileRepository, RevisionRefs, NewRevision } from './profiles.js';
+export type { ReleaseRecord, ReleaseRepository } from './releases.js';
+export type { DeviceRecord, DeviceRepository, AssignmentRecord } from './devices.js';
+export type { AuditEntry, AuditFilter, AuditRepository } from './audit.js';
+export { hashPassword, verifyPassword, hashToken, newToken, newSecret } from './credentials.js';

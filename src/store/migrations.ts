@@ -1,0 +1,122 @@
+import type Database from 'better-sqlite3';
+
+/** One schema change. Versions are applied in order, once each, and recorded in `schema_migrations`. */
+export interface Migration {
+  version: number;
+  name: string;
+  sql: string;
+}
+
+/**
+ * The ordered list of migrations. Append only: never edit or renumber one that has shipped.
+ * 001 belongs to the server's store (documents, profiles, releases, devices, tokens, audit).
+ * 002 is reserved for the bus bridge (device state and events), 003 for the fleet (rollouts):
+ * append yours at the end with the next number; numbers must stay strictly increasing.
+ */
+export const migrations: Migration[] = [
+  {
+    version: 1,
+    name: 'server store: documents, profiles, releases, devices, tokens, audit',
+    sql: `
+      CREATE TABLE documents (
+        kind TEXT NOT NULL CHECK (kind IN ('device-class', 'network', 'task', 'model')),
+        id TEXT NOT NULL,
+        version INTEGER NOT NULL CHECK (version > 0),
+        body TEXT NOT NULL,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        PRIMARY KEY (kind, id, version)
+      );
+
+      CREATE TABLE profile_revisions (
+        profile_id TEXT NOT NULL,
+        revision INTEGER NOT NULL CHECK (revision > 0),
+        body TEXT NOT NULL,
+        report TEXT NOT NULL,
+        status TEXT NOT NULL CHECK (status IN ('pass', 'warn', 'fail')),
+        refs TEXT NOT NULL,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        PRIMARY KEY (profile_id, revision)
+      );
+
+      CREATE TABLE releases (
+        id TEXT PRIMARY KEY,
+        device_class_id TEXT NOT NULL,
+        version INTEGER NOT NULL CHECK (version > 0),
+        signed TEXT NOT NULL,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        UNIQUE (device_class_id, version)
+      );
+
+      CREATE TABLE devices (
+        id TEXT PRIMARY KEY,
+        device_class_id TEXT NOT NULL,
+        tags TEXT NOT NULL,
+        password_hash TEXT NOT NULL,
+        assigned_release_id TEXT REFERENCES releases(id),
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL
+      );
+
+      CREATE TABLE assignments (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        device_id TEXT NOT NULL REFERENCES devices(id),
+        release_id TEXT NOT NULL REFERENCES releases(id),
+        cause TEXT NOT NULL,
+        actor TEXT NOT NULL,
+        created_at TEXT NOT NULL
+      );
+      CREATE INDEX assignments_by_device ON assignments (device_id, id);
+
+      CREATE TABLE tokens (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        hash TEXT NOT NULL UNIQUE,
+        role TEXT NOT NULL CHECK (role IN ('viewer', 'engineer', 'operator', 'admin')),
+        label TEXT NOT NULL,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        revoked_at TEXT
+      );
+
+      CREATE TABLE audit (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        at TEXT NOT NULL,
+        actor TEXT NOT NULL,
+        action TEXT NOT NULL,
+        target TEXT NOT NULL,
+        detail TEXT NOT NULL
+      );
+      CREATE INDEX audit_by_time ON audit (at);
+    `,
+  },
+];
+
+/** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */
+export function applyMigrations(db: Database.Database, list: readonly Migration[] = migrations): number[] {
+  list.forEach((m, i) => {
+    if (i > 0 && m.version <= list[i - 1]!.version) {
+      throw new Error(`migration ${m.version} (${m.name}) is out of order: versions must strictly increase`);
+    }
+  });
+  db.exec(`CREATE TABLE IF NOT EXISTS schema_migrations (
+    version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`);
+  const applied = new Set(
+    (db.prepare('SELECT version FROM schema_migrations').all() as Array<{ version: number }>).map((r) => r.version),
+  );
+  const done: number[] = [];
+  for (const m of list) {
+    if (applied.has(m.version)) continue;
+    db.transaction(() => {
+      db.exec(m.sql);
+      db.prepare('INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)').run(
+        m.version,
+        m.name,
+        new Date().toISOString(),
+      );
+    })();
+    done.push(m.version);
+  }
+  return done;
+}
