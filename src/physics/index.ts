@@ -4,3 +4,4 @@ export * from './luminosity.js';
 export * from './exposure.js';
 export * from './sensor.js';
 export * from './motion.js';
+export * from './network-cost.js';
