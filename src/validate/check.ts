@@ -1,0 +1,47 @@
+import type { Check, CheckStatus } from '../schema/index.js';
+
+/** Build one check; every figure carries its unit. */
+export function makeCheck(
+  code: string,
+  status: CheckStatus,
+  actual: number | null,
+  limit: number | null,
+  unit: string,
+  path: string,
+  message: string,
+): Check {
+  return { code, status, actual: finiteOrNull(actual), limit: finiteOrNull(limit), unit, path, message };
+}
+
+/** Reports are JSON: an infinite or missing figure is written as null, and the message says what it was. */
+function finiteOrNull(v: number | null): number | null {
+  return v !== null && Number.isFinite(v) ? v : null;
+}
+
+/** A number for a message: three significant figures or so, never exponent notation. */
+export function fmt(v: number): string {
+  if (Number.isNaN(v)) return 'NaN';
+  if (!Number.isFinite(v)) return v > 0 ? 'infinity' : '-infinity';
+  const a = Math.abs(v);
+  if (a === 0) return '0';
+  if (a >= 100) return v.toFixed(0);
+  if (a >= 10) return v.toFixed(1);
+  if (a >= 1) return v.toFixed(2);
+  return String(Number(v.toPrecision(2)));
+}
+
+/** "exceeds … by X" / "within … with X to spare" for an upper limit. */
+export function againstMax(actual: number, limit: number, unit: string, what: string): { ok: boolean; text: string } {
+  const u = unit ? ` ${unit}` : '';
+  return actual <= limit
+    ? { ok: true, text: `is within ${what} ${fmt(limit)}${u} with ${fmt(limit - actual)}${u} to spare` }
+    : { ok: false, text: `exceeds ${what} ${fmt(limit)}${u} by ${fmt(actual - limit)}${u}` };
+}
+
+/** "falls short of … by X" / "meets … with X to spare" for a lower limit. */
+export function againstMin(actual: number, limit: number, unit: string, what: string): { ok: boolean; text: string } {
+  const u = unit ? ` ${unit}` : '';
+  return actual >= limit
+    ? { ok: true, text: `meets ${what} ${fmt(limit)}${u} with ${fmt(actual - limit)}${u} to spare` }
+    : { ok: false, text: `falls short of ${what} ${fmt(limit)}${u} by ${fmt(limit - actual)}${u}` };
+}

@@ -1,0 +1,11 @@
+export { validate } from './validate.js';
+export type { ValidationFigures, ValidationReport } from './validate.js';
+export type { Calibration, ValidateOptions, ValidationInput } from './input.js';
+export { formatCheck, formatReport } from './format.js';
+export { MIN_CALIBRATION_SAMPLES } from './compute-checks.js';
+export type { InferenceFigures } from './compute-checks.js';
+export { DEFAULT_TOLERATED_BLUR_PX, accuracyAtBlur, accuracyAtSnr, interpolate, toleratedBlurPx } from './tolerance.js';
+export type { BlurTolerance } from './tolerance.js';
+export { BLUR_SAMPLES, sampleDistancesM } from './optical-checks.js';
+export type { BlurPoint } from './optical-checks.js';
+export { NEAR_CLIPPING_FRACTION } from './signal-checks.js';
