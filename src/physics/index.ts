@@ -5,3 +5,5 @@ export * from './exposure.js';
 export * from './sensor.js';
 export * from './motion.js';
 export * from './network-cost.js';
+export * from './accelerator.js';
+export * from './frame-budget.js';
