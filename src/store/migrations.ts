@@ -91,6 +91,38 @@ export const migrations: Migration[] = [
       CREATE INDEX audit_by_time ON audit (at);
     `,
   },
+  {
+    version: 2,
+    name: 'bus bridge: device state, device events, event cursor',
+    sql: `
+      CREATE TABLE device_state (
+        device_id TEXT PRIMARY KEY,
+        online INTEGER NOT NULL DEFAULT 0 CHECK (online IN (0, 1)),
+        last_seen_at TEXT NOT NULL,
+        state TEXT,
+        release_id TEXT,
+        release_version INTEGER,
+        active_task TEXT,
+        updated_at TEXT NOT NULL
+      );
+
+      CREATE TABLE device_events (
+        device_id TEXT NOT NULL,
+        seq INTEGER NOT NULL CHECK (seq > 0),
+        ts TEXT NOT NULL,
+        type TEXT NOT NULL,
+        event TEXT NOT NULL,
+        received_at TEXT NOT NULL,
+        PRIMARY KEY (device_id, seq)
+      ) WITHOUT ROWID;
+      CREATE INDEX device_events_by_type ON device_events (type, device_id, seq);
+
+      CREATE TABLE device_event_cursor (
+        device_id TEXT PRIMARY KEY,
+        contiguous_seq INTEGER NOT NULL CHECK (contiguous_seq >= 0)
+      );
+    `,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

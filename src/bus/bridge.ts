@@ -1,0 +1,188 @@
+import { randomUUID } from 'node:crypto';
+import type { MqttClient } from 'mqtt';
+import type { MetricsRegistry } from '../metrics/registry.js';
+import { METRIC_NAMES } from '../metrics/registry.js';
+import { decodeMessage, encodeMessage } from '../protocol/decode.js';
+import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
+import { PROTOCOL_VERSION, type CommandMessage, type DeviceEvent, type StateMessage } from '../protocol/messages.js';
+import type { SignedRelease } from '../protocol/release.js';
+import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
+import { createDeviceEventRepository, type NewDeviceEvent } from '../store/device-events.js';
+import { createDeviceStateRepository, type DeviceStateRepository } from '../store/device-state.js';
+import type { Store } from '../store/store.js';
+import { createEventCursor } from './event-cursor.js';
+import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
+
+/** What the server's release-assignment code calls to deliver a release to one device. */
+export interface ReleasePublisher {
+  publishRelease(deviceId: string, signed: SignedRelease): Promise<void>;
+}
+
+export interface BridgeOptions {
+  /** A client logged in as the server's own account; the bridge subscribes on every (re)connect. */
+  mqttClient: MqttClient;
+  store: Pick<Store, 'db' | 'devices' | 'transaction'>;
+  clock: { now(): number };
+  metrics?: MetricsRegistry;
+  log?: (line: string) => void;
+}
+
+export interface BridgeStats {
+  messages: number;
+  eventsStored: number;
+  eventsDuplicate: number;
+  statesStored: number;
+  acksSent: number;
+  rejected: Record<BridgeRejectReason, number>;
+}
+
+export interface Bridge extends ReleasePublisher {
+  /** Sends an operator command (QoS 1, not retained) and returns its id. */
+  publishCommand(deviceId: string, command: CommandMessage['command'], issuedBy: string): Promise<string>;
+  /** Removes the retained release of a device (an empty retained payload), e.g. when it is withdrawn. */
+  clearRelease(deviceId: string): Promise<void>;
+  readonly deviceStates: DeviceStateRepository;
+  stats(): BridgeStats;
+  /** Stores everything received so far and sends the acks now, instead of at the end of this tick. */
+  flush(): void;
+  close(): Promise<void>;
+}
+
+type Pending = { events: Map<string, DeviceEvent[]>; states: Map<string, StateMessage> };
+
+/**
+ * The server side of the bus: stores every device's state and events and acknowledges events.
+ * Messages are decoded with size limits and dropped with a counted reason when bad; the device id
+ * is taken from the topic, never from the payload. Work is batched per event-loop tick: one
+ * transaction for everything received in the tick, then one ack per device, so the server keeps up
+ * with thousands of devices resending at once instead of becoming the broker's slow subscriber.
+ */
+export function createBridge(options: BridgeOptions): Bridge {
+  const { mqttClient: client, store, clock } = options;
+  const log = options.log ?? (() => {});
+  const states = createDeviceStateRepository(store.db);
+  const events = createDeviceEventRepository(store.db);
+  const cursor = createEventCursor(events);
+  const rejects = createRejectCounter(options.metrics, log);
+  const enrolled = new Set<string>();
+  const counts = { messages: 0, eventsStored: 0, eventsDuplicate: 0, statesStored: 0, acksSent: 0 };
+  let pending: Pending = { events: new Map(), states: new Map() };
+  let scheduled: NodeJS.Immediate | null = null;
+  let closed = false;
+
+  options.metrics?.gauge(METRIC_NAMES.devicesOnline, 'Devices whose latest state says online', () => [{ value: states.countOnline() }]);
+
+  function isEnrolled(deviceId: string): boolean {
+    if (enrolled.has(deviceId)) return true;
+    if (store.devices.get(deviceId) === null) return false;
+    enrolled.add(deviceId);
+    return true;
+  }
+
+  function reject(reason: BridgeRejectReason, topic: string, detail: string) {
+    rejects.record(reason, topic, detail);
+  }
+
+  function onMessage(topic: string, payload: Buffer) {
+    if (closed) return;
+    counts.messages += 1;
+    const where = parseDeviceTopic(topic);
+    if (!where) return reject('unknown-device', topic, 'topic does not name a valid device');
+    if (where.channel !== 'state' && where.channel !== 'events') return;
+    // An empty retained payload only clears the broker's copy; there is nothing to store.
+    if (payload.length === 0) return;
+    if (!isEnrolled(where.deviceId)) return reject('unknown-device', topic, `device ${where.deviceId} is not enrolled`);
+    if (where.channel === 'state') {
+      const decoded = decodeMessage('state', payload);
+      if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
+      pending.states.set(where.deviceId, decoded.value);
+    } else {
+      const decoded = decodeMessage('events', payload);
+      if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
+      const list = pending.events.get(where.deviceId);
+      if (list) list.push(...decoded.value.events);
+      else pending.events.set(where.deviceId, decoded.value.events);
+    }
+    scheduled ??= setImmediate(flush);
+  }
+
+  function flush() {
+    if (scheduled) clearImmediate(scheduled);
+    scheduled = null;
+    const batch = pending;
+    pending = { events: new Map(), states: new Map() };
+    if (batch.events.size === 0 && batch.states.size === 0) return;
+    const at = new Date(clock.now()).toISOString();
+    let acks: Map<string, number>;
+    try {
+      acks = store.transaction(() => {
+      const upTo = new Map<string, number>();
+      for (const [deviceId, list] of batch.events) {
+        const rows: NewDeviceEvent[] = list.map((e) => ({ seq: e.seq, ts: e.ts, type: e.type, json: JSON.stringify(e) }));
+        const added = events.insert(deviceId, rows, at);
+        counts.eventsStored += added;
+        counts.eventsDuplicate += rows.length - added;
+        upTo.set(deviceId, cursor.advance(deviceId, rows.map((r) => r.seq)));
+        if (!batch.states.has(deviceId)) states.touch(deviceId, at);
+      }
+      for (const [deviceId, state] of batch.states) {
+        if (state.online) states.putState(deviceId, state, at);
+        // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.
+        else states.markOffline(deviceId, at);
+        counts.statesStored += 1;
+      }
+      return upTo;
+      });
+    } catch (e) {
+      // Nothing was acked, so every device resends this batch; the bridge itself keeps running.
+      log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`);
+      return;
+    }
+    for (const [deviceId, upTo] of acks) {
+      // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
+      client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });
+      counts.acksSent += 1;
+    }
+  }
+
+  function subscribe() {
+    client.subscribe([allDevicesFilter('state'), allDevicesFilter('events')], { qos: 1 }, (err) => {
+      if (err) log(`bus: subscription failed: ${err.message}`);
+    });
+  }
+
+  client.on('message', onMessage);
+  client.on('connect', subscribe);
+  if (client.connected) subscribe();
+
+  async function publishRelease(deviceId: string, signed: SignedRelease): Promise<void> {
+    const payload = encodeMessage(signed);
+    if (payload.byteLength > MAX_PAYLOAD_BYTES.release) {
+      throw new RangeError(`release ${signed.release.id} is ${payload.byteLength} bytes; the limit is ${MAX_PAYLOAD_BYTES.release}`);
+    }
+    await client.publishAsync(deviceTopic(deviceId, 'release'), payload, { qos: 1, retain: true });
+  }
+
+  return {
+    publishRelease,
+    publishCommand: async function publishCommand(deviceId, command, issuedBy) {
+      const message: CommandMessage = { v: PROTOCOL_VERSION, id: randomUUID(), issuedBy, command };
+      await client.publishAsync(deviceTopic(deviceId, 'cmd'), encodeMessage(message), { qos: 1 });
+      return message.id;
+    },
+    clearRelease: async function clearRelease(deviceId) {
+      await client.publishAsync(deviceTopic(deviceId, 'release'), Buffer.alloc(0), { qos: 1, retain: true });
+    },
+    deviceStates: states,
+    stats: function stats() {
+      return { ...counts, rejected: rejects.counts() };
+    },
+    flush,
+    close: async function close() {
+      flush();
+      closed = true;
+      client.off('message', onMessage);
+      client.off('connect', subscribe);
+    },
+  };
+}

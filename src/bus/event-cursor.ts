@@ -1,0 +1,36 @@
+import type { DeviceEventRepository } from '../store/device-events.js';
+
+/**
+ * Tracks, per device, the highest seq up to which every event is stored. Seqs that arrive ahead of
+ * a gap wait in memory until the gap fills, so the ack never covers an event the server lacks and
+ * the device resends from the gap. Loaded from the database the first time a device is seen.
+ */
+export interface EventCursor {
+  /** Records stored seqs of a device and returns its new contiguous seq. Call inside the same transaction as the inserts. */
+  advance(deviceId: string, storedSeqs: readonly number[]): number;
+}
+
+export function createEventCursor(events: DeviceEventRepository): EventCursor {
+  const cursors = new Map<string, { contiguous: number; ahead: Set<number> }>();
+
+  function load(deviceId: string) {
+    let c = cursors.get(deviceId);
+    if (!c) {
+      const contiguous = events.contiguousSeq(deviceId);
+      c = { contiguous, ahead: new Set(events.seqsAbove(deviceId, contiguous)) };
+      cursors.set(deviceId, c);
+    }
+    return c;
+  }
+
+  return {
+    advance: function advance(deviceId, storedSeqs) {
+      const c = load(deviceId);
+      const before = c.contiguous;
+      for (const seq of storedSeqs) if (seq > c.contiguous) c.ahead.add(seq);
+      while (c.ahead.delete(c.contiguous + 1)) c.contiguous += 1;
+      if (c.contiguous !== before) events.setContiguousSeq(deviceId, c.contiguous);
+      return c.contiguous;
+    },
+  };
+}

@@ -1,0 +1,87 @@
+import { randomBytes } from 'node:crypto';
+import mqtt from 'mqtt';
+import type { MetricsRegistry } from '../metrics/registry.js';
+import { signedReleaseSchema } from '../protocol/release.js';
+import type { Store } from '../store/store.js';
+import { createBridge, type Bridge } from './bridge.js';
+import { startEmbeddedBroker, type EmbeddedBroker } from './broker.js';
+
+export interface BusOptions {
+  store: Store;
+  /** An external MQTT 3.1.1/5 broker (mqtt://host:port) with the server's account; without it the embedded broker starts. */
+  external?: { url: string; username: string; password: string };
+  /** Where the embedded broker listens (127.0.0.1:1884 by default; port 0 picks a free one), and the server's account on it (random by default). */
+  embedded?: { host?: string; port?: number; serverUser?: { username: string; password: string } };
+  clock?: { now(): number };
+  metrics?: MetricsRegistry;
+  log?: (line: string) => void;
+}
+
+export interface Bus {
+  bridge: Bridge;
+  /** The URL devices connect to (the embedded broker's, or the external one). */
+  brokerUrl: string;
+  /** The embedded broker, when one was started. */
+  broker: EmbeddedBroker | null;
+  close(): Promise<void>;
+}
+
+/**
+ * Starts the server's side of the bus: the embedded broker (unless an external one is given), the
+ * server's MQTT client and the bridge. The embedded broker keeps retained messages in memory only,
+ * so on start the current release of every assigned device is published again.
+ */
+export async function startBus(options: BusOptions): Promise<Bus> {
+  const log = options.log ?? (() => {});
+  const clock = options.clock ?? { now: () => Date.now() };
+  let broker: EmbeddedBroker | null = null;
+  let account: { url: string; username: string; password: string };
+  if (options.external) {
+    account = options.external;
+  } else {
+    const serverUser = options.embedded?.serverUser ?? { username: 'ocellus-server', password: randomBytes(24).toString('base64url') };
+    broker = await startEmbeddedBroker({
+      ...(options.embedded?.host !== undefined ? { host: options.embedded.host } : {}),
+      ...(options.embedded?.port !== undefined ? { port: options.embedded.port } : {}),
+      serverUser,
+      authenticate: (deviceId, password) => options.store.verifyDeviceCredentials(deviceId, password),
+      log,
+    });
+    account = { url: broker.url, ...serverUser };
+  }
+  const client = await mqtt.connectAsync(account.url, {
+    username: account.username,
+    password: account.password,
+    clientId: `ocellus-server-${randomBytes(6).toString('hex')}`,
+    clean: true,
+    reconnectPeriod: 1000,
+    connectTimeout: 10_000,
+  });
+  client.on('error', (e) => log(`bus: ${e.message}`));
+  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  if (broker) await republishAssignedReleases(options.store, bridge, log);
+  return {
+    bridge,
+    brokerUrl: account.url,
+    broker,
+    close: async function closeBus() {
+      await bridge.close();
+      await client.endAsync();
+      await broker?.close();
+    },
+  };
+}
+
+async function republishAssignedReleases(store: Store, bridge: Bridge, log: (line: string) => void): Promise<void> {
+  for (const device of store.devices.list()) {
+    if (!device.assignedReleaseId) continue;
+    const record = store.releases.get(device.assignedReleaseId);
+    const parsed = signedReleaseSchema.safeParse(record?.signed);
+    if (!parsed.success) {
+      log(`bus: release ${device.assignedReleaseId} of device ${device.id} cannot be republished (missing or unreadable)`);
+      continue;
+    }
+    // Republish the stored object as signed: a parsed copy could differ from what the signature covers.
+    await bridge.publishRelease(device.id, record!.signed as typeof parsed.data);
+  }
+}
