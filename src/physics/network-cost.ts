@@ -78,7 +78,7 @@ function dwconvCost(layer: Extract<Layer, { op: 'dwconv' }>, inShape: Shape): La
 function fcCost(layer: Extract<Layer, { op: 'fc' }>, inShape: Shape): LayerCost {
   const inputs = elements(inShape);
   const weights = inputs * layer.out;
-  return { outShape: [layer.out, 1, 1], macs: weights, params: weights + (layer.bias ?? true ? layer.out : 0) };
+  return { outShape: [layer.out, 1, 1], macs: weights, params: weights + ((layer.bias ?? true) ? layer.out : 0) };
 }
 
 function poolCost(layer: Extract<Layer, { op: 'maxpool' | 'avgpool' }>, inShape: Shape): LayerCost {

@@ -90,8 +90,3 @@ export function focusForRangeMm(nearMm: number, farMm: number): number {
 export function sensorDiagonalMm(widthMm: number, heightMm: number): number {
   return Math.hypot(widthMm, heightMm);
 }
-
-/** Half-angle helper for exposure falloff: the angle off axis of an image point at radius r. */
-export function offAxisAngleDeg(imageRadiusMm: number, focalLengthMm: number): number {
-  return radToDeg(Math.atan(imageRadiusMm / focalLengthMm));
-}
