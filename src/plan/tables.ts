@@ -1,0 +1,172 @@
+/**
+ * Figures precomputed per factor of the search space, with the same physics calls, in the same order,
+ * as the validator makes them, so that every candidate's figures come out identical to validate()'s:
+ *  - optics per (f-number, focus): worst total blur over the sampled range;
+ *  - signal per (f-number, exposure, gain): dark-scene SNR and bright-scene share of saturation;
+ *  - motion per exposure; model accuracy per (model, optics) and per (model, signal);
+ *  - compute per (model, memory partition): inference cost, then the frame budget per exposure.
+ * Each table is a flat typed array; the inner loop only looks figures up.
+ */
+import { acceleratorTotals } from '../physics/accelerator.js';
+import { frameBudget } from '../physics/frame-budget.js';
+import { motionBlurPx } from '../physics/motion.js';
+import type { NetworkAnalysis } from '../physics/network-cost.js';
+import { objectPixelSizeMm } from '../physics/optics.js';
+import { pixelSignal, saturationElectrons, scenePhotonsPerPixel } from '../physics/sensor.js';
+import { mToMm, sToUs } from '../physics/units.js';
+import type { DeviceClass, Model, Network, Task } from '../schema/index.js';
+import { MIN_CALIBRATION_SAMPLES, accuracyAtBlur, accuracyAtSnr, toleratedBlurPx } from '../validate/index.js';
+import type { Calibration } from '../validate/index.js';
+import { worstTotalBlurPx } from './search-space.js';
+import type { SearchAxes } from './types.js';
+
+export interface PlannedModel {
+  model: Model;
+  network: Network;
+  analysis: NetworkAnalysis;
+}
+
+export interface PlanTables {
+  task: Task;
+  deviceClass: DeviceClass;
+  axes: SearchAxes;
+  models: PlannedModel[];
+  /** Sizes of the axes, in the order of the candidate index: model, partition, exposure, f-number, focus, gain. */
+  M: number;
+  P: number;
+  E: number;
+  F: number;
+  S: number;
+  G: number;
+  // per model
+  pixelsOnFeaturePx: Float64Array;
+  toleratedBlurPx: Float64Array;
+  motionLimitPx: Float64Array;
+  // per exposure
+  motionBlurPx: Float64Array;
+  framePeriodUs: number;
+  // per (f, s)
+  worstBlurPx: Float64Array;
+  // per (m, f, s); NaN when the model has no accuracy-vs-blur curve
+  accuracyAtBlur: Float64Array;
+  // per (f, e, g); NaN SNR when it cannot be estimated
+  snrDarkDb: Float64Array;
+  clippingPercent: Float64Array;
+  // per (m, f, e, g); NaN when the model has no accuracy-vs-SNR curve or the SNR is unknown
+  accuracyAtSnr: Float64Array;
+  // per (m, p)
+  energyMj: Float64Array;
+  averagePowerW: Float64Array;
+  // per (m, p, e)
+  latencyMs: Float64Array;
+}
+
+function calibrationFactors(calibration: Calibration | undefined): { latency: number; energy: number } {
+  if (!calibration || calibration.samples < MIN_CALIBRATION_SAMPLES) return { latency: 1, energy: 1 };
+  return { latency: calibration.latencyFactor, energy: calibration.energyFactor };
+}
+
+/** Build every table for the given axes. Throws only what the physics throws for an uncostable network. */
+export function buildTables(
+  task: Task,
+  deviceClass: DeviceClass,
+  models: PlannedModel[],
+  axes: SearchAxes,
+  calibration?: Calibration,
+): PlanTables {
+  const { lens, sensor, isp, accelerator } = deviceClass;
+  const M = models.length;
+  const P = axes.memoryPartitions.length;
+  const E = axes.exposuresUs.length;
+  const F = axes.fNumbers.length;
+  const S = axes.focusDistancesM.length;
+  const G = axes.analogGains.length;
+
+  const pixelsOnFeaturePx = new Float64Array(M);
+  const toleratedBlur = new Float64Array(M);
+  const motionLimitPx = new Float64Array(M);
+  const footprintMm = objectPixelSizeMm(mToMm(task.farDistanceM), sensor.pixelPitchUm, lens.focalLengthMm);
+  const sensorPx = task.featureSizeMm / footprintMm;
+  models.forEach(({ model }, m) => {
+    const scale = sensor.widthPx > model.inputWidthPx ? model.inputWidthPx / sensor.widthPx : 1;
+    pixelsOnFeaturePx[m] = sensorPx * scale;
+    toleratedBlur[m] = toleratedBlurPx(model, task.minAccuracy).blurPx;
+    motionLimitPx[m] = task.maxMotionBlurPx ?? toleratedBlur[m]!;
+  });
+
+  const motion = new Float64Array(E);
+  axes.exposuresUs.forEach((e, i) => {
+    motion[i] = motionBlurPx(task.maxRelativeSpeedMPerS, e, lens.focalLengthMm, task.nearDistanceM, sensor.pixelPitchUm);
+  });
+
+  const worstBlur = new Float64Array(F * S);
+  const accBlur = new Float64Array(M * F * S);
+  for (let f = 0; f < F; f++) {
+    for (let s = 0; s < S; s++) {
+      const w = worstTotalBlurPx(task, deviceClass, axes.fNumbers[f]!, axes.focusDistancesM[s]!);
+      worstBlur[f * S + s] = w;
+      models.forEach(({ model }, m) => {
+        accBlur[(m * F + f) * S + s] = model.accuracyVsBlur ? accuracyAtBlur(model.accuracyVsBlur, w).y : NaN;
+      });
+    }
+  }
+
+  const snr = new Float64Array(F * E * G);
+  const clipping = new Float64Array(F * E * G);
+  const accSnr = new Float64Array(M * F * E * G);
+  for (let f = 0; f < F; f++) {
+    for (let e = 0; e < E; e++) {
+      const light = (luminanceCdM2: number) => {
+        try {
+          return scenePhotonsPerPixel({ luminanceCdM2, fNumber: axes.fNumbers[f]!, exposureUs: axes.exposuresUs[e]!, pixelPitchUm: sensor.pixelPitchUm, wavelengthNm: sensor.designWavelengthNm });
+        } catch {
+          return NaN;
+        }
+      };
+      const darkPhotons = light(task.luminanceMinCdM2);
+      const brightPhotons = light(task.luminanceMaxCdM2);
+      for (let g = 0; g < G; g++) {
+        const gain = axes.analogGains[g]!;
+        const i = (f * E + e) * G + g;
+        const snrDb = Number.isNaN(darkPhotons)
+          ? NaN
+          : pixelSignal({ photons: darkPhotons, quantumEfficiency: sensor.quantumEfficiency, darkNoiseE: sensor.darkNoiseE, gainDnPerE: sensor.gainDnPerE, fullWellE: sensor.fullWellE, bitDepth: sensor.bitDepth, analogGain: gain }).snrDb;
+        snr[i] = snrDb;
+        const saturationE = saturationElectrons(sensor.fullWellE, sensor.bitDepth, sensor.gainDnPerE, gain);
+        clipping[i] = (100 * (sensor.quantumEfficiency * brightPhotons)) / saturationE;
+        models.forEach(({ model }, m) => {
+          accSnr[m * F * E * G + i] = model.accuracyVsSnr && !Number.isNaN(snrDb) ? accuracyAtSnr(model.accuracyVsSnr, snrDb).y : NaN;
+        });
+      }
+    }
+  }
+
+  const cal = calibrationFactors(calibration);
+  const energyMj = new Float64Array(M * P);
+  const powerW = new Float64Array(M * P);
+  const latencyMs = new Float64Array(M * P * E);
+  models.forEach(({ analysis }, m) => {
+    axes.memoryPartitions.forEach((partition, p) => {
+      const cost = acceleratorTotals(analysis, accelerator, partition);
+      const inferenceMs = cost.latencyMs * cal.latency;
+      const inferenceMj = cost.energyMj * cal.energy;
+      for (let e = 0; e < E; e++) {
+        const budget = frameBudget({ exposureUs: axes.exposuresUs[e]!, sensor, isp, inferenceMs, inferenceMj, frameRateHz: task.frameRateHz });
+        latencyMs[(m * P + p) * E + e] = budget.latency.totalMs;
+        if (e === 0) {
+          energyMj[m * P + p] = budget.energy.totalMj;
+          powerW[m * P + p] = budget.averagePowerW;
+        }
+      }
+    });
+  });
+
+  return {
+    task, deviceClass, axes, models, M, P, E, F, S, G,
+    pixelsOnFeaturePx, toleratedBlurPx: toleratedBlur, motionLimitPx,
+    motionBlurPx: motion, framePeriodUs: sToUs(1 / task.frameRateHz),
+    worstBlurPx: worstBlur, accuracyAtBlur: accBlur,
+    snrDarkDb: snr, clippingPercent: clipping, accuracyAtSnr: accSnr,
+    energyMj, averagePowerW: powerW, latencyMs,
+  };
+}
