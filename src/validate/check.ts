@@ -27,21 +27,26 @@ export function fmt(v: number): string {
   if (a >= 100) return v.toFixed(0);
   if (a >= 10) return v.toFixed(1);
   if (a >= 1) return v.toFixed(2);
-  return String(Number(v.toPrecision(2)));
+  return String(Number(v.toPrecision(3)));
 }
 
-/** "exceeds … by X" / "within … with X to spare" for an upper limit. */
-export function againstMax(actual: number, limit: number, unit: string, what: string): { ok: boolean; text: string } {
+/**
+ * Compare against an upper limit. `limitText` names the limit with "{}" where the limit and unit go,
+ * e.g. "the {} the model tolerates" → "exceeds the 2.00 px the model tolerates by 1.10 px".
+ */
+export function againstMax(actual: number, limit: number, unit: string, limitText: string): { ok: boolean; text: string } {
   const u = unit ? ` ${unit}` : '';
+  const named = limitText.replace('{}', `${fmt(limit)}${u}`);
   return actual <= limit
-    ? { ok: true, text: `is within ${what} ${fmt(limit)}${u} with ${fmt(limit - actual)}${u} to spare` }
-    : { ok: false, text: `exceeds ${what} ${fmt(limit)}${u} by ${fmt(actual - limit)}${u}` };
+    ? { ok: true, text: `is within ${named} (${fmt(limit - actual)}${u} to spare)` }
+    : { ok: false, text: `exceeds ${named} by ${fmt(actual - limit)}${u}` };
 }
 
-/** "falls short of … by X" / "meets … with X to spare" for a lower limit. */
-export function againstMin(actual: number, limit: number, unit: string, what: string): { ok: boolean; text: string } {
+/** Compare against a lower limit, as againstMax: "falls short of the task minimum of 3.00 px by 0.14 px". */
+export function againstMin(actual: number, limit: number, unit: string, limitText: string): { ok: boolean; text: string } {
   const u = unit ? ` ${unit}` : '';
+  const named = limitText.replace('{}', `${fmt(limit)}${u}`);
   return actual >= limit
-    ? { ok: true, text: `meets ${what} ${fmt(limit)}${u} with ${fmt(actual - limit)}${u} to spare` }
-    : { ok: false, text: `falls short of ${what} ${fmt(limit)}${u} by ${fmt(limit - actual)}${u}` };
+    ? { ok: true, text: `meets ${named} (${fmt(actual - limit)}${u} to spare)` }
+    : { ok: false, text: `falls short of ${named} by ${fmt(limit - actual)}${u}` };
 }

@@ -61,7 +61,7 @@ export function computeChecks(input: ValidationInput, calibration?: Calibration)
 
   const { weightBufferKib, activationBufferKib } = profile.memory;
   const partitionKib = weightBufferKib + activationBufferKib;
-  const m = againstMax(partitionKib, accelerator.sramKib, 'KiB', 'the on-chip SRAM');
+  const m = againstMax(partitionKib, accelerator.sramKib, 'KiB', 'the {} of on-chip SRAM');
   const bytesPer = BYTES_PER_ELEMENT[accelerator.precision];
   const weightKib = bytesToKib(cost.weightBytes);
   const peakActKib = bytesToKib(analysis.peakActivationElements * bytesPer);
@@ -81,7 +81,7 @@ export function computeChecks(input: ValidationInput, calibration?: Calibration)
     ['ISP', lat.ispMs, 'deviceClassId'],
     ['inference', lat.inferenceMs, inferencePath],
   ];
-  const l = againstMax(lat.totalMs, task.latencyBudgetMs, 'ms', 'the latency budget');
+  const l = againstMax(lat.totalMs, task.latencyBudgetMs, 'ms', 'the latency budget of {}');
   checks.push(makeCheck('latency', l.ok ? 'pass' : 'fail', lat.totalMs, task.latencyBudgetMs, 'ms', largest(latStages),
     `end-to-end latency ${fmt(lat.totalMs)} ms (${latStages.map(([n, v]) => `${n} ${fmt(v)}`).join(' + ')} ms) ${l.text}${cal.note}`));
 
@@ -91,13 +91,13 @@ export function computeChecks(input: ValidationInput, calibration?: Calibration)
     ['ISP', en.ispMj, 'deviceClassId'],
     ['inference', en.inferenceMj, inferencePath],
   ];
-  const e = againstMax(en.totalMj, task.energyBudgetMjPerFrame, 'mJ', 'the per-frame energy budget');
+  const e = againstMax(en.totalMj, task.energyBudgetMjPerFrame, 'mJ', 'the per-frame energy budget of {}');
   checks.push(makeCheck('energy-per-frame', e.ok ? 'pass' : 'fail', en.totalMj, task.energyBudgetMjPerFrame, 'mJ', largest(enStages),
     `energy ${fmt(en.totalMj)} mJ per frame (${enStages.map(([n, v]) => `${n} ${fmt(v)}`).join(' + ')} mJ) ${e.text}${cal.note}`));
 
-  const p = againstMax(budget.averagePowerW, platform.powerBudgetW, 'W', 'the platform power budget');
+  const p = againstMax(budget.averagePowerW, platform.powerBudgetW, 'W', 'the platform power budget of {}');
   checks.push(makeCheck('average-power', p.ok ? 'pass' : 'fail', budget.averagePowerW, platform.powerBudgetW, 'W', largest(enStages),
-    `the vision pipeline's share of power, ${fmt(budget.averagePowerW)} W at ${fmt(task.frameRateHz)} Hz, ${p.text} (the rest of the robot is not counted here)`));
+    `the vision pipeline's share of power, ${fmt(budget.averagePowerW)} W at ${fmt(task.frameRateHz)} Hz, ${p.text}; the rest of the robot is not counted here`));
 
   return { checks, budget, inference };
 }

@@ -52,7 +52,7 @@ export function accuracyCheck(input: ValidationInput, worstBlurPx: number, snrDa
     return { check: makeCheck('accuracy', 'warn', null, task.minAccuracy, 'fraction', 'modelId', `${why} (model ${model.id})`), predicted: null };
   }
   const worst = parts.reduce((w, p) => (p.accuracy < w.accuracy ? p : w), parts[0]!);
-  const v = againstMin(worst.accuracy, task.minAccuracy, '', 'the task minimum');
-  const message = `predicted accuracy ${fmt(worst.accuracy)} ${v.text} (${parts.map((p) => p.text).join('; ')})`;
+  const v = againstMin(worst.accuracy, task.minAccuracy, '', 'the task minimum of {}');
+  const message = `predicted accuracy ${fmt(worst.accuracy)} (${parts.map((p) => p.text).join('; ')}) ${v.text}`;
   return { check: makeCheck('accuracy', v.ok ? 'pass' : 'fail', worst.accuracy, task.minAccuracy, 'fraction', worst.path, message), predicted: worst.accuracy };
 }

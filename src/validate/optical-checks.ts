@@ -65,9 +65,9 @@ export function blurOverRangeCheck(input: ValidationInput, curve: BlurPoint[], t
   const worst = worstPoint(curve);
   const limit = tolerance.blurPx;
   const { task, profile } = input;
-  const v = againstMax(worst.totalPx, limit, 'px', 'the blur the model tolerates,');
-  const range = `over ${fmt(task.nearDistanceM)}–${fmt(task.farDistanceM)} m focused at ${fmt(profile.camera.focusDistanceM)} m`;
-  const head = `worst blur ${fmt(worst.totalPx)} px at ${fmt(worst.distanceM)} m ${v.text} (${range}; diffraction ${fmt(worst.diffractionPx)} px; tolerance from ${tolerance.basis})`;
+  const v = againstMax(worst.totalPx, limit, 'px', 'the {} the model tolerates');
+  const range = `range ${fmt(task.nearDistanceM)}–${fmt(task.farDistanceM)} m, focus ${fmt(profile.camera.focusDistanceM)} m, diffraction ${fmt(worst.diffractionPx)} px`;
+  const head = `worst blur ${fmt(worst.totalPx)} px at ${fmt(worst.distanceM)} m (${range}) ${v.text}; tolerance from ${tolerance.basis}`;
   if (v.ok) return makeCheck('blur-over-range', 'pass', worst.totalPx, limit, 'px', 'camera.focusDistanceM', head);
   if (worst.diffractionPx > limit) {
     return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.fNumber',
@@ -77,10 +77,14 @@ export function blurOverRangeCheck(input: ValidationInput, curve: BlurPoint[], t
   const best = worstPoint(blurCurve(input, bestFocusM));
   if (best.totalPx > limit) {
     return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.fNumber',
-      `${head}. Even focused at ${fmt(bestFocusM)} m (equal blur at both ends) the worst blur is ${fmt(best.totalPx)} px: the depth of field at f/${profile.camera.fNumber} cannot cover the range, a narrower aperture is needed`);
+      `${head}. ${sameFocus(bestFocusM, profile.camera.focusDistanceM) ? 'That focus already balances the blur at both ends' : `Even focused at ${fmt(bestFocusM)} m, which balances the blur at both ends, the worst blur is ${fmt(best.totalPx)} px`}: the depth of field at f/${profile.camera.fNumber} cannot cover the range, a narrower aperture is needed`);
   }
   return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.focusDistanceM',
     `${head}. Focusing at ${fmt(bestFocusM)} m would bring the worst blur to ${fmt(best.totalPx)} px`);
+}
+
+function sameFocus(aM: number, bM: number): boolean {
+  return Math.abs(aM - bM) <= 0.01 * Math.max(aM, bM);
 }
 
 export function pixelsOnFeatureCheck(input: ValidationInput): Check {
@@ -91,7 +95,7 @@ export function pixelsOnFeatureCheck(input: ValidationInput): Check {
   const downscaled = sensor.widthPx > model.inputWidthPx;
   const scale = downscaled ? model.inputWidthPx / sensor.widthPx : 1;
   const networkPx = sensorPx * scale;
-  const v = againstMin(networkPx, task.pixelsPerFeatureMin, 'px', 'the task minimum');
+  const v = againstMin(networkPx, task.pixelsPerFeatureMin, 'px', 'the task minimum of {}');
   const seen = downscaled
     ? `, and ${fmt(networkPx)} px in the network's input after downscaling ${sensor.widthPx} → ${model.inputWidthPx} px wide (×${fmt(scale)})`
     : ` (the network's ${model.inputWidthPx} px input takes the sensor's ${sensor.widthPx} px without downscaling)`;
@@ -104,7 +108,7 @@ export function motionBlurCheck(input: ValidationInput, tolerance: BlurTolerance
   const { task, deviceClass, profile } = input;
   const px = motionBlurPx(task.maxRelativeSpeedMPerS, profile.camera.exposureUs, deviceClass.lens.focalLengthMm, task.nearDistanceM, deviceClass.sensor.pixelPitchUm);
   const limit = task.maxMotionBlurPx ?? tolerance.blurPx;
-  const limitBasis = task.maxMotionBlurPx !== undefined ? "the task's motion-blur limit" : 'the blur the model tolerates,';
+  const limitBasis = task.maxMotionBlurPx !== undefined ? "the task's motion-blur limit of {}" : 'the {} the model tolerates';
   const v = againstMax(px, limit, 'px', limitBasis);
   const message = `motion blur ${fmt(px)} px at the near end ${fmt(task.nearDistanceM)} m (${fmt(task.maxRelativeSpeedMPerS)} m/s, ${fmt(profile.camera.exposureUs)} µs exposure) ${v.text}`;
   return makeCheck('motion-blur', v.ok ? 'pass' : 'fail', px, limit, 'px', 'camera.exposureUs', message);

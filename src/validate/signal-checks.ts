@@ -38,7 +38,7 @@ export function snrDarkCheck(input: ValidationInput): { check: Check; snrDb: num
     bitDepth: sensor.bitDepth,
     analogGain: profile.camera.analogGain,
   });
-  const v = againstMin(signal.snrDb, task.minSnrDb, 'dB', 'the task minimum');
+  const v = againstMin(signal.snrDb, task.minSnrDb, 'dB', 'the task minimum of {}');
   const message = `SNR ${fmt(signal.snrDb)} dB at the darkest scene ${fmt(task.luminanceMinCdM2)} cd/m² (${fmt(signal.electrons)} e⁻ per pixel at ${settings(input)}) ${v.text}`;
   return { check: makeCheck('snr-dark', v.ok ? 'pass' : 'fail', signal.snrDb, task.minSnrDb, 'dB', 'camera.exposureUs', message), snrDb: signal.snrDb };
 }
@@ -74,7 +74,7 @@ export function clippingBrightCheck(input: ValidationInput): Check {
 export function exposureFitsFrameCheck(input: ValidationInput): Check {
   const { task, profile } = input;
   const periodUs = sToUs(1 / task.frameRateHz);
-  const v = againstMax(profile.camera.exposureUs, periodUs, 'µs', `the frame period at ${fmt(task.frameRateHz)} Hz,`);
+  const v = againstMax(profile.camera.exposureUs, periodUs, 'µs', `the {} frame period at ${fmt(task.frameRateHz)} Hz`);
   const message = `exposure ${fmt(profile.camera.exposureUs)} µs ${v.text}`;
   return makeCheck('exposure-fits-frame', v.ok ? 'pass' : 'fail', profile.camera.exposureUs, periodUs, 'us', 'camera.exposureUs', message);
 }
