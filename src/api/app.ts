@@ -1,0 +1,53 @@
+import { Hono } from 'hono';
+import { createMetricsRegistry, PROMETHEUS_CONTENT_TYPE } from '../metrics/registry.js';
+import type { AppDeps, AppEnv, ResolvedDeps } from './context.js';
+import { DEFAULT_LIMITS } from './context.js';
+import { registerDeviceRoutes } from './devices-routes.js';
+import { registerDocumentRoutes } from './documents-routes.js';
+import { createErrorHandler, type ErrorBody } from './errors.js';
+import { createHttpMetrics } from './http-metrics.js';
+import { openApiDocument } from './openapi.js';
+import { registerProfileRoutes } from './profiles-routes.js';
+import { registerReleaseRoutes } from './releases-routes.js';
+import { createRouter } from './routing.js';
+import { registerTokenAndAuditRoutes } from './tokens-routes.js';
+import { registerWeightsRoutes } from './weights-routes.js';
+
+function reportToStderr(error: unknown): void {
+  process.stderr.write(`ocellus: internal error: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`);
+}
+
+/** The HTTP API under /api/v1, /metrics included. Every route comes from the route table (src/api/route-table.ts). */
+export function createApp(deps: AppDeps): Hono<AppEnv> {
+  const resolved: ResolvedDeps = {
+    store: deps.store,
+    blobs: deps.blobs,
+    signer: deps.signer,
+    clock: deps.clock ?? { now: () => new Date() },
+    publisher: deps.publisher,
+    metrics: deps.metrics ?? createMetricsRegistry(),
+    limits: { ...DEFAULT_LIMITS, ...deps.limits },
+  };
+  const app = new Hono<AppEnv>();
+  app.use('*', createHttpMetrics(resolved.metrics, resolved.store));
+  app.onError(createErrorHandler(deps.onError ?? reportToStderr));
+  app.notFound((c) => c.json({ error: `no route ${c.req.method} ${c.req.path}`, issues: [] } satisfies ErrorBody, 404));
+
+  const route = createRouter(app, resolved.store);
+  registerDocumentRoutes(route, resolved, 'device-classes');
+  registerDocumentRoutes(route, resolved, 'networks');
+  registerDocumentRoutes(route, resolved, 'tasks');
+  registerDocumentRoutes(route, resolved, 'models');
+  registerWeightsRoutes(route, resolved);
+  registerProfileRoutes(route, resolved);
+  registerReleaseRoutes(route, resolved);
+  registerDeviceRoutes(route, resolved);
+  registerTokenAndAuditRoutes(route, resolved);
+  const openapi = openApiDocument();
+  route('openapi', (c) => c.json(openapi));
+  route('metrics', (c) => c.body(resolved.metrics.render(), 200, { 'Content-Type': PROMETHEUS_CONTENT_TYPE }));
+
+  const missing = route.missing();
+  if (missing.length > 0) throw new Error(`routes in the table without a handler: ${missing.join(', ')}`);
+  return app;
+}

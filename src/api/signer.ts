@@ -1,0 +1,20 @@
+import { keyIdOf } from '../protocol/signing.js';
+import { signRelease } from '../protocol/verify-release.js';
+import type { Release, SignedRelease } from '../protocol/release.js';
+
+/** Signs releases with the server's Ed25519 key and publishes the public half. */
+export interface Signer {
+  readonly keyId: string;
+  readonly publicKeyPem: string;
+  sign(release: Release): SignedRelease;
+}
+
+export function createSigner(keys: { privateKeyPem: string; publicKeyPem: string }): Signer {
+  return {
+    keyId: keyIdOf(keys.publicKeyPem),
+    publicKeyPem: keys.publicKeyPem,
+    sign: function sign(release) {
+      return signRelease(release, keys.privateKeyPem, keys.publicKeyPem);
+    },
+  };
+}
