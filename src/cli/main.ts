@@ -16,6 +16,7 @@ export const commands: Record<string, CommandEntry> = {
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },
   schema: { summary: 'print the JSON Schema of a document kind', load: () => import('./schema.js') },
+  plan: { summary: 'search settings for a task on a device class and list the best feasible candidates', load: () => import('./plan.js') },
 };
 
 export function helpText(): string {
