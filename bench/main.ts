@@ -5,6 +5,7 @@ import type { BenchPart } from './figure.js';
 /** Bench parts by name: one line each; a part is a module exporting `run(): Promise<BenchFigure[]>`. */
 const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   validator: () => import('./validator.js'),
+  planner: () => import('./planner.js'),
 };
 
 async function main(names: string[]): Promise<number> {
