@@ -80,6 +80,9 @@ function formatResult(result: PlanResult, taskId: string, deviceClassId: string)
   const out: string[] = [];
   out.push(`plan for task ${taskId} on ${deviceClassId}: ${result.evaluated} candidates evaluated, ${result.front.length} on the front`);
   for (const s of result.skipped) out.push(`  skipped ${s.modelId}: ${s.reason}`);
+  if (result.unconfirmed > 0) {
+    out.push(`  caution: ${result.unconfirmed} candidate${result.unconfirmed === 1 ? '' : 's'} the planner's evaluator found feasible failed the validator and ${result.unconfirmed === 1 ? 'was' : 'were'} left out; the front may be incomplete`);
+  }
   if (result.front.length > 0) out.push('', formatFront(result.front).trimEnd());
   else out.push('', 'no candidate meets every check.');
   if (result.bindingConstraints.length > 0) {
