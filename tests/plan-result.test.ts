@@ -112,6 +112,24 @@ describe('bad input', () => {
   });
 });
 
+describe('inference calibration', () => {
+  it('is applied as the validator applies it: front figures match validate() with the same calibration', () => {
+    const calibration = { latencyFactor: 3, energyFactor: 2, samples: 10 };
+    const plain = plan({ task: testTask, deviceClass: testDeviceClass, candidates: testCandidates, options: SMALL_GRID });
+    const result = plan({ task: testTask, deviceClass: testDeviceClass, candidates: testCandidates, options: { ...SMALL_GRID, calibration } });
+    expect(result.unconfirmed).toBe(0);
+    expect(result.front[0]!.energyMjPerFrame).toBeGreaterThan(plain.front[0]!.energyMjPerFrame);
+    for (const c of result.front) {
+      const m = testCandidates.find((x) => x.model.id === c.modelId)!;
+      const profile = candidateToProfile(c, { id: 'cal', taskId: testTask.id, deviceClassId: testDeviceClass.id });
+      const report = validate({ profile, task: testTask, deviceClass: testDeviceClass, model: m.model, network: m.network }, { calibration });
+      expect(report.status).not.toBe('fail');
+      expect(report.figures.energy!.totalMj).toBe(c.energyMjPerFrame);
+      expect(report.figures.latency!.totalMs).toBe(c.latencyMs);
+    }
+  });
+});
+
 describe('candidateToProfile', () => {
   it('writes a profile document that parses and passes the validator, with the planning caution in its notes', () => {
     const result = plan({ task: testTask, deviceClass: testDeviceClass, candidates: testCandidates, options: SMALL_GRID });

@@ -104,7 +104,7 @@ export function plan(input: PlanInput): PlanResult {
         refused++;
       }
     }
-    if (refused === 0) break;
+    if (refused === 0 || round === CONFIRMATION_ROUNDS - 1) break;
     result = sweep(tables, resolved.nearMisses, excluded);
   }
   front.sort(byEnergy);
