@@ -44,6 +44,15 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     );
     if (values.help) return io.stdout(usage), EXIT_OK;
     if (positionals.length !== 1) throw new UsageError('give exactly one network file');
+    if (values['device-class'] === undefined && (values['weight-buffer-kib'] !== undefined || values['activation-buffer-kib'] !== undefined)) {
+      throw new UsageError('--weight-buffer-kib and --activation-buffer-kib need --device-class');
+    }
+    let precision: Precision = 'int8';
+    if (values.precision !== undefined) {
+      const p = precisionSchema.safeParse(values.precision);
+      if (!p.success) throw new UsageError(`--precision must be int8 or fp16, got '${values.precision}'`);
+      precision = p.data;
+    }
     const networkDoc = await readKind(io, positionals[0]!, 'network');
     if (networkDoc.kind !== 'network') throw new UsageError('not a network');
     const network = networkDoc.value;
@@ -51,19 +60,12 @@ export async function run(args: string[], io: CliIo): Promise<number> {
 
     const deviceDoc = values['device-class'] === undefined ? undefined : await readKind(io, values['device-class'], 'device-class');
     const deviceClass = deviceDoc?.kind === 'device-class' ? deviceDoc.value : undefined;
-    if (!deviceClass && (values['weight-buffer-kib'] !== undefined || values['activation-buffer-kib'] !== undefined)) {
-      throw new UsageError('--weight-buffer-kib and --activation-buffer-kib need --device-class');
-    }
-    let precision: Precision = 'int8';
-    if (values.precision !== undefined) {
-      const p = precisionSchema.safeParse(values.precision);
-      if (!p.success) throw new UsageError(`--precision must be int8 or fp16, got '${values.precision}'`);
-      if (deviceClass && p.data !== deviceClass.accelerator.precision) {
-        throw new UsageError(`--precision ${p.data} disagrees with the device class's accelerator (${deviceClass.accelerator.precision})`);
+    if (deviceClass) {
+      if (values.precision !== undefined && precision !== deviceClass.accelerator.precision) {
+        throw new UsageError(`--precision ${precision} disagrees with the device class's accelerator (${deviceClass.accelerator.precision})`);
       }
-      precision = p.data;
+      precision = deviceClass.accelerator.precision;
     }
-    if (deviceClass) precision = deviceClass.accelerator.precision;
 
     const result: Record<string, unknown> = {
       macs: analysis.macs,
