@@ -28,10 +28,13 @@ function parseInput(input: PlanInput): { task: Task; deviceClass: DeviceClass; c
   if (!Array.isArray(input.candidates) || input.candidates.length === 0) {
     issues.push({ path: 'candidates', message: 'must list at least one {model, network} pair' });
   } else {
+    // One parse per network object, so models that share a network share its analysis and costs.
+    const networks = new Map<unknown, ReturnType<typeof parseWith<typeof networkSchema>>>();
     input.candidates.forEach((c, i) => {
       const model = parseWith(modelSchema, c?.model);
       if (!model.ok) model.issues.forEach(at(`candidates[${i}].model`));
-      const network = parseWith(networkSchema, c?.network);
+      const network = networks.get(c?.network) ?? parseWith(networkSchema, c?.network);
+      networks.set(c?.network, network);
       if (!network.ok) network.issues.forEach(at(`candidates[${i}].network`));
       if (model.ok && network.ok) candidates.push({ model: model.value, network: network.value });
     });
@@ -55,7 +58,8 @@ function plannedModels(deviceClass: DeviceClass, candidates: ModelCandidate[]): 
       skip('model-network', `model ${model.id} names network '${model.networkId}' but the network given is '${network.id ?? '(no id)'}'`);
     } else {
       try {
-        models.push({ model, network, analysis: analyzeNetwork(network) });
+        const shared = models.find((m) => m.network === network);
+        models.push({ model, network, analysis: shared ? shared.analysis : analyzeNetwork(network) });
       } catch (e) {
         skip('network-cost', `network ${network.id ?? '(no id)'} of model ${model.id} cannot be costed: ${e instanceof Error ? e.message : String(e)}`);
       }

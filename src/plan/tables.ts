@@ -8,6 +8,7 @@
  * Each table is a flat typed array; the inner loop only looks figures up.
  */
 import { acceleratorTotals } from '../physics/accelerator.js';
+import type { AcceleratorTotals } from '../physics/accelerator.js';
 import { frameBudget } from '../physics/frame-budget.js';
 import { motionBlurPx } from '../physics/motion.js';
 import type { NetworkAnalysis } from '../physics/network-cost.js';
@@ -145,9 +146,16 @@ export function buildTables(
   const energyMj = new Float64Array(M * P);
   const powerW = new Float64Array(M * P);
   const latencyMs = new Float64Array(M * P * E);
-  models.forEach(({ analysis }, m) => {
-    axes.memoryPartitions.forEach((partition, p) => {
-      const cost = acceleratorTotals(analysis, accelerator, partition);
+  // Inference cost per (network, partition): models that share a network share its costs.
+  const costsByNetwork = new Map<Network, AcceleratorTotals[]>();
+  models.forEach(({ network, analysis }, m) => {
+    let costs = costsByNetwork.get(network);
+    if (!costs) {
+      costs = axes.memoryPartitions.map((partition) => acceleratorTotals(analysis, accelerator, partition));
+      costsByNetwork.set(network, costs);
+    }
+    axes.memoryPartitions.forEach((_, p) => {
+      const cost = costs[p]!;
       const inferenceMs = cost.latencyMs * cal.latency;
       const inferenceMj = cost.energyMj * cal.energy;
       for (let e = 0; e < E; e++) {
