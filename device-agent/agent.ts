@@ -1,0 +1,191 @@
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
+import { decodeMessage } from '../src/protocol/decode.js';
+import { MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
+import { PROTOCOL_VERSION, eventBodySchema, type EventBody, type StateMessage } from '../src/protocol/messages.js';
+import { writeFileAtomicSync } from './atomic-file.js';
+import { systemClock, type AgentClock } from './clock.js';
+import type { AgentConfig } from './config.js';
+import { startControlServer, type ControlEndpoint, type ControlServer } from './control-server.js';
+import type { ProfileDriver } from './driver.js';
+import { openEventLog, type EventLog } from './event-log.js';
+import { openLink, type Link, type MqttConnect } from './link.js';
+import { createOutbox, type Outbox } from './outbox.js';
+import { createProfileRunner, type ProfileRunner, type TaskResult } from './profile-runner.js';
+import { createReleaseStore, type ReleaseStore } from './release-store.js';
+import { createWeightsCache } from './weights-cache.js';
+
+export const AGENT_VERSION = '0.1.0';
+
+export interface AgentDeps {
+  config: AgentConfig;
+  driver: ProfileDriver;
+  clock?: AgentClock;
+  /** Replaces mqtt.connect (e.g. to count connections in a test). */
+  mqttConnect?: MqttConnect;
+  log?: (line: string) => void;
+}
+
+export interface Agent {
+  /** Restores the last applied release and task from disk, opens the control endpoint, connects to the broker. */
+  start(): Promise<void>;
+  stop(): Promise<void>;
+  state(): StateMessage;
+  setTask(task: string): Promise<TaskResult>;
+  setMotion(moving: boolean): void;
+  connected(): boolean;
+  controlEndpoint(): ControlEndpoint | null;
+  /** Events not yet acknowledged by the server. */
+  unackedEvents(): number;
+}
+
+/**
+ * The robot-side agent. It keeps running with or without the network: task switches, motion and
+ * events work offline (events wait on disk until the server acknowledges them), and a restart
+ * re-applies the last active task from the release stored on disk.
+ */
+export function createAgent(deps: AgentDeps): Agent {
+  const { config, driver } = deps;
+  const clock = deps.clock ?? systemClock;
+  const log = deps.log ?? (() => {});
+  let events: EventLog | null = null;
+  let outbox: Outbox | null = null;
+  let runner: ProfileRunner | null = null;
+  let releases: ReleaseStore | null = null;
+  let link: Link | null = null;
+  let control: ControlServer | null = null;
+  let telemetryTimer: NodeJS.Timeout | null = null;
+  let stateScheduled: NodeJS.Immediate | null = null;
+  const seenCommands: string[] = [];
+
+  function emit(body: EventBody) {
+    // An event the server would reject would block the outbox forever: check it before it is logged.
+    const checked = eventBodySchema.safeParse(body);
+    if (!checked.success) return log(`agent: dropped an invalid ${body.type} event: ${checked.error.issues[0]!.message}`);
+    events!.append(body);
+    outbox!.kick();
+  }
+
+  function buildState(online: boolean): StateMessage {
+    const v = runner!.view();
+    const task = v.running?.task ?? (v.release && v.activeTask ? v.release.tasks[v.activeTask] : undefined);
+    return {
+      v: PROTOCOL_VERSION,
+      online,
+      agentVersion: AGENT_VERSION,
+      ts: new Date(clock.now()).toISOString(),
+      releaseId: v.release?.id ?? null,
+      releaseVersion: v.release?.version ?? null,
+      activeTask: v.running ? v.running.taskName : null,
+      profileId: v.running ? (task?.profileId ?? null) : null,
+      profileRevision: v.running ? (task?.revision ?? null) : null,
+      moving: v.moving,
+      pending: v.pending,
+      refused: v.refused,
+      lastSeq: events!.lastSeq(),
+    };
+  }
+
+  function publishState() {
+    stateScheduled = null;
+    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false)));
+  }
+
+  function changed() {
+    stateScheduled ??= setImmediate(publishState);
+  }
+
+  function onMessage(channel: 'release' | 'cmd' | 'ack', payload: Buffer) {
+    if (channel === 'ack') {
+      const ack = decodeMessage('ack', payload);
+      if (ack.ok) outbox!.onAck(ack.value.upTo);
+      return;
+    }
+    if (channel === 'release') {
+      // An empty retained payload withdraws the assignment; the device keeps what it runs.
+      if (payload.length === 0) return;
+      if (payload.length > MAX_PAYLOAD_BYTES.release) return void runner!.offerRelease(null);
+      let raw: unknown;
+      try {
+        raw = JSON.parse(payload.toString('utf8'));
+      } catch {
+        raw = null;
+      }
+      void runner!.offerRelease(raw).catch((e: unknown) => log(`agent: release handling failed: ${(e as Error).message}`));
+      return;
+    }
+    const cmd = decodeMessage('cmd', payload);
+    if (!cmd.ok) return log(`agent: ignored a command (${cmd.reason}: ${cmd.detail})`);
+    // QoS 1 may deliver a command twice; run each id once.
+    if (seenCommands.includes(cmd.value.id)) return;
+    seenCommands.push(cmd.value.id);
+    if (seenCommands.length > 200) seenCommands.shift();
+    if (cmd.value.command.type === 'set-task') void runner!.setTask(cmd.value.command.task, 'command');
+    else changed();
+  }
+
+  function sendTelemetry() {
+    const v = runner!.view();
+    const sample = driver.readTelemetry();
+    if (!sample || !v.running) return;
+    emit({ type: 'telemetry', task: v.running.taskName, profileId: v.running.task.profileId, profileRevision: v.running.task.revision, releaseId: v.running.releaseId, ...sample });
+  }
+
+  return {
+    start: async function start() {
+      mkdirSync(config.dataDir, { recursive: true });
+      events = openEventLog(config.dataDir, clock);
+      const username = config.username ?? config.deviceId;
+      outbox = createOutbox({ log: events, ackTimeoutMs: config.ackTimeoutMs, send: (payload) => link?.publishEvents(payload) });
+      const cache = createWeightsCache({ dir: join(config.dataDir, 'weights'), maxBytes: config.cacheMaxBytes, serverUrl: config.serverUrl, username, password: config.password, log });
+      releases = createReleaseStore(config.dataDir, log);
+      runner = createProfileRunner({
+        driver, clock, cache, releases, publicKeyPem: config.publicKeyPem,
+        deviceClassId: config.deviceClassId, emit, changed, log,
+      });
+      emit({ type: 'agent-started', agentVersion: AGENT_VERSION });
+      await runner.restore();
+      const endpoint: ControlEndpoint = config.controlSocket
+        ? { kind: 'unix', socketPath: config.controlSocket }
+        : { kind: 'tcp', host: config.controlHost, port: config.controlPort };
+      control = await startControlServer(endpoint, {
+        setTask: (task) => runner!.setTask(task, 'local'),
+        setMotion: (moving) => (runner!.setMotion(moving), { status: 200, body: { ok: true, moving } }),
+        state: () => buildState(link?.connected() ?? false),
+      });
+      // Lets `ocellus-agent task` find the endpoint, including a port picked by the system.
+      writeFileAtomicSync(join(config.dataDir, 'control.json'), JSON.stringify(control.endpoint));
+      link = openLink({
+        deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
+        willPayload: JSON.stringify(buildState(false)), reconnectMs: config.reconnectMs, log, onMessage,
+        ...(deps.mqttConnect ? { mqttConnect: deps.mqttConnect } : {}),
+        onConnected: () => {
+          log(`agent: connected to ${config.brokerUrl} as ${username}`);
+          publishState();
+          outbox!.onConnected();
+        },
+        onDisconnected: () => outbox!.onDisconnected(),
+      });
+      telemetryTimer = setInterval(sendTelemetry, config.telemetryIntervalS * 1000);
+      telemetryTimer.unref?.();
+    },
+    stop: async function stop() {
+      if (telemetryTimer) clearInterval(telemetryTimer);
+      if (stateScheduled) clearImmediate(stateScheduled);
+      runner?.close();
+      await runner?.idle();
+      await releases?.settle();
+      outbox?.close();
+      await link?.close(runner ? JSON.stringify(buildState(false)) : undefined);
+      await control?.close();
+      events?.close();
+      await driver.close?.();
+    },
+    state: () => buildState(link?.connected() ?? false),
+    setTask: (task) => runner!.setTask(task, 'local'),
+    setMotion: (moving) => runner!.setMotion(moving),
+    connected: () => link?.connected() ?? false,
+    controlEndpoint: () => control?.endpoint ?? null,
+    unackedEvents: () => events?.unackedCount() ?? 0,
+  };
+}

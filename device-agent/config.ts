@@ -1,0 +1,121 @@
+import { z } from 'zod';
+import { DEVICE_ID_PATTERN } from '../src/protocol/topics.js';
+import { idSchema } from '../src/schema/common.js';
+import { formatPath, type InputIssue } from '../src/schema/issues.js';
+import { DRIVER_STEPS } from './driver.js';
+
+/** Every setting of the agent. The same names serve the JSON file; flags are --kebab-case, env is OCELLUS_AGENT_SNAKE_CASE. */
+export const agentSettingsSchema = z.strictObject({
+  deviceId: z.string().regex(DEVICE_ID_PATTERN, 'must be 1-64 characters of A-Z, a-z, 0-9, ".", "_" or "-"'),
+  deviceClassId: idSchema,
+  brokerUrl: z.string().regex(/^(mqtts?|tcp|ssl):\/\/[^/]+/, 'must be an mqtt:// or mqtts:// URL'),
+  /** MQTT user name; the device id unless told otherwise. */
+  username: z.string().min(1).optional(),
+  password: z.string().min(1),
+  /** Base URL of the Ocellus server, for weights downloads. */
+  serverUrl: z.string().regex(/^https?:\/\/[^/]+/, 'must be an http:// or https:// URL'),
+  /** PEM file of the server's Ed25519 public key, which every release must be signed with. */
+  publicKeyPath: z.string().min(1),
+  dataDir: z.string().min(1),
+  driver: z.enum(['sim']).default('sim'),
+  controlHost: z.enum(['127.0.0.1', '::1', 'localhost']).default('127.0.0.1'),
+  /** Loopback port of the control endpoint; 0 picks a free one (written to <dataDir>/control.json). */
+  controlPort: z.number().int().min(0).max(65535).default(7717),
+  /** A Unix socket instead of the loopback port. */
+  controlSocket: z.string().min(1).optional(),
+  telemetryIntervalS: z.number().positive().default(30),
+  ackTimeoutMs: z.number().int().min(100).default(2000),
+  cacheMaxBytes: z.number().int().positive().default(2 * 1024 ** 3),
+  reconnectMs: z.number().int().min(100).default(1000),
+  /** Simulated driver only. */
+  simTimeScale: z.number().min(0).default(1),
+  simEfficiency: z.number().positive().default(1),
+  simSeed: z.number().int().default(1),
+  simFailStep: z.enum(DRIVER_STEPS).optional(),
+  simFailTask: z.string().min(1).optional(),
+});
+
+export type AgentSettings = z.output<typeof agentSettingsSchema>;
+type Key = keyof AgentSettings;
+
+/** What createAgent needs: the settings, with the public key read from its file. */
+export type AgentConfig = Omit<AgentSettings, 'publicKeyPath'> & { publicKeyPem: string };
+
+const NUMBER_KEYS = new Set<Key>(['controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'simTimeScale', 'simEfficiency', 'simSeed']);
+const KEYS = Object.keys(agentSettingsSchema.shape) as Key[];
+
+export const flagOf = (key: string) => `--${key.replace(/[A-Z]/g, (c) => `-${c.toLowerCase()}`)}`;
+export const envOf = (key: string) => `OCELLUS_AGENT_${key.replace(/[A-Z]/g, (c) => `_${c}`).toUpperCase()}`;
+
+export interface ConfigSources {
+  /** Flags only (the subcommand already removed). */
+  argv: readonly string[];
+  env: Readonly<Record<string, string | undefined>>;
+  readFile(path: string): string;
+}
+
+export type ConfigResult = { ok: true; settings: AgentSettings } | { ok: false; issues: InputIssue[] };
+
+function coerce(key: Key, text: string): unknown {
+  if (!NUMBER_KEYS.has(key)) return text;
+  const n = Number(text);
+  return text.trim() !== '' && Number.isFinite(n) ? n : text;
+}
+
+/**
+ * Merges the config file (--config or OCELLUS_AGENT_CONFIG), then the environment, then flags (each
+ * overriding the one before), and checks the result. Every issue names where the bad value came from.
+ */
+export function resolveAgentSettings(sources: ConfigSources): ConfigResult {
+  const values: Record<string, unknown> = {};
+  const origin: Record<string, string> = {};
+  const issues: InputIssue[] = [];
+  const flags = new Map<string, string>();
+  for (let i = 0; i < sources.argv.length; i++) {
+    const arg = sources.argv[i]!;
+    const eq = arg.indexOf('=');
+    const name = eq > 0 ? arg.slice(0, eq) : arg;
+    if (!name.startsWith('--')) {
+      issues.push({ path: arg, message: 'unexpected argument' });
+      continue;
+    }
+    const value = eq > 0 ? arg.slice(eq + 1) : sources.argv[++i];
+    if (value === undefined) issues.push({ path: name, message: 'needs a value' });
+    else flags.set(name, value);
+  }
+  const configPath = flags.get('--config') ?? sources.env.OCELLUS_AGENT_CONFIG;
+  flags.delete('--config');
+  if (configPath) {
+    try {
+      const file = JSON.parse(sources.readFile(configPath)) as unknown;
+      if (!file || typeof file !== 'object' || Array.isArray(file)) issues.push({ path: configPath, message: 'must hold a JSON object' });
+      else for (const [k, v] of Object.entries(file)) Object.assign(values, { [k]: v }), (origin[k] = `${configPath}: ${k}`);
+    } catch (e) {
+      issues.push({ path: configPath, message: `cannot read the config file: ${(e as Error).message}` });
+    }
+  }
+  for (const key of KEYS) {
+    const text = sources.env[envOf(key)];
+    if (text !== undefined && text !== '') (values[key] = coerce(key, text)), (origin[key] = envOf(key));
+  }
+  const known = new Map(KEYS.map((k) => [flagOf(k), k]));
+  for (const [flag, text] of flags) {
+    const key = known.get(flag);
+    if (!key) issues.push({ path: flag, message: `unknown option; known: --config, ${[...known.keys()].join(', ')}` });
+    else (values[key] = coerce(key, text)), (origin[key] = flag);
+  }
+  if (issues.length > 0) return { ok: false, issues };
+  const parsed = agentSettingsSchema.safeParse(values);
+  if (!parsed.success) {
+    return {
+      ok: false,
+      issues: parsed.error.issues.map((i) => {
+        const key = String(i.path[0] ?? '');
+        const nested = i.path.length > 1 ? ` (${formatPath(i.path)})` : '';
+        const where = origin[key] ? `${origin[key]}${nested}` : `${formatPath(i.path)} (config file, ${envOf(key)} or ${flagOf(key)})`;
+        return { path: where, message: i.message };
+      }),
+    };
+  }
+  return { ok: true, settings: parsed.data };
+}

@@ -1,0 +1,91 @@
+import { existsSync, unlinkSync } from 'node:fs';
+import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
+import { z } from 'zod';
+
+/** Where the local control endpoint listens: a loopback TCP port, or a Unix socket. */
+export type ControlEndpoint = { kind: 'tcp'; host: string; port: number } | { kind: 'unix'; socketPath: string };
+
+export interface ControlHandlers {
+  setTask(task: string): Promise<{ status: number; body: unknown }>;
+  setMotion(moving: boolean): { status: number; body: unknown };
+  state(): unknown;
+}
+
+export interface ControlServer {
+  endpoint: ControlEndpoint;
+  close(): Promise<void>;
+}
+
+const taskBody = z.strictObject({ task: z.string().min(1).max(64) });
+const motionBody = z.strictObject({ moving: z.boolean() });
+const MAX_BODY_BYTES = 16 * 1024;
+
+function reply(res: ServerResponse, status: number, body: unknown) {
+  const text = JSON.stringify(body);
+  res.writeHead(status, { 'content-type': 'application/json', 'content-length': Buffer.byteLength(text) });
+  res.end(text);
+}
+
+function readJson(req: IncomingMessage): Promise<{ ok: true; value: unknown } | { ok: false; error: string }> {
+  return new Promise((resolve) => {
+    const chunks: Buffer[] = [];
+    let size = 0;
+    req.on('data', (c: Buffer) => {
+      size += c.length;
+      if (size <= MAX_BODY_BYTES) chunks.push(c);
+    });
+    req.on('end', () => {
+      if (size > MAX_BODY_BYTES) return resolve({ ok: false, error: `body exceeds ${MAX_BODY_BYTES} bytes` });
+      try {
+        resolve({ ok: true, value: JSON.parse(Buffer.concat(chunks).toString('utf8')) });
+      } catch (e) {
+        resolve({ ok: false, error: `body is not JSON: ${(e as Error).message}` });
+      }
+    });
+  });
+}
+
+async function handle(handlers: ControlHandlers, req: IncomingMessage, res: ServerResponse) {
+  const route = `${req.method} ${new URL(req.url ?? '/', 'http://agent').pathname}`;
+  if (route === 'GET /state') return reply(res, 200, handlers.state());
+  if (route !== 'POST /task' && route !== 'POST /motion') return reply(res, 404, { ok: false, error: `no route ${route}; try POST /task, POST /motion or GET /state` });
+  const body = await readJson(req);
+  if (!body.ok) return reply(res, 400, { ok: false, error: `${route}: ${body.error}` });
+  if (route === 'POST /task') {
+    const parsed = taskBody.safeParse(body.value);
+    if (!parsed.success) return reply(res, 400, { ok: false, error: `${route}: ${parsed.error.issues[0]!.path.join('.') || '(root)'}: ${parsed.error.issues[0]!.message}` });
+    const result = await handlers.setTask(parsed.data.task);
+    return reply(res, result.status, result.body);
+  }
+  const parsed = motionBody.safeParse(body.value);
+  if (!parsed.success) return reply(res, 400, { ok: false, error: `${route}: ${parsed.error.issues[0]!.path.join('.') || '(root)'}: ${parsed.error.issues[0]!.message}` });
+  const result = handlers.setMotion(parsed.data.moving);
+  return reply(res, result.status, result.body);
+}
+
+/**
+ * The robot's local way to tell the agent what it is doing: `POST /task {task}`, `POST /motion
+ * {moving}`, `GET /state`. Listens only on loopback or a Unix socket, and needs no network.
+ */
+export async function startControlServer(endpoint: ControlEndpoint, handlers: ControlHandlers): Promise<ControlServer> {
+  const server: Server = createServer((req, res) => {
+    handle(handlers, req, res).catch((e: unknown) => reply(res, 500, { ok: false, error: (e as Error).message }));
+  });
+  if (endpoint.kind === 'unix' && existsSync(endpoint.socketPath)) unlinkSync(endpoint.socketPath);
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    if (endpoint.kind === 'unix') server.listen(endpoint.socketPath, resolve);
+    else server.listen(endpoint.port, endpoint.host, resolve);
+  });
+  const address = server.address();
+  const actual: ControlEndpoint =
+    endpoint.kind === 'tcp' && typeof address === 'object' && address ? { kind: 'tcp', host: endpoint.host, port: address.port } : endpoint;
+  return {
+    endpoint: actual,
+    close: () =>
+      new Promise<void>((resolve) => {
+        server.closeAllConnections();
+        server.close(() => resolve());
+      }),
+  };
+}

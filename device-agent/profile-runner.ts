@@ -1,0 +1,254 @@
+import { createHash } from 'node:crypto';
+import type { EventBody } from '../src/protocol/messages.js';
+import type { Release } from '../src/protocol/release.js';
+import { verifyRelease } from '../src/protocol/verify-release.js';
+import type { AgentClock } from './clock.js';
+import type { ProfileDriver, ProfileTarget } from './driver.js';
+import type { ReleaseStore } from './release-store.js';
+import { switchProfile } from './switcher.js';
+import { WeightsMismatchError, releaseWeights, type WeightsCache } from './weights-cache.js';
+
+export interface RunnerDeps {
+  driver: ProfileDriver;
+  clock: AgentClock;
+  cache: WeightsCache;
+  releases: ReleaseStore;
+  publicKeyPem: string;
+  deviceClassId: string;
+  emit(body: EventBody): void;
+  /** Something in the state message changed. */
+  changed(): void;
+  log(line: string): void;
+}
+
+export interface RunnerView {
+  release: Release | null;
+  activeTask: string | null;
+  running: ProfileTarget | null;
+  moving: boolean;
+  pending: { releaseId: string; version: number; reason: string } | null;
+  refused: { releaseId: string | null; reason: string } | null;
+}
+
+export type TaskResult = { status: number; body: { ok: boolean; [k: string]: unknown } };
+
+interface Pending { release: Release; raw: unknown; ready: boolean; reason: string; deferReported: boolean; retryMs: number }
+
+export const clip = (text: string, max: number) => (text.length <= max ? text : `${text.slice(0, max - 1)}…`);
+
+/**
+ * What the device runs and why. Releases are verified, their weights fetched, then applied as one
+ * switch; tasks switch within the applied release. Every change of the driver goes through one queue,
+ * so switches never overlap.
+ *
+ * Which release runs: the device runs the release currently assigned to it (the retained message on
+ * its release topic) as soon as it verifies — signature by the trusted key, schema, device class —
+ * and its weights are present and match. A lower version is not refused: a rollback is the
+ * assignment of an older, still validly signed release. A release that fails verification, whose
+ * weights do not match, or whose switch fails is refused and remembered (by content) so a
+ * redelivery of the same bytes is not tried again until the agent restarts.
+ */
+export function createProfileRunner(deps: RunnerDeps) {
+  const { driver, clock, cache } = deps;
+  let applied: { release: Release; raw: unknown } | null = null;
+  let activeTask: string | null = null;
+  let running: ProfileTarget | null = null;
+  let moving = false;
+  let pending: Pending | null = null;
+  let refused: RunnerView['refused'] = null;
+  const refusedContent = new Set<string>();
+  let queue: Promise<unknown> = Promise.resolve();
+  let retryTimer: NodeJS.Timeout | null = null;
+
+  function exclusive<T>(fn: () => Promise<T>): Promise<T> {
+    const next = queue.then(fn);
+    queue = next.catch(() => {});
+    return next;
+  }
+
+  function target(release: Release, taskName: string): ProfileTarget {
+    const task = release.tasks[taskName]!;
+    return { releaseId: release.id, taskName, task, deviceClass: release.deviceClass, weightsPath: cache.pathOf(task.model.sha256) };
+  }
+
+  function refuse(releaseId: string | null, reason: string, contentKey?: string) {
+    refused = { releaseId, reason: clip(reason, 2000) };
+    if (contentKey) refusedContent.add(contentKey);
+    deps.emit({ type: 'release-refused', releaseId, reason: clip(reason, 2000) });
+    deps.log(`agent: refused release ${releaseId ?? '(unreadable)'}: ${reason}`);
+    deps.changed();
+  }
+
+  function switched(from: string | null, to: ProfileTarget, reason: 'local' | 'command' | 'release' | 'startup', overheadMs: number, actuationMs: number) {
+    deps.emit({
+      type: 'task-switched', fromTask: from, toTask: to.taskName, profileId: to.task.profileId, profileRevision: to.task.revision,
+      releaseId: to.releaseId, reason, overheadMs, actuationMs,
+    });
+  }
+
+  async function prepare(p: Pending): Promise<void> {
+    try {
+      await cache.ensure(p.release);
+    } catch (e) {
+      if (pending !== p) return;
+      if (e instanceof WeightsMismatchError) {
+        pending = null;
+        return refuse(p.release.id, e.message, keyOf(p.raw));
+      }
+      p.reason = clip(`waiting for weights (${(e as Error).message}); retrying in ${p.retryMs / 1000} s`, 500);
+      deps.changed();
+      retryTimer = setTimeout(() => void prepare(p), p.retryMs);
+      retryTimer.unref?.();
+      p.retryMs = Math.min(p.retryMs * 2, 30_000);
+      return;
+    }
+    if (pending !== p) return;
+    p.ready = true;
+    await applyPending();
+  }
+
+  async function applyPending(): Promise<void> {
+    const p = pending;
+    if (!p || !p.ready) return;
+    if (p.release.applyPolicy === 'when-idle' && moving) {
+      p.reason = 'waiting for the robot to stop moving (applyPolicy when-idle)';
+      if (!p.deferReported) deps.emit({ type: 'release-deferred', releaseId: p.release.id, version: p.release.version, reason: p.reason });
+      p.deferReported = true;
+      return deps.changed();
+    }
+    await exclusive(async () => {
+      if (pending !== p || (p.release.applyPolicy === 'when-idle' && moving)) return;
+      const taskName = activeTask !== null && p.release.tasks[activeTask] ? activeTask : p.release.defaultTask;
+      const to = target(p.release, taskName);
+      const t0 = clock.monotonicMs();
+      const outcome = await switchProfile(driver, running, to, clock);
+      const overheadMs = Math.max(0, clock.monotonicMs() - t0 - outcome.actuationMs);
+      pending = null;
+      if (!outcome.ok) {
+        deps.emit({ type: 'switch-failed', toTask: taskName, step: outcome.step, error: clip(outcome.error, 2000), restored: outcome.restored });
+        const back = outcome.restored ? 'the previous profile was restored' : 'the previous profile could not be restored';
+        return refuse(p.release.id, `switch to task ${taskName} failed at ${outcome.step}: ${outcome.error}; ${back}`, keyOf(p.raw));
+      }
+      const fromTask = running ? activeTask : null;
+      applied = { release: p.release, raw: p.raw };
+      activeTask = taskName;
+      running = to;
+      deps.emit({ type: 'release-applied', releaseId: p.release.id, version: p.release.version });
+      switched(fromTask, to, 'release', overheadMs, outcome.actuationMs);
+      deps.changed();
+      await deps.releases.saveRelease(p.raw, p.release.id, taskName).catch((e: unknown) => deps.log(`agent: could not save release: ${(e as Error).message}`));
+      cache.evict(new Set(releaseWeights(p.release).map((m) => m.sha256)));
+    });
+  }
+
+  function keyOf(raw: unknown): string {
+    return createHash('sha256').update(JSON.stringify(raw)).digest('hex');
+  }
+
+  return {
+    /** Start-up: re-verify the release on disk and run the last active task's whole profile. */
+    restore: async function restore(): Promise<void> {
+      const saved = deps.releases.load();
+      if (!saved) return;
+      const verdict = verifyRelease(saved.signed, deps.publicKeyPem, deps.deviceClassId);
+      if (!verdict.ok) return refuse(verdict.releaseId, `the release stored on this device no longer verifies (${verdict.reason}: ${verdict.detail})`);
+      applied = { release: verdict.release, raw: saved.signed };
+      const taskName = saved.activeTask !== null && verdict.release.tasks[saved.activeTask] ? saved.activeTask : verdict.release.defaultTask;
+      activeTask = taskName;
+      const missing = releaseWeights(verdict.release).filter((m) => !cache.has(m.sha256));
+      if (missing.length > 0) {
+        deps.log(`agent: weights of the stored release are missing (${missing.map((m) => m.id).join(', ')}); waiting for the release to arrive again`);
+        return;
+      }
+      await exclusive(async () => {
+        const to = target(verdict.release, taskName);
+        const t0 = clock.monotonicMs();
+        const outcome = await switchProfile(driver, null, to, clock);
+        const overheadMs = Math.max(0, clock.monotonicMs() - t0 - outcome.actuationMs);
+        if (outcome.ok) {
+          running = to;
+          switched(null, to, 'startup', overheadMs, outcome.actuationMs);
+        } else {
+          deps.emit({ type: 'switch-failed', toTask: taskName, step: outcome.step, error: clip(outcome.error, 2000), restored: false });
+        }
+        deps.changed();
+      });
+    },
+
+    /** A payload from the release topic (already JSON-parsed). */
+    offerRelease: async function offerRelease(raw: unknown): Promise<void> {
+      const contentKey = keyOf(raw);
+      if (refusedContent.has(contentKey)) return;
+      const verdict = verifyRelease(raw, deps.publicKeyPem, deps.deviceClassId);
+      if (!verdict.ok) return refuse(verdict.releaseId, `${verdict.reason}: ${verdict.detail}`, contentKey);
+      const release = verdict.release;
+      if (!release.tasks[release.defaultTask]) {
+        return refuse(release.id, `defaultTask ${release.defaultTask} is not one of the release's tasks`, contentKey);
+      }
+      if (applied?.release.id === release.id && running) {
+        if (pending) (pending = null), deps.changed();
+        return;
+      }
+      if (pending?.release.id === release.id) return;
+      if (retryTimer) clearTimeout(retryTimer);
+      pending = { release, raw, ready: false, reason: 'downloading weights', deferReported: false, retryMs: 1000 };
+      deps.changed();
+      await prepare(pending);
+    },
+
+    setTask: function setTask(task: string, reason: 'local' | 'command'): Promise<TaskResult> {
+      return exclusive(async (): Promise<TaskResult> => {
+        const t0 = clock.monotonicMs();
+        if (!applied) return { status: 409, body: { ok: false, error: 'no release is applied yet, so there is no task to switch to' } };
+        if (!applied.release.tasks[task]) {
+          const error = `task ${task} is not in release ${applied.release.id}; it has: ${Object.keys(applied.release.tasks).join(', ')}`;
+          if (reason === 'command') deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
+          return { status: 404, body: { ok: false, error } };
+        }
+        if (task === activeTask && running?.taskName === task) return { status: 200, body: { ok: true, task, unchanged: true, overheadMs: 0, actuationMs: 0 } };
+        const to = target(applied.release, task);
+        const outcome = await switchProfile(driver, running, to, clock);
+        const overheadMs = Math.max(0, clock.monotonicMs() - t0 - outcome.actuationMs);
+        if (!outcome.ok) {
+          deps.emit({ type: 'switch-failed', toTask: task, step: outcome.step, error: clip(outcome.error, 2000), restored: outcome.restored });
+          deps.changed();
+          return { status: 500, body: { ok: false, task, step: outcome.step, error: outcome.error, restored: outcome.restored } };
+        }
+        const fromTask = activeTask;
+        activeTask = task;
+        running = to;
+        switched(fromTask, to, reason, overheadMs, outcome.actuationMs);
+        deps.releases.saveTask(applied.release.id, task);
+        deps.changed();
+        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs } };
+      });
+    },
+
+    setMotion: function setMotion(value: boolean): void {
+      if (value === moving) return;
+      moving = value;
+      deps.emit({ type: 'motion', moving });
+      deps.changed();
+      if (!moving) void applyPending();
+    },
+
+    view: function view(): RunnerView {
+      return {
+        release: applied?.release ?? null,
+        activeTask,
+        running,
+        moving,
+        pending: pending ? { releaseId: pending.release.id, version: pending.release.version, reason: clip(pending.reason, 500) } : null,
+        refused,
+      };
+    },
+
+    /** Resolves when every queued switch has finished. */
+    idle: () => queue.then(() => undefined),
+    close: function close() {
+      if (retryTimer) clearTimeout(retryTimer);
+    },
+  };
+}
+
+export type ProfileRunner = ReturnType<typeof createProfileRunner>;
