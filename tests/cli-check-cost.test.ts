@@ -136,7 +136,7 @@ describe('ocellus cost', () => {
     write('nets/mismatch.json', JSON.stringify({ name: 'x', input: { channels: 3, height: 8, width: 8 }, layers: [{ id: 'a', op: 'conv', out: 3, kernel: 3, groups: 2 }] }));
     const r = await ocellusIn(tmp, 'cost', 'nets/mismatch.json');
     expect(r.code).toBe(2);
-    expect(r.err).toContain('layers[0].groups');
+    expect(r.err).toContain('nets/mismatch.json: layers[0].groups: layer "a": groups 2 does not divide the 3 input channels');
   });
 
   it.each([

@@ -69,6 +69,12 @@ describe('blur tolerance from the accuracy-vs-blur curve (linear interpolation)'
     ];
     expect(toleratedBlurPx({ accuracyVsBlur: bumpy }, 0.85).blurPx).toBeCloseTo(4.63636, 4);
   });
+  it('a model that never reaches the accuracy tolerates 0 px, and the blur check blames the model', () => {
+    const c = checkOf(validate(fixture({ model: { accuracyVsBlur: curve }, task: { minAccuracy: 0.97 } })), 'blur-over-range');
+    expect(c.status).toBe('fail');
+    expect(c.path).toBe('modelId');
+    expect(c.message).toContain('never reaches 0.97');
+  });
   it('without a curve the tolerance is 2 px (common practice: one to two pixel pitches, REFERENCES.md)', () => {
     expect(toleratedBlurPx({}, 0.9).blurPx).toBe(2);
   });

@@ -25,7 +25,7 @@ async function readKind<K extends DocumentKind>(io: CliIo, file: string, kind: K
     const issues = result.issues.map(({ path, message }) => ({ path, message }));
     throw new InputError(`${shown} is not a usable ${kind} document`, issues, shown);
   }
-  return result.document;
+  return { ...result.document, file: shown };
 }
 
 export async function run(args: string[], io: CliIo): Promise<number> {
@@ -56,7 +56,14 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const networkDoc = await readKind(io, positionals[0]!, 'network');
     if (networkDoc.kind !== 'network') throw new UsageError('not a network');
     const network = networkDoc.value;
-    const analysis = analyzeNetwork(network);
+    let analysis;
+    try {
+      analysis = analyzeNetwork(network);
+    } catch (e) {
+      // Name the file as well as the layer.
+      if (e instanceof InputError) throw new InputError(`${networkDoc.file} cannot be costed`, e.issues, networkDoc.file);
+      throw e;
+    }
 
     const deviceDoc = values['device-class'] === undefined ? undefined : await readKind(io, values['device-class'], 'device-class');
     const deviceClass = deviceDoc?.kind === 'device-class' ? deviceDoc.value : undefined;

@@ -69,6 +69,7 @@ export function blurOverRangeCheck(input: ValidationInput, curve: BlurPoint[], t
   const range = `range ${fmt(task.nearDistanceM)}–${fmt(task.farDistanceM)} m, focus ${fmt(profile.camera.focusDistanceM)} m, diffraction ${fmt(worst.diffractionPx)} px`;
   const head = `worst blur ${fmt(worst.totalPx)} px at ${fmt(worst.distanceM)} m (${range}) ${v.text}; tolerance from ${tolerance.basis}`;
   if (v.ok) return makeCheck('blur-over-range', 'pass', worst.totalPx, limit, 'px', 'camera.focusDistanceM', head);
+  if (limit <= 0) return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'modelId', `${head}: no camera setting can help`);
   if (worst.diffractionPx > limit) {
     return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.fNumber',
       `${head}. Diffraction alone at f/${profile.camera.fNumber} exceeds the tolerance: a wider aperture is needed`);
