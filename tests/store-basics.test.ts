@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Readable } from 'node:stream';
 import { afterEach, describe, expect, it } from 'vitest';
-import { applyMigrations, createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../src/store/index.js';
+import { applyMigrations, createBlobStore, loadOrCreateSigningKey, migrations, openStore, type Store } from '../src/store/index.js';
 import { generateSigningKeyPair } from '../src/protocol/signing.js';
 
 const dirs: string[] = [];
@@ -27,7 +27,7 @@ afterEach(() => {
 const at = '2025-03-01T10:00:00.000Z';
 
 describe('opening the store', () => {
-  it('uses WAL with foreign keys on and records migration 1 once across reopenings', () => {
+  it('uses WAL with foreign keys on and records each migration once across reopenings', () => {
     const dir = tempDir();
     const s1 = open(dir);
     expect(s1.db.pragma('journal_mode', { simple: true })).toBe('wal');
@@ -35,7 +35,7 @@ describe('opening the store', () => {
     s1.close();
     const s2 = open(dir);
     const rows = s2.db.prepare('SELECT version FROM schema_migrations').all();
-    expect(rows).toEqual([{ version: 1 }]);
+    expect(rows).toEqual(migrations.map((m) => ({ version: m.version })));
     expect(applyMigrations(s2.db)).toEqual([]);
   });
 

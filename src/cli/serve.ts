@@ -1,0 +1,60 @@
+import { resolve } from 'node:path';
+import { startServer } from '../runtime/start-server.js';
+import { guard, optionalNumber, parseFlags } from './args.js';
+import { EXIT_OK } from './io.js';
+import type { CliIo } from './io.js';
+
+export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mb 512]
+  Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
+  (database, model weights, signing key). Listens on loopback unless --host says otherwise.
+  Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as an admin token on the first start, when
+  no token exists yet. Stops cleanly on Ctrl-C (SIGINT) or SIGTERM.
+`;
+
+/** Resolves when the process is asked to stop. */
+function stopSignal(): Promise<string> {
+  return new Promise((resolvePromise) => {
+    const onSignal = (signal: string) => {
+      process.off('SIGINT', onSignal);
+      process.off('SIGTERM', onSignal);
+      resolvePromise(signal);
+    };
+    process.on('SIGINT', onSignal);
+    process.on('SIGTERM', onSignal);
+  });
+}
+
+export async function run(args: string[], io: CliIo): Promise<number> {
+  return guard(io, usage, async () => {
+    const { values } = parseFlags(args, {
+      port: { type: 'string' },
+      host: { type: 'string' },
+      data: { type: 'string' },
+      'max-weights-mb': { type: 'string' },
+      help: { type: 'boolean' },
+    });
+    if (values.help) return io.stdout(usage), EXIT_OK;
+    const port = optionalNumber(values, 'port', 8080, { positive: false, integer: true });
+    const maxWeightsMb = optionalNumber(values, 'max-weights-mb', 512);
+    const dataDir = resolve(io.cwd, values.data ?? 'ocellus-data');
+    const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
+    const server = await startServer({
+      dataDir,
+      host: values.host ?? '127.0.0.1',
+      port,
+      maxWeightsBytes: Math.floor(maxWeightsMb * 1024 * 1024),
+      ...(adminToken ? { adminToken } : {}),
+      log: (line) => io.stderr(`${line}\n`),
+    });
+    if (server.adminSeed === 'stored') io.stderr('ocellus: stored OCELLUS_ADMIN_TOKEN as the first admin token\n');
+    if (server.adminSeed === 'not-first-start') io.stderr('ocellus: OCELLUS_ADMIN_TOKEN ignored: tokens already exist (manage them with an admin token)\n');
+    if (server.store.tokens.count() === 0) {
+      io.stderr(`ocellus: no API tokens yet; create one with: ocellus token create --role admin --data ${dataDir}\n`);
+    }
+    io.stdout(`${server.url}\n`);
+    const signal = await stopSignal();
+    io.stderr(`ocellus: ${signal}: closing\n`);
+    await server.close();
+    return EXIT_OK;
+  });
+}
