@@ -15,6 +15,12 @@ export interface AssignInput {
   cause: string;
   /** ISO time of the assignment; now when absent. */
   at?: string;
+  /**
+   * Runs inside the assignment's transaction with the new assignment row, so a caller's own bookkeeping
+   * (a rollout marking its device assigned) lands together with it or not at all: if it throws, nothing
+   * is recorded or sent and the error reaches the caller.
+   */
+  withinTransaction?: (assignment: AssignmentRecord) => void;
 }
 
 export type PublishOutcome = { status: 'sent' } | { status: 'not-sent'; reason: string };
@@ -52,6 +58,7 @@ export async function assignRelease(store: Store, publisher: ReleasePublisher | 
       target: `device/${device.id}`,
       detail: { releaseId: record.id, version: record.version, cause: input.cause, previousReleaseId: device.assignedReleaseId },
     });
+    input.withinTransaction?.(a);
     return a;
   });
   if (!publisher) return { ok: true, assignment, release: signed, publish: { status: 'not-sent', reason: 'no bus connected to this server' } };

@@ -123,6 +123,61 @@ export const migrations: Migration[] = [
       );
     `,
   },
+  {
+    version: 3,
+    name: 'fleet: rollouts, rollout devices, drift onsets',
+    sql: `
+      CREATE TABLE rollouts (
+        id TEXT PRIMARY KEY,
+        release_id TEXT NOT NULL REFERENCES releases(id),
+        device_class_id TEXT NOT NULL,
+        status TEXT NOT NULL CHECK (status IN ('running', 'paused', 'completed', 'aborted', 'rolling-back', 'rolled-back')),
+        spec TEXT NOT NULL,
+        wave_count INTEGER NOT NULL CHECK (wave_count > 0),
+        current_wave INTEGER NOT NULL CHECK (current_wave >= 0),
+        wave_started_at TEXT,
+        pause_reason TEXT,
+        rollback_by TEXT,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        updated_at TEXT NOT NULL
+      );
+      CREATE INDEX rollouts_by_status ON rollouts (status);
+
+      CREATE TABLE rollout_devices (
+        rollout_id TEXT NOT NULL REFERENCES rollouts(id),
+        device_id TEXT NOT NULL REFERENCES devices(id),
+        wave INTEGER NOT NULL CHECK (wave >= 0),
+        position INTEGER NOT NULL,
+        status TEXT NOT NULL CHECK (status IN ('waiting', 'assigned', 'applied', 'passed', 'failed', 'skipped')),
+        reason TEXT,
+        previous_release_id TEXT,
+        assignment_id INTEGER REFERENCES assignments(id),
+        assigned_at TEXT,
+        events_after_seq INTEGER NOT NULL DEFAULT 0,
+        applied_at TEXT,
+        rollback_status TEXT CHECK (rollback_status IN ('assigned', 'restored', 'nothing-to-restore')),
+        rollback_assignment_id INTEGER REFERENCES assignments(id),
+        PRIMARY KEY (rollout_id, device_id)
+      ) WITHOUT ROWID;
+      CREATE INDEX rollout_devices_by_device ON rollout_devices (device_id, rollout_id);
+      CREATE INDEX rollout_devices_by_wave ON rollout_devices (rollout_id, wave, position);
+
+      CREATE TABLE drift_events (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        device_id TEXT NOT NULL,
+        device_class_id TEXT NOT NULL,
+        quantity TEXT NOT NULL CHECK (quantity IN ('latency', 'energy')),
+        onset_at TEXT NOT NULL,
+        cleared_at TEXT,
+        device_factor REAL NOT NULL,
+        class_factor REAL NOT NULL,
+        deviation REAL NOT NULL,
+        tolerance REAL NOT NULL
+      );
+      CREATE INDEX drift_events_by_device ON drift_events (device_id, quantity, id);
+    `,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

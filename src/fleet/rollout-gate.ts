@@ -1,0 +1,106 @@
+import type { RolloutDeviceStatus } from '../store/rollouts.js';
+import type { GateSettings, OfflinePolicy } from './rollout-spec.js';
+
+/** What the server knows of one device of a wave, gathered from its state and its events since it was assigned. */
+export interface DeviceFacts {
+  status: RolloutDeviceStatus;
+  online: boolean;
+  /** ms since the wave started (for devices still waiting to be assigned). */
+  sinceWaveStartMs: number;
+  /** ms since the device was assigned (or its gate was reopened); null before. */
+  sinceAssignedMs: number | null;
+  /** ms since it was seen applying the release; null before. */
+  sinceAppliedMs: number | null;
+  /** The device reports this release as the one it runs, or sent release-applied for it. */
+  applied: boolean;
+  /** Why the device refused this release (release-refused event, or its state's `refused`); null when it did not. */
+  refusedReason: string | null;
+  /** Why the device holds the release back (its state's `pending`), e.g. waiting for the robot to stop. */
+  pendingReason: string | null;
+  /** Telemetry on this release since assignment: frames, and frame-weighted sums of measured and predicted inference ms. */
+  telemetry: { frames: number; measuredMsSum: number; predictedMsSum: number };
+}
+
+export interface GateContext {
+  gate: GateSettings;
+  offline: OfflinePolicy;
+  /** Measured ÷ predicted latency of the device class from calibration, or 1 when there is not enough data. */
+  latencyFactor: number;
+}
+
+/** What the engine should do with a device: keep it as is, move it to a new status, or assign it now. */
+export type DeviceVerdict =
+  | { action: 'keep' }
+  | { action: 'assign' }
+  | { action: 'set'; status: RolloutDeviceStatus; reason: string | null };
+
+const s = (ms: number) => `${Math.round(ms / 100) / 10} s`;
+
+function offlineVerdict(facts: DeviceFacts, sinceMs: number, ctx: GateContext): DeviceVerdict {
+  if (sinceMs <= ctx.offline.waitS * 1000) return { action: 'keep' };
+  const reason = `offline for more than ${ctx.offline.waitS} s (policy: ${ctx.offline.then})`;
+  if (ctx.offline.then === 'skip' && facts.status === 'waiting') return { action: 'set', status: 'skipped', reason };
+  if (ctx.offline.then === 'skip') return { action: 'set', status: 'skipped', reason: `${reason}; it keeps the assignment and applies it when it returns` };
+  return { action: 'set', status: 'failed', reason };
+}
+
+/** The latency part of the gate: measured mean against the calibrated prediction, within the tolerance. */
+export function latencyVerdict(t: DeviceFacts['telemetry'], ctx: GateContext): { ok: boolean; ratio: number; reason: string } {
+  const expectedMs = (t.predictedMsSum / t.frames) * ctx.latencyFactor;
+  const measuredMs = t.measuredMsSum / t.frames;
+  const ratio = expectedMs > 0 ? measuredMs / expectedMs : Number.POSITIVE_INFINITY;
+  const off = Math.round((ratio - 1) * 1000) / 10;
+  const calibrated = ctx.latencyFactor === 1 ? 'uncalibrated' : `calibrated ×${ctx.latencyFactor.toFixed(3)}`;
+  return {
+    ok: Math.abs(ratio - 1) <= ctx.gate.latencyTolerance,
+    ratio,
+    reason: `mean inference ${measuredMs.toFixed(2)} ms over ${t.frames} frames is ${off > 0 ? '+' : ''}${off}% from the expected ${expectedMs.toFixed(2)} ms (${calibrated}; tolerance ±${ctx.gate.latencyTolerance * 100}%)`,
+  };
+}
+
+/**
+ * One device's step through the gate: waiting (assign once online; the offline policy after waitS) →
+ * assigned (applied, or refused, or timed out) → applied (enough telemetry within the latency tolerance)
+ * → passed. Pure: the engine gathers the facts and stores the verdict.
+ */
+export function judgeDevice(facts: DeviceFacts, ctx: GateContext): DeviceVerdict {
+  switch (facts.status) {
+    case 'waiting':
+      return facts.online ? { action: 'assign' } : offlineVerdict(facts, facts.sinceWaveStartMs, ctx);
+    case 'assigned': {
+      if (facts.refusedReason !== null) return { action: 'set', status: 'failed', reason: `refused the release: ${facts.refusedReason}` };
+      if (facts.applied) return { action: 'set', status: 'applied', reason: null };
+      const since = facts.sinceAssignedMs ?? 0;
+      if (!facts.online) return offlineVerdict(facts, since, ctx);
+      if (since > ctx.gate.applyTimeoutS * 1000) {
+        const pending = facts.pendingReason ? ` (the device holds it back: ${facts.pendingReason})` : '';
+        return { action: 'set', status: 'failed', reason: `not applied within ${ctx.gate.applyTimeoutS} s${pending}` };
+      }
+      return { action: 'keep' };
+    }
+    case 'applied': {
+      if (ctx.gate.telemetryFrames === 0) return { action: 'set', status: 'passed', reason: null };
+      if (facts.telemetry.frames >= ctx.gate.telemetryFrames) {
+        const v = latencyVerdict(facts.telemetry, ctx);
+        return v.ok ? { action: 'set', status: 'passed', reason: v.reason } : { action: 'set', status: 'failed', reason: v.reason };
+      }
+      const since = facts.sinceAppliedMs ?? 0;
+      if (since > ctx.gate.telemetryTimeoutS * 1000) {
+        return {
+          action: 'set',
+          status: 'failed',
+          reason: `${facts.telemetry.frames} of ${ctx.gate.telemetryFrames} telemetry frames within ${ctx.gate.telemetryTimeoutS} s of applying (${s(since)} so far)`,
+        };
+      }
+      return { action: 'keep' };
+    }
+    default:
+      return { action: 'keep' };
+  }
+}
+
+/** A wave passes when every device passed or was skipped; it fails as soon as any device failed. */
+export function waveOutcome(statuses: readonly RolloutDeviceStatus[]): 'passed' | 'failed' | 'open' {
+  if (statuses.some((st) => st === 'failed')) return 'failed';
+  return statuses.every((st) => st === 'passed' || st === 'skipped') ? 'passed' : 'open';
+}
