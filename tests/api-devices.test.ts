@@ -2,6 +2,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { ASSIGN_CAUTION } from '../src/api/index.js';
 import type { SignedRelease } from '../src/protocol/release.js';
 import { verifyRelease } from '../src/protocol/verify-release.js';
+import { createDeviceStateRepository } from '../src/store/device-state.js';
 import { createHarness, deviceClass, goodProfile, removeDir, seedCatalog, tempDataDir, type Harness } from './api-fixtures.js';
 
 let h: Harness;
@@ -64,6 +65,25 @@ describe('device enrolment', () => {
     const byClass = (await (await h.call('GET', `/api/v1/devices?class=${deviceClass.id}`)).json()) as Array<{ id: string }>;
     expect(byClass.map((d) => d.id)).toEqual(['gh-01', 'gh-02']);
     expect(((await (await h.call('GET', '/api/v1/devices?class=other')).json()) as unknown[]).length).toBe(0);
+  });
+});
+
+describe('online state from the bus bridge', () => {
+  it('filters devices by the online flag of their last state and counts them in /metrics', async () => {
+    await enrol('gh-01');
+    await enrol('gh-02');
+    await enrol('gh-03');
+    const states = createDeviceStateRepository(h.store.db);
+    const at = '2025-03-01T10:00:00.000Z';
+    states.putState('gh-01', { online: true, releaseId: null, releaseVersion: null, activeTask: null }, at);
+    states.putState('gh-02', { online: false, releaseId: null, releaseVersion: null, activeTask: null }, at);
+    const online = (await (await h.call('GET', '/api/v1/devices?online=true')).json()) as Array<{ id: string; lastSeenAt: string }>;
+    expect(online.map((d) => d.id)).toEqual(['gh-01']);
+    expect(online[0]!.lastSeenAt).toBe(at);
+    const offline = (await (await h.call('GET', '/api/v1/devices?online=false')).json()) as Array<{ id: string }>;
+    expect(offline.map((d) => d.id)).toEqual(['gh-02', 'gh-03']);
+    expect(await (await h.call('GET', '/metrics')).text()).toMatch(/^ocellus_devices_online 1$/m);
+    expect((await h.call('GET', '/api/v1/devices?online=maybe')).status).toBe(400);
   });
 });
 
