@@ -10,6 +10,9 @@ import { openApiDocument } from './openapi.js';
 import { registerProfileRoutes } from './profiles-routes.js';
 import { registerReleaseRoutes } from './releases-routes.js';
 import { createRouter } from './routing.js';
+import { registerCalibrationRoutes } from './calibration-routes.js';
+import { registerHistoryRoutes } from './history-routes.js';
+import { registerRolloutRoutes } from './rollouts-routes.js';
 import { registerTokenAndAuditRoutes } from './tokens-routes.js';
 import { registerWeightsRoutes } from './weights-routes.js';
 
@@ -42,6 +45,9 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
   registerProfileRoutes(route, resolved);
   registerReleaseRoutes(route, resolved);
   registerDeviceRoutes(route, resolved);
+  registerRolloutRoutes(route, resolved);
+  registerHistoryRoutes(route, resolved);
+  registerCalibrationRoutes(route, resolved);
   registerTokenAndAuditRoutes(route, resolved);
   const openapi = openApiDocument();
   route('openapi', (c) => c.json(openapi));

@@ -1,4 +1,6 @@
 import type { z } from 'zod';
+import { driftQuerySchema, historyQuerySchema, reportQuerySchema, rolloutQuerySchema } from '../fleet/queries.js';
+import { rolloutRequestSchema } from '../fleet/rollout-spec.js';
 import { deviceClassSchema } from '../schema/device-class.js';
 import { modelSchema } from '../schema/model.js';
 import { networkSchema } from '../schema/network.js';
@@ -99,6 +101,23 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'tokens.create', method: 'post', path: T, access: 'admin', mutates: true, body: tokenRequestSchema, summary: 'Create an API token; the secret is shown once', tag: 'tokens' },
   { key: 'tokens.list', method: 'get', path: T, access: 'admin', mutates: false, summary: 'List API tokens (never their secrets)', tag: 'tokens' },
   { key: 'tokens.revoke', method: 'post', path: `${T}/:id/revoke`, access: 'admin', mutates: true, summary: 'Revoke an API token', tag: 'tokens' },
+
+  { key: 'rollouts.create', method: 'post', path: `${API_BASE}/rollouts`, access: 'operator', mutates: true, body: rolloutRequestSchema, summary: 'Start a staged rollout of a release: waves, each passing its gate (applied, not refused, latency within tolerance) before the next', tag: 'rollouts' },
+  { key: 'rollouts.list', method: 'get', path: `${API_BASE}/rollouts`, access: 'viewer', mutates: false, query: rolloutQuerySchema, summary: 'List rollouts, newest first', tag: 'rollouts' },
+  { key: 'rollouts.read', method: 'get', path: `${API_BASE}/rollouts/:id`, access: 'viewer', mutates: false, summary: 'A rollout: its waves, every device with its gate status and reason, why it paused', tag: 'rollouts' },
+  { key: 'rollouts.pause', method: 'post', path: `${API_BASE}/rollouts/:id/pause`, access: 'operator', mutates: true, summary: 'Pause a running rollout (no further assignments)', tag: 'rollouts' },
+  { key: 'rollouts.resume', method: 'post', path: `${API_BASE}/rollouts/:id/resume`, access: 'operator', mutates: true, summary: 'Resume a paused rollout: failed devices of the current wave pass their gate again', tag: 'rollouts' },
+  { key: 'rollouts.abort', method: 'post', path: `${API_BASE}/rollouts/:id/abort`, access: 'operator', mutates: true, summary: 'Stop a rollout for good; devices keep what they have', tag: 'rollouts' },
+  { key: 'rollouts.rollback', method: 'post', path: `${API_BASE}/rollouts/:id/rollback`, access: 'operator', mutates: true, summary: "Re-assign every moved device's previous release and track until each runs it", tag: 'rollouts' },
+  { key: 'devices.history', method: 'get', path: `${D}/:id/history`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Which task profile a device ran when, with the change that caused it (JSON, or CSV with Accept: text/csv or format=csv)', tag: 'history' },
+  { key: 'devices.usage', method: 'get', path: `${D}/:id/usage`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Seconds, frames and energy per UTC day and task, from telemetry', tag: 'history' },
+  { key: 'history.task', method: 'get', path: `${API_BASE}/history/tasks/:id`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Every device\'s intervals running one task', tag: 'history' },
+  { key: 'history.release', method: 'get', path: `${API_BASE}/history/releases/:id`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Every device\'s intervals running one release', tag: 'history' },
+  { key: 'calibration.list', method: 'get', path: `${API_BASE}/calibration`, access: 'viewer', mutates: false, summary: 'Measured ÷ predicted inference latency and energy of every device class, with sample counts and spread', tag: 'calibration' },
+  { key: 'calibration.class', method: 'get', path: `${API_BASE}/calibration/device-classes/:id`, access: 'viewer', mutates: false, summary: 'Calibration of one device class and of each of its devices', tag: 'calibration' },
+  { key: 'calibration.device', method: 'get', path: `${API_BASE}/calibration/devices/:id`, access: 'viewer', mutates: false, summary: 'Calibration of one device and its drift episodes', tag: 'calibration' },
+  { key: 'calibration.report', method: 'get', path: `${API_BASE}/calibration/profiles/:id/report`, access: 'viewer', mutates: false, query: reportQuerySchema, summary: "A profile revision's validation report with its device class's calibration applied (when there is enough telemetry)", tag: 'calibration' },
+  { key: 'drift.list', method: 'get', path: `${API_BASE}/drift`, access: 'viewer', mutates: false, query: driftQuerySchema, summary: 'Drift episodes: devices whose measured ÷ predicted ratio left their class by more than the tolerance', tag: 'calibration' },
 
   { key: 'audit', method: 'get', path: `${API_BASE}/audit`, access: 'viewer', mutates: false, query: auditQuerySchema, summary: 'Audit log of every change, newest first', tag: 'audit' },
   { key: 'openapi', method: 'get', path: `${API_BASE}/openapi.json`, access: 'public', mutates: false, summary: 'This document', tag: 'meta' },

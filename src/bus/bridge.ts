@@ -22,7 +22,7 @@ export interface BridgeOptions {
   /** A client logged in as the server's own account; the bridge subscribes on every (re)connect. */
   mqttClient: MqttClient;
   store: Pick<Store, 'db' | 'devices' | 'transaction'>;
-  clock: { now(): number };
+  clock: { now(): Date };
   metrics?: MetricsRegistry;
   log?: (line: string) => void;
 }
@@ -42,6 +42,8 @@ export interface Bridge extends ReleasePublisher {
   /** Removes the retained release of a device (an empty retained payload), e.g. when it is withdrawn. */
   clearRelease(deviceId: string): Promise<void>;
   readonly deviceStates: DeviceStateRepository;
+  /** Calls `listener` with the ids of the devices whose state or events were just stored (e.g. for live pages); returns the unsubscribe. */
+  onStored(listener: (deviceIds: string[]) => void): () => void;
   stats(): BridgeStats;
   /** Stores everything received so far and sends the acks now, instead of at the end of this tick. */
   flush(): void;
@@ -69,6 +71,7 @@ export function createBridge(options: BridgeOptions): Bridge {
   let pending: Pending = { events: new Map(), states: new Map() };
   let scheduled: NodeJS.Immediate | null = null;
   let closed = false;
+  const storedListeners = new Set<(deviceIds: string[]) => void>();
 
   options.metrics?.gauge(METRIC_NAMES.devicesOnline, 'Devices whose latest state says online', () => [{ value: states.countOnline() }]);
 
@@ -112,7 +115,7 @@ export function createBridge(options: BridgeOptions): Bridge {
     const batch = pending;
     pending = { events: new Map(), states: new Map() };
     if (batch.events.size === 0 && batch.states.size === 0) return;
-    const at = new Date(clock.now()).toISOString();
+    const at = clock.now().toISOString();
     let acks: Map<string, number>;
     try {
       acks = store.transaction(() => {
@@ -137,6 +140,14 @@ export function createBridge(options: BridgeOptions): Bridge {
       // Nothing was acked, so every device resends this batch; the bridge itself keeps running.
       log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`);
       return;
+    }
+    const storedIds = [...new Set([...batch.events.keys(), ...batch.states.keys()])];
+    for (const listener of storedListeners) {
+      try {
+        listener(storedIds);
+      } catch (e) {
+        log(`bus: a stored-change listener failed: ${(e as Error).message}`);
+      }
     }
     for (const [deviceId, upTo] of acks) {
       // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
@@ -174,6 +185,10 @@ export function createBridge(options: BridgeOptions): Bridge {
       await client.publishAsync(deviceTopic(deviceId, 'release'), Buffer.alloc(0), { qos: 1, retain: true });
     },
     deviceStates: states,
+    onStored: function onStored(listener) {
+      storedListeners.add(listener);
+      return () => void storedListeners.delete(listener);
+    },
     stats: function stats() {
       return { ...counts, rejected: rejects.counts() };
     },

@@ -12,7 +12,7 @@ export interface BusOptions {
   external?: { url: string; username: string; password: string };
   /** Where the embedded broker listens (127.0.0.1:1884 by default; port 0 picks a free one), and the server's account on it (random by default). */
   embedded?: { host?: string; port?: number; serverUser?: { username: string; password: string } };
-  clock?: { now(): number };
+  clock?: { now(): Date };
   metrics?: MetricsRegistry;
   log?: (line: string) => void;
 }
@@ -33,7 +33,7 @@ export interface Bus {
  */
 export async function startBus(options: BusOptions): Promise<Bus> {
   const log = options.log ?? (() => {});
-  const clock = options.clock ?? { now: () => Date.now() };
+  const clock = options.clock ?? { now: () => new Date() };
   let broker: EmbeddedBroker | null = null;
   let account: { url: string; username: string; password: string };
   if (options.external) {
@@ -84,4 +84,16 @@ async function republishAssignedReleases(store: Store, bridge: Bridge, log: (lin
     // Republish the stored object as signed: a parsed copy could differ from what the signature covers.
     await bridge.publishRelease(device.id, record!.signed as typeof parsed.data);
   }
+}
+
+/** What startServer's `bus` option expects: the bus started on the server's store and metrics. */
+export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'log'>) {
+  return async function startServerBus(context: { store: Store; metrics: MetricsRegistry; log: (line: string) => void }) {
+    const bus = await startBus({ ...options, store: context.store, metrics: context.metrics, log: context.log });
+    return {
+      publisher: bus.bridge,
+      description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}`,
+      close: () => bus.close(),
+    };
+  };
 }
