@@ -89,6 +89,9 @@ describe('secrets at rest', () => {
     expect(s.devices.enrol({ id: 'gh-01', deviceClassId: 'cam', tags: [], actor: 'op', at })).toBeNull();
     expect(s.verifyDeviceCredentials('gh-01', a.password)).toBe(true);
     expect(s.verifyDeviceCredentials('gh-01', b.password)).toBe(false);
+    // Once verified, the password is remembered for speed; a different one is still refused.
+    expect(s.verifyDeviceCredentials('gh-01', a.password)).toBe(true);
+    expect(s.verifyDeviceCredentials('gh-01', `${a.password}x`)).toBe(false);
     expect(s.verifyDeviceCredentials('gh-99', a.password)).toBe(false);
     const hashes = s.db.prepare('SELECT password_hash FROM devices').all() as Array<{ password_hash: string }>;
     expect(hashes.every((h) => h.password_hash.startsWith('scrypt$'))).toBe(true);

@@ -1,4 +1,5 @@
 import type Database from 'better-sqlite3';
+import { createHash, timingSafeEqual } from 'node:crypto';
 import { hashPassword, newSecret, verifyPassword } from './credentials.js';
 
 export interface DeviceRecord {
@@ -90,6 +91,12 @@ export function createDeviceRepository(db: Database.Database): DeviceRepository 
     return row ? toRecord(row) : null;
   }
 
+  // scrypt takes tens of milliseconds and blocks the event loop; a fleet reconnecting at once would queue
+  // behind it. A password verified once is remembered (as a sha256, in memory only) for this process, keyed
+  // by the stored hash so a changed credential is never matched against the old one.
+  const verified = new Map<string, Buffer>();
+  const digest = (password: string) => createHash('sha256').update(password, 'utf8').digest();
+
   return {
     enrol: function enrol({ id, deviceClassId, tags, actor, at }) {
       if (get(id)) return null;
@@ -106,7 +113,13 @@ export function createDeviceRepository(db: Database.Database): DeviceRepository 
     },
     verifyCredentials: function verifyCredentials(deviceId, password) {
       const row = oneRow.get(deviceId) as Row | undefined;
-      return row !== undefined && verifyPassword(password, row.password_hash);
+      if (row === undefined) return false;
+      const key = `${deviceId}\u0000${row.password_hash}`;
+      const remembered = verified.get(key);
+      if (remembered) return timingSafeEqual(remembered, digest(password));
+      if (!verifyPassword(password, row.password_hash)) return false;
+      verified.set(key, digest(password));
+      return true;
     },
     assign: function assign({ deviceId, releaseId, cause, actor, at }) {
       setRelease.run(releaseId, deviceId);
