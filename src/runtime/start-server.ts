@@ -2,6 +2,7 @@ import type { AddressInfo } from 'node:net';
 import { serve, type ServerType } from '@hono/node-server';
 import { createApp, createSigner, type Clock } from '../api/index.js';
 import type { ReleasePublisher } from '../fleet/assign.js';
+import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout-engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';
 import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
@@ -41,6 +42,8 @@ export interface StartServerOptions {
    * first on shutdown. Without it the server records assignments but cannot send them.
    */
   bus?: (context: BusContext) => Promise<BusAttachment>;
+  /** The rollout engine's timing (tick, calibration refresh, drift tolerance); tests shorten them. */
+  fleet?: Omit<RolloutEngineOptions, 'log'>;
 }
 
 export interface RunningServer {
@@ -75,6 +78,7 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
   const host = options.host ?? '127.0.0.1';
   const store = openStore(options.dataDir);
   let bus: BusAttachment | null = null;
+  let stopEngine: () => Promise<void> = async () => {};
   try {
     const blobs = createBlobStore(options.dataDir);
     const key = loadOrCreateSigningKey(options.dataDir, generateSigningKeyPair);
@@ -94,6 +98,16 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       ...(bus ? { publisher: bus.publisher } : {}),
       ...(options.maxWeightsBytes !== undefined ? { limits: { maxWeightsBytes: options.maxWeightsBytes } } : {}),
     });
+    // Rollouts carry on from the database: one left running by an earlier process continues here.
+    const engine = createRolloutEngine({
+      store,
+      publisher: bus?.publisher,
+      clock: { now: () => (options.clock ? options.clock.now().getTime() : Date.now()) },
+      log,
+      ...options.fleet,
+    });
+    engine.start();
+    stopEngine = () => engine.stop();
     const server = serve({ fetch: app.fetch, port: options.port ?? 8080, hostname: host });
     const address = await listen(server);
     const urlHost = address.family === 'IPv6' ? `[${address.address}]` : address.address;
@@ -114,6 +128,7 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       bus: attached?.description ?? null,
       close: function close() {
         closing ??= (async () => {
+          await stopEngine();
           await attached?.close();
           await new Promise<void>((resolve) => {
             server.close(() => resolve());
@@ -126,6 +141,7 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       },
     };
   } catch (e) {
+    await stopEngine().catch(() => undefined);
     await bus?.close().catch(() => undefined);
     store.close();
     throw e;
