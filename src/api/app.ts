@@ -1,19 +1,21 @@
 import { Hono } from 'hono';
 import { createMetricsRegistry, PROMETHEUS_CONTENT_TYPE } from '../metrics/registry.js';
+import { createChangeFeed } from './change-feed.js';
 import type { AppDeps, AppEnv, ResolvedDeps } from './context.js';
 import { DEFAULT_LIMITS } from './context.js';
+import { registerCalibrationRoutes } from './calibration-routes.js';
 import { registerDeviceRoutes } from './devices-routes.js';
 import { registerDocumentRoutes } from './documents-routes.js';
 import { createErrorHandler, type ErrorBody } from './errors.js';
 import { createHttpMetrics } from './http-metrics.js';
 import { openApiDocument } from './openapi.js';
+import { registerHistoryRoutes } from './history-routes.js';
 import { registerProfileRoutes } from './profiles-routes.js';
+import { registerRolloutRoutes } from './rollouts-routes.js';
 import { registerReleaseRoutes } from './releases-routes.js';
 import { createRouter } from './routing.js';
-import { registerCalibrationRoutes } from './calibration-routes.js';
-import { registerHistoryRoutes } from './history-routes.js';
-import { registerRolloutRoutes } from './rollouts-routes.js';
 import { registerTokenAndAuditRoutes } from './tokens-routes.js';
+import { registerWebRoutes } from './web-routes.js';
 import { registerWeightsRoutes } from './weights-routes.js';
 
 function reportToStderr(error: unknown): void {
@@ -30,6 +32,7 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
     publisher: deps.publisher,
     metrics: deps.metrics ?? createMetricsRegistry(),
     limits: { ...DEFAULT_LIMITS, ...deps.limits },
+    changes: deps.changes ?? createChangeFeed(),
   };
   const app = new Hono<AppEnv>();
   app.use('*', createHttpMetrics(resolved.metrics, resolved.store));
@@ -37,6 +40,8 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
   app.notFound((c) => c.json({ error: `no route ${c.req.method} ${c.req.path}`, issues: [] } satisfies ErrorBody, 404));
 
   const route = createRouter(app, resolved.store);
+  // First: its middleware announces every successful change made through the routes registered after it.
+  registerWebRoutes(app, route, resolved, deps.consoleDir);
   registerDocumentRoutes(route, resolved, 'device-classes');
   registerDocumentRoutes(route, resolved, 'networks');
   registerDocumentRoutes(route, resolved, 'tasks');

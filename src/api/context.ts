@@ -1,4 +1,5 @@
 import type { MetricsRegistry } from '../metrics/registry.js';
+import type { ChangeFeed } from './change-feed.js';
 import type { ReleasePublisher } from '../fleet/assign.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
@@ -34,6 +35,10 @@ export interface AppDeps {
   limits?: Partial<ApiLimits>;
   /** Called with faults of the server (500s); defaults to writing the stack to stderr. */
   onError?: ErrorReporter;
+  /** Fleet changes for the console's live updates; hand in the one the bus bridge publishes to. */
+  changes?: ChangeFeed;
+  /** The built web console served on `/` (default: dist/console, built by `npm install`). */
+  consoleDir?: string;
 }
 
 export interface ResolvedDeps {
@@ -44,6 +49,7 @@ export interface ResolvedDeps {
   publisher: ReleasePublisher | undefined;
   metrics: MetricsRegistry;
   limits: ApiLimits;
+  changes: ChangeFeed;
 }
 
 /** Who made a request: a bearer token, or a device with its own MQTT credentials (weights downloads only). */

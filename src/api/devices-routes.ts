@@ -26,7 +26,8 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
 
   function view(d: DeviceRecord) {
     const state = stateRepo()?.get(d.id) ?? null;
-    return { ...d, online: stateRepo() ? (state?.online ?? false) : null, lastSeenAt: state?.lastSeenAt ?? null };
+    // reportedState: the device's latest state message (active task, applied and pending release), for fleet lists.
+    return { ...d, online: stateRepo() ? (state?.online ?? false) : null, lastSeenAt: state?.lastSeenAt ?? null, reportedState: state?.state ?? null };
   }
 
   route('devices.enrol', async (c) => {

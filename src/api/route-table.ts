@@ -120,6 +120,8 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'drift.list', method: 'get', path: `${API_BASE}/drift`, access: 'viewer', mutates: false, query: driftQuerySchema, summary: 'Drift episodes: devices whose measured ÷ predicted ratio left their class by more than the tolerance', tag: 'calibration' },
 
   { key: 'audit', method: 'get', path: `${API_BASE}/audit`, access: 'viewer', mutates: false, query: auditQuerySchema, summary: 'Audit log of every change, newest first', tag: 'audit' },
+  { key: 'whoami', method: 'get', path: `${API_BASE}/whoami`, access: 'viewer', mutates: false, summary: "The calling token: its id, label, role and the keys of the routes it may call", tag: 'meta' },
+  { key: 'events.stream', method: 'get', path: `${API_BASE}/events/stream`, access: 'viewer', mutates: false, summary: 'Server-sent events of fleet changes: device state or events stored by the bus, and changes made through the API', tag: 'meta' },
   { key: 'openapi', method: 'get', path: `${API_BASE}/openapi.json`, access: 'public', mutates: false, summary: 'This document', tag: 'meta' },
   { key: 'metrics', method: 'get', path: '/metrics', access: 'viewer', mutates: false, summary: 'Prometheus metrics (text exposition format)', tag: 'meta' },
 ];

@@ -1,0 +1,134 @@
+import { num } from '../format.js';
+import { linearScale, logScale, OKABE_ITO } from './scale.js';
+
+export interface BlurPoint {
+  distanceM: number;
+  defocusPx: number | null;
+  diffractionPx: number | null;
+  totalPx: number | null;
+}
+
+interface Props {
+  curve: BlurPoint[];
+  toleratedBlurPx: number | null | undefined;
+  nearM: number;
+  farM: number;
+  focusM: number;
+}
+
+const W = 560;
+const H = 260;
+const M = { left: 52, right: 16, top: 14, bottom: 40 };
+
+function path(points: Array<[number, number]>): string {
+  return points.map(([x, y], i) => `${i === 0 ? 'M' : 'L'}${x.toFixed(1)},${y.toFixed(1)}`).join('');
+}
+
+/**
+ * Blur in pixels against object distance over the task's working range (shaded), with the blur the model
+ * tolerates as a horizontal line and the focus distance marked. Distance runs on a log axis.
+ */
+export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props) {
+  const finite = curve.filter((p) => p.totalPx !== null && Number.isFinite(p.totalPx));
+  const lo = Math.min(nearM, focusM) / 1.35;
+  const hi = Math.max(farM, focusM) * 1.35;
+  const x = logScale([lo, hi], [M.left, W - M.right]);
+  const maxBlur = Math.max(1, toleratedBlurPx ?? 0, ...finite.map((p) => p.totalPx as number));
+  const y = linearScale([0, maxBlur * 1.15], [H - M.bottom, M.top]);
+  const line = (key: 'totalPx' | 'defocusPx' | 'diffractionPx') =>
+    path(curve.filter((p) => p[key] !== null && Number.isFinite(p[key])).map((p) => [x(p.distanceM), y(Math.min(p[key] as number, maxBlur * 1.15))]));
+  const worst = finite.reduce<BlurPoint | null>((w, p) => (w === null || (p.totalPx as number) > (w.totalPx as number) ? p : w), null);
+  const summary =
+    `Blur against distance from ${num(nearM)} m to ${num(farM)} m, focus at ${num(focusM)} m. ` +
+    (worst ? `Worst ${num(worst.totalPx)} px at ${num(worst.distanceM)} m; ` : '') +
+    `the model tolerates ${num(toleratedBlurPx ?? null)} px.`;
+
+  return (
+    <figure class="chart">
+      <svg viewBox={`0 0 ${W} ${H}`} role="img" aria-label={summary} class="chart-svg">
+        <rect x={x(nearM)} y={M.top} width={Math.max(1, x(farM) - x(nearM))} height={H - M.top - M.bottom} class="band" />
+        <text x={(x(nearM) + x(farM)) / 2} y={M.top + 12} class="band-label" text-anchor="middle">
+          working range
+        </text>
+        {y.ticks(5).map((t) => (
+          <g>
+            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
+            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
+              {num(t)}
+            </text>
+          </g>
+        ))}
+        {x.ticks().map((t) => (
+          <g>
+            <line x1={x(t)} x2={x(t)} y1={H - M.bottom} y2={H - M.bottom + 4} class="axis" />
+            <text x={x(t)} y={H - M.bottom + 16} text-anchor="middle" class="tick">
+              {num(t)}
+            </text>
+          </g>
+        ))}
+        <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
+        <line x1={M.left} x2={M.left} y1={M.top} y2={H - M.bottom} class="axis" />
+        <text x={(M.left + W - M.right) / 2} y={H - 6} text-anchor="middle" class="axis-title">
+          object distance (m, log scale)
+        </text>
+        <text x={14} y={(M.top + H - M.bottom) / 2} text-anchor="middle" class="axis-title" transform={`rotate(-90 14 ${(M.top + H - M.bottom) / 2})`}>
+          blur (px)
+        </text>
+        <line x1={x(focusM)} x2={x(focusM)} y1={M.top} y2={H - M.bottom} stroke={OKABE_ITO.bluishGreen} stroke-width="1.5" stroke-dasharray="2 3" />
+        <text x={x(focusM) + 4} y={H - M.bottom - 6} class="tick" fill={OKABE_ITO.bluishGreen}>
+          focus {num(focusM)} m
+        </text>
+        {toleratedBlurPx != null && (
+          <g>
+            <line x1={M.left} x2={W - M.right} y1={y(toleratedBlurPx)} y2={y(toleratedBlurPx)} stroke={OKABE_ITO.vermillion} stroke-width="2" stroke-dasharray="8 3 2 3" />
+            <text x={W - M.right - 4} y={y(toleratedBlurPx) - 5} text-anchor="end" class="tick" fill={OKABE_ITO.vermillion}>
+              tolerated {num(toleratedBlurPx)} px
+            </text>
+          </g>
+        )}
+        <path d={line('diffractionPx')} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="1.5" stroke-dasharray="1 3" />
+        <path d={line('defocusPx')} fill="none" stroke={OKABE_ITO.orange} stroke-width="1.5" stroke-dasharray="5 3" />
+        <path d={line('totalPx')} fill="none" stroke={OKABE_ITO.blue} stroke-width="2.5" />
+      </svg>
+      <figcaption>
+        <ul class="legend">
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.blue} stroke-width="2.5" /></svg> total blur
+          </li>
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.orange} stroke-width="1.5" stroke-dasharray="5 3" /></svg> defocus
+          </li>
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.reddishPurple} stroke-width="1.5" stroke-dasharray="1 3" /></svg> diffraction
+          </li>
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.vermillion} stroke-width="2" stroke-dasharray="8 3 2 3" /></svg> tolerated blur
+          </li>
+        </ul>
+        <details>
+          <summary>Blur figures as a table</summary>
+          <table class="grid compact">
+            <thead>
+              <tr>
+                <th scope="col">distance (m)</th>
+                <th scope="col">defocus (px)</th>
+                <th scope="col">diffraction (px)</th>
+                <th scope="col">total (px)</th>
+              </tr>
+            </thead>
+            <tbody>
+              {curve.map((p) => (
+                <tr>
+                  <td>{num(p.distanceM)}</td>
+                  <td>{num(p.defocusPx)}</td>
+                  <td>{num(p.diffractionPx)}</td>
+                  <td>{num(p.totalPx)}</td>
+                </tr>
+              ))}
+            </tbody>
+          </table>
+        </details>
+      </figcaption>
+    </figure>
+  );
+}

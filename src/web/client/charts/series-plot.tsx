@@ -1,0 +1,99 @@
+import { clockTime, num } from '../format.js';
+import { linearScale, OKABE_ITO } from './scale.js';
+import { timeTicks } from './time-axis.js';
+
+export interface SeriesPoint {
+  atMs: number;
+  measured: number;
+  predicted: number | null;
+  /** The prediction scaled by the fitted calibration factor, when there is one. */
+  calibrated: number | null;
+}
+
+interface Props {
+  title: string;
+  unit: string;
+  points: SeriesPoint[];
+  fromMs: number;
+  toMs: number;
+}
+
+const W = 1000;
+const H = 200;
+const M = { left: 60, right: 12, top: 22, bottom: 26 };
+
+function steps(points: SeriesPoint[], key: 'predicted' | 'calibrated', x: (v: number) => number, y: (v: number) => number): string {
+  let d = '';
+  let prev: number | null = null;
+  for (const p of points) {
+    const v = p[key];
+    if (v === null) {
+      prev = null;
+      continue;
+    }
+    d += prev === null ? `M${x(p.atMs).toFixed(1)},${y(v).toFixed(1)}` : `H${x(p.atMs).toFixed(1)}V${y(v).toFixed(1)}`;
+    prev = v;
+  }
+  return d;
+}
+
+/** Measured values (dots) against the release's prediction (steps) and the calibrated prediction (dashed steps), over time. */
+export function SeriesPlot({ title, unit, points, fromMs, toMs }: Props) {
+  const inWindow = points.filter((p) => p.atMs >= fromMs && p.atMs <= toMs).sort((a, b) => a.atMs - b.atMs);
+  const maxV = Math.max(1e-9, ...inWindow.flatMap((p) => [p.measured, p.predicted ?? 0, p.calibrated ?? 0]));
+  const x = linearScale([fromMs, toMs], [M.left, W - M.right]);
+  const y = linearScale([0, maxV * 1.15], [H - M.bottom, M.top]);
+  const { ticks, stepMs } = timeTicks(fromMs, toMs);
+  const mean = inWindow.length ? inWindow.reduce((s, p) => s + p.measured, 0) / inWindow.length : null;
+  const label = `${title}: ${inWindow.length} measurements${mean !== null ? `, mean ${num(mean)} ${unit}` : ''}.`;
+  return (
+    <figure class="chart">
+      <svg viewBox={`0 0 ${W} ${H}`} role="img" aria-label={label} class="chart-svg">
+        <text x={M.left} y={14} class="tick">
+          {title} ({unit})
+        </text>
+        {y.ticks(4).map((t) => (
+          <g>
+            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
+            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
+              {num(t)}
+            </text>
+          </g>
+        ))}
+        {ticks.map((t) => (
+          <text x={x(t)} y={H - 8} text-anchor="middle" class="tick">
+            {clockTime(t, stepMs < 300_000)}
+          </text>
+        ))}
+        <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
+        <path d={steps(inWindow, 'predicted', x, y)} fill="none" stroke={OKABE_ITO.orange} stroke-width="2" />
+        <path d={steps(inWindow, 'calibrated', x, y)} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" />
+        {inWindow.map((p) => (
+          <rect x={x(p.atMs) - 3} y={y(p.measured) - 3} width={6} height={6} fill={OKABE_ITO.blue}>
+            <title>
+              {new Date(p.atMs).toLocaleString()}: measured {num(p.measured)} {unit}, predicted {num(p.predicted)} {unit}
+            </title>
+          </rect>
+        ))}
+        {inWindow.length === 0 && (
+          <text x={(M.left + W) / 2} y={H / 2} text-anchor="middle" class="tick">
+            no telemetry in this window
+          </text>
+        )}
+      </svg>
+      <figcaption>
+        <ul class="legend">
+          <li>
+            <span class="swatch swatch-square" style={{ background: OKABE_ITO.blue }} aria-hidden="true" /> measured (mean of a telemetry window)
+          </li>
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.orange} stroke-width="2" /></svg> predicted by the release
+          </li>
+          <li>
+            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" /></svg> prediction × calibration
+          </li>
+        </ul>
+      </figcaption>
+    </figure>
+  );
+}

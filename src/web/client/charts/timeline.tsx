@@ -1,0 +1,190 @@
+import { useRef, useState } from 'preact/hooks';
+import { clockTime, dateTime, duration } from '../format.js';
+import { linearScale, SERIES_COLOURS } from './scale.js';
+import { timeTicks } from './time-axis.js';
+
+export interface TimelineInterval {
+  task: string;
+  profileId: string;
+  profileRevision: number;
+  releaseId: string;
+  start: string;
+  end: string | null;
+  reason: string;
+  cause?: { rolloutId?: string; actor?: string; assignment?: string };
+}
+
+export interface TimelineMark {
+  atMs: number;
+  label: string;
+  kind: 'ok' | 'warn' | 'fail' | 'info';
+}
+
+interface Props {
+  intervals: TimelineInterval[];
+  marks: TimelineMark[];
+  fromMs: number;
+  toMs: number;
+  nowMs: number;
+  /** Drag across the plot to zoom to that stretch. */
+  onSelect(fromMs: number, toMs: number): void;
+}
+
+const W = 1000;
+const LANE_H = 30;
+const M = { left: 130, right: 12, top: 8, bottom: 26 };
+const MARK_LANE_H = 22;
+const MARK_COLOURS = { ok: '#009E73', warn: '#E69F00', fail: '#D55E00', info: '#0072B2' } as const;
+const MARK_ICONS = { ok: '✓', warn: '!', fail: '✕', info: '•' } as const;
+
+function colourOf(key: string, keys: string[]): string {
+  return SERIES_COLOURS[keys.indexOf(key) % SERIES_COLOURS.length]!;
+}
+
+/** Light colours get dark text; the rest white (Okabe–Ito yellow, sky blue and orange are light). */
+function textOn(colour: string): string {
+  return ['#F0E442', '#56B4E9', '#E69F00'].includes(colour) ? '#1d2327' : '#ffffff';
+}
+
+/**
+ * The profiles a device ran, one lane per task: each bar a stretch on one profile revision, coloured by
+ * profile and labelled when wide enough. Bars are focusable; hover or focus shows the details.
+ */
+export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Props) {
+  const tasks = [...new Set(intervals.map((i) => i.task))].sort();
+  const profiles = [...new Set(intervals.map((i) => `${i.profileId}`))].sort();
+  const lanesH = Math.max(1, tasks.length) * LANE_H;
+  const H = M.top + lanesH + MARK_LANE_H + M.bottom;
+  const x = linearScale([fromMs, toMs], [M.left, W - M.right]);
+  const { ticks, stepMs } = timeTicks(fromMs, toMs);
+  const [hover, setHover] = useState<{ text: string[]; xPct: number; yPx: number } | null>(null);
+  const [drag, setDrag] = useState<{ x0: number; x1: number } | null>(null);
+  const svgRef = useRef<SVGSVGElement>(null);
+
+  function svgX(clientX: number): number {
+    const r = svgRef.current!.getBoundingClientRect();
+    return ((clientX - r.left) / r.width) * W;
+  }
+
+  const clamp = (px: number) => Math.min(W - M.right, Math.max(M.left, px));
+  const summary = `${intervals.length} profile intervals on ${tasks.length} task lanes between ${dateTime(new Date(fromMs).toISOString())} and ${dateTime(new Date(toMs).toISOString())}.`;
+
+  return (
+    <div class="timeline">
+      <svg
+        ref={svgRef}
+        viewBox={`0 0 ${W} ${H}`}
+        class="chart-svg timeline-svg"
+        role="group"
+        aria-label={summary}
+        onPointerDown={(e) => {
+          if ((e.target as Element).closest('[data-interval]')) return;
+          const px = clamp(svgX(e.clientX));
+          setDrag({ x0: px, x1: px });
+          (e.currentTarget as Element).setPointerCapture(e.pointerId);
+        }}
+        onPointerMove={(e) => drag && setDrag({ ...drag, x1: clamp(svgX(e.clientX)) })}
+        onPointerUp={() => {
+          if (drag && Math.abs(drag.x1 - drag.x0) > 6) {
+            const a = x.invert(Math.min(drag.x0, drag.x1));
+            const b = x.invert(Math.max(drag.x0, drag.x1));
+            onSelect(Math.round(a), Math.round(b));
+          }
+          setDrag(null);
+        }}
+      >
+        {ticks.map((t) => (
+          <g>
+            <line x1={x(t)} x2={x(t)} y1={M.top} y2={M.top + lanesH + MARK_LANE_H} class="gridline" />
+            <text x={x(t)} y={H - 8} text-anchor="middle" class="tick">
+              {clockTime(t, stepMs < 60_000 * 5)}
+            </text>
+          </g>
+        ))}
+        {tasks.map((task, lane) => (
+          <g>
+            <rect x={M.left} y={M.top + lane * LANE_H} width={W - M.left - M.right} height={LANE_H} class={lane % 2 ? 'lane-odd' : 'lane-even'} />
+            <text x={M.left - 8} y={M.top + lane * LANE_H + LANE_H / 2 + 4} text-anchor="end" class="lane-label">
+              {task}
+            </text>
+          </g>
+        ))}
+        {tasks.length === 0 && (
+          <text x={(M.left + W) / 2} y={M.top + LANE_H / 2 + 4} text-anchor="middle" class="tick">
+            no profile ran in this window
+          </text>
+        )}
+        <text x={M.left - 8} y={M.top + lanesH + MARK_LANE_H / 2 + 4} text-anchor="end" class="lane-label">
+          events
+        </text>
+        {intervals.map((iv) => {
+          const s = Math.max(fromMs, Date.parse(iv.start));
+          const e = Math.min(toMs, iv.end === null ? nowMs : Date.parse(iv.end));
+          if (e <= s) return null;
+          const lane = tasks.indexOf(iv.task);
+          const x0 = x(s);
+          const w = Math.max(2, x(e) - x0);
+          const fill = colourOf(iv.profileId, profiles);
+          const label = `${iv.profileId} r${iv.profileRevision}`;
+          const text = [
+            `${iv.task}: ${iv.profileId} revision ${iv.profileRevision}`,
+            `release ${iv.releaseId}`,
+            `${dateTime(iv.start)} → ${iv.end ? dateTime(iv.end) : 'still running'} (${duration(e - Date.parse(iv.start))})`,
+            `switched: ${iv.reason}${iv.cause?.rolloutId ? `, rollout ${iv.cause.rolloutId}` : ''}${iv.cause?.actor ? ` by ${iv.cause.actor}` : ''}`,
+          ];
+          const show = () => setHover({ text, xPct: ((x0 + w / 2) / W) * 100, yPx: M.top + lane * LANE_H });
+          return (
+            <g
+              data-interval={`${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.start}`}
+              tabIndex={0}
+              role="img"
+              aria-label={text.join('; ')}
+              class="interval"
+              onPointerEnter={show}
+              onPointerLeave={() => setHover(null)}
+              onFocus={show}
+              onBlur={() => setHover(null)}
+            >
+              <rect x={x0} y={M.top + lane * LANE_H + 3} width={w} height={LANE_H - 6} rx={3} fill={fill} />
+              {w > label.length * 7 + 8 && (
+                <text x={x0 + 5} y={M.top + lane * LANE_H + LANE_H / 2 + 4} class="interval-label" fill={textOn(fill)}>
+                  {label}
+                </text>
+              )}
+            </g>
+          );
+        })}
+        {marks
+          .filter((m) => m.atMs >= fromMs && m.atMs <= toMs)
+          .map((m) => {
+            const cx = x(m.atMs);
+            const cy = M.top + lanesH + MARK_LANE_H / 2;
+            const text = [`${m.label}`, dateTime(new Date(m.atMs).toISOString())];
+            const show = () => setHover({ text, xPct: (cx / W) * 100, yPx: cy - 10 });
+            return (
+              <g tabIndex={0} role="img" aria-label={text.join(', ')} class="mark" onPointerEnter={show} onPointerLeave={() => setHover(null)} onFocus={show} onBlur={() => setHover(null)}>
+                <circle cx={cx} cy={cy} r={7} fill={MARK_COLOURS[m.kind]} />
+                <text x={cx} y={cy + 4} text-anchor="middle" class="mark-icon">
+                  {MARK_ICONS[m.kind]}
+                </text>
+              </g>
+            );
+          })}
+        {drag && <rect x={Math.min(drag.x0, drag.x1)} y={M.top} width={Math.abs(drag.x1 - drag.x0)} height={lanesH + MARK_LANE_H} class="selection" />}
+      </svg>
+      {hover && (
+        <div class="tooltip" role="tooltip" style={{ left: `${Math.min(80, Math.max(10, hover.xPct))}%`, top: `${hover.yPx}px` }}>
+          {hover.text.map((t, i) => (i === 0 ? <strong>{t}</strong> : <div>{t}</div>))}
+        </div>
+      )}
+      <ul class="legend">
+        {profiles.map((p) => (
+          <li>
+            <span class="swatch" style={{ background: colourOf(p, profiles) }} aria-hidden="true" />
+            {p}
+          </li>
+        ))}
+      </ul>
+    </div>
+  );
+}

@@ -1,0 +1,158 @@
+import { useMemo } from 'preact/hooks';
+import { SeriesPlot, type SeriesPoint } from '../charts/series-plot.js';
+import type { TimelineInterval, TimelineMark } from '../charts/timeline.js';
+import { useLoad, useSession } from '../context.js';
+import { dateTime, num } from '../format.js';
+
+/** One stored device event as the history route returns it: its seq, time, type and the event's own fields. */
+export interface StoredEvent {
+  seq: number;
+  ts: string;
+  type: string;
+  [field: string]: unknown;
+}
+
+export type DeviceHistory = TimelineInterval[] | { intervals: TimelineInterval[]; events?: StoredEvent[] };
+
+interface Calibration {
+  latency: { factor: number | null };
+  energy: { factor: number | null };
+  enough: boolean;
+  windows?: number;
+}
+
+interface Prediction {
+  inferenceMs: number;
+  inferenceMj: number;
+  frameLatencyMs: number;
+  frameEnergyMj: number;
+}
+
+function eventsOf(h: DeviceHistory | undefined): StoredEvent[] {
+  return !h || Array.isArray(h) ? [] : (h.events ?? []);
+}
+
+const MARK_KIND: Record<string, TimelineMark['kind']> = {
+  'release-applied': 'ok',
+  'release-deferred': 'warn',
+  'release-refused': 'fail',
+  'switch-failed': 'fail',
+  'agent-started': 'info',
+};
+
+function describe(e: StoredEvent): string {
+  switch (e.type) {
+    case 'release-applied':
+      return `applied release ${String(e.releaseId)}`;
+    case 'release-deferred':
+      return `deferred release ${String(e.releaseId)}: ${String(e.reason)}`;
+    case 'release-refused':
+      return `refused release ${String(e.releaseId ?? '')}: ${String(e.reason)}`;
+    case 'switch-failed':
+      return `switch to ${String(e.toTask)} failed at ${String(e.step)}: ${String(e.error)}${e.restored ? ' (restored)' : ''}`;
+    case 'task-switched':
+      return `switched ${String(e.fromTask ?? '—')} → ${String(e.toTask)} (${String(e.reason)}), ${num(e.actuationMs as number)} ms actuation`;
+    case 'telemetry':
+      return `${String(e.task)}: ${String(e.frames)} frames, inference ${num(e.inferenceMsMean as number)} ms, ${num(e.frameEnergyMjMean as number)} mJ/frame`;
+    case 'motion':
+      return e.moving ? 'started moving' : 'stopped';
+    case 'agent-started':
+      return `agent ${String(e.agentVersion)} started`;
+    default:
+      return e.type;
+  }
+}
+
+/** Events that matter on the timeline: releases applied, deferred or refused, failed switches, agent restarts. */
+export function marksOf(h: DeviceHistory | undefined): TimelineMark[] {
+  return eventsOf(h)
+    .filter((e) => MARK_KIND[e.type])
+    .map((e) => ({ atMs: Date.parse(e.ts), label: describe(e), kind: MARK_KIND[e.type]! }));
+}
+
+export function DeviceEvents({ history }: { history: DeviceHistory | undefined }) {
+  const events = eventsOf(history).filter((e) => e.type !== 'telemetry');
+  if (events.length === 0) return null;
+  return (
+    <section aria-labelledby="events-title">
+      <h2 id="events-title">Events in this window</h2>
+      <div class="table-wrap scroll-y">
+        <table class="grid compact" aria-label="Device events">
+          <thead>
+            <tr>
+              <th scope="col">#</th>
+              <th scope="col">When (device clock)</th>
+              <th scope="col">Event</th>
+              <th scope="col">Detail</th>
+            </tr>
+          </thead>
+          <tbody>
+            {[...events].reverse().map((e) => (
+              <tr>
+                <td>{e.seq}</td>
+                <td class="nowrap">{dateTime(e.ts)}</td>
+                <td>
+                  <code>{e.type}</code>
+                </td>
+                <td>{describe(e)}</td>
+              </tr>
+            ))}
+          </tbody>
+        </table>
+      </div>
+    </section>
+  );
+}
+
+/** Measured inference latency and frame energy from telemetry, against the release's prediction and the calibration. */
+export function DeviceMeasurements({ deviceId, history, fromMs, toMs }: { deviceId: string; history: DeviceHistory | undefined; fromMs: number; toMs: number }) {
+  const { api } = useSession();
+  const telemetry = useMemo(() => eventsOf(history).filter((e) => e.type === 'telemetry'), [history]);
+  const releaseIds = [...new Set(telemetry.map((e) => String(e.releaseId)))].sort();
+  const predictions = useLoad(async () => {
+    const out: Record<string, Record<string, Prediction>> = {};
+    await Promise.all(
+      releaseIds.map(async (id) => {
+        const signed = await api.get<{ release: { tasks: Record<string, { predicted: Prediction }> } }>(`/releases/${encodeURIComponent(id)}`);
+        out[id] = Object.fromEntries(Object.entries(signed.release.tasks).map(([t, x]) => [t, x.predicted]));
+      }),
+    );
+    return out;
+  }, [releaseIds.join(',')]);
+  const calibration = useLoad(() => api.get<Calibration | null>(`/calibration/devices/${encodeURIComponent(deviceId)}`).catch(() => null), [deviceId, telemetry.length]);
+
+  const cal = calibration.data;
+  const latency: SeriesPoint[] = [];
+  const energy: SeriesPoint[] = [];
+  for (const e of telemetry) {
+    const p = predictions.data?.[String(e.releaseId)]?.[String(e.task)];
+    const atMs = Date.parse(e.ts);
+    latency.push({
+      atMs,
+      measured: e.inferenceMsMean as number,
+      predicted: p?.inferenceMs ?? null,
+      calibrated: p && cal?.latency.factor ? p.inferenceMs * cal.latency.factor : null,
+    });
+    energy.push({
+      atMs,
+      measured: e.inferenceMjMean as number,
+      predicted: p?.inferenceMj ?? null,
+      calibrated: p && cal?.energy.factor ? p.inferenceMj * cal.energy.factor : null,
+    });
+  }
+
+  return (
+    <section aria-labelledby="measured-title">
+      <h2 id="measured-title">Measured against predicted</h2>
+      <p class="muted">
+        {cal
+          ? `Calibration of this robot: measured inference time is ${num(cal.latency.factor)} × the prediction, energy ${num(cal.energy.factor)} ×${cal.enough ? '' : ' (too few samples to rely on yet)'}.`
+          : 'No calibration for this robot yet.'}
+      </p>
+      <div class="charts">
+        <SeriesPlot title="Inference time per frame" unit="ms" points={latency} fromMs={fromMs} toMs={toMs} />
+        <SeriesPlot title="Inference energy per frame" unit="mJ" points={energy} fromMs={fromMs} toMs={toMs} />
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,143 @@
+import { useState } from 'preact/hooks';
+import { Timeline } from '../charts/timeline.js';
+import { zoomWindow } from '../charts/time-axis.js';
+import { useLiveChanges, useLoad, useSession } from '../context.js';
+import { ago, dateTime } from '../format.js';
+import { href } from '../router.js';
+import type { DeviceDetail } from '../types.js';
+import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
+import { DeviceAssign } from './device-assign.js';
+import { DeviceEvents, DeviceMeasurements, marksOf, type DeviceHistory } from './device-history.js';
+
+const PRESETS: Array<{ label: string; spanMs: number }> = [
+  { label: 'Last day', spanMs: 86_400_000 },
+  { label: '6 h', spanMs: 6 * 3_600_000 },
+  { label: '1 h', spanMs: 3_600_000 },
+  { label: '15 min', spanMs: 15 * 60_000 },
+];
+
+/** One robot: what it reports, the profiles it ran over a chosen window, its events, measured against predicted. */
+export function DevicePage({ deviceId }: { deviceId: string }) {
+  const { api, can } = useSession();
+  const [win, setWin] = useState<{ fromMs: number; toMs: number }>(() => {
+    const now = Date.now();
+    return { fromMs: now - 86_400_000, toMs: now };
+  });
+  const device = useLoad(() => api.get<DeviceDetail>(`/devices/${encodeURIComponent(deviceId)}`), [deviceId]);
+  const history = useLoad(
+    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: new Date(win.toMs).toISOString() }),
+    [deviceId, win.fromMs, win.toMs],
+  );
+  const mine = (c: { kind: string; deviceIds?: string[]; path?: string }) =>
+    c.kind === 'devices' ? (c.deviceIds ?? []).includes(deviceId) : (c.path ?? '').includes(deviceId) || (c.path ?? '').includes('/rollouts');
+  useLiveChanges(() => {
+    device.reload();
+    // Follow the present when the window ends at it, so a live robot's newest stretch shows.
+    if (win.toMs >= Date.now() - 60_000) setWin((w) => ({ fromMs: w.fromMs + (Date.now() - w.toMs), toMs: Date.now() }));
+    else history.reload();
+  }, mine);
+
+  if (device.error) return <ErrorNote error={device.error} title={`Could not load device ${deviceId}`} />;
+  if (!device.data) return <Loading what={`device ${deviceId}`} />;
+  const d = device.data;
+  const s = d.reported?.state ?? d.reportedState;
+  const zoom = (factor: number) => setWin((w) => {
+    const [fromMs, toMs] = zoomWindow(w.fromMs, w.toMs, factor);
+    return { fromMs, toMs };
+  });
+  const pan = (fraction: number) => setWin((w) => {
+    const shift = (w.toMs - w.fromMs) * fraction;
+    return { fromMs: Math.round(w.fromMs + shift), toMs: Math.round(w.toMs + shift) };
+  });
+  const intervals = history.data ? (Array.isArray(history.data) ? history.data : history.data.intervals) : [];
+
+  return (
+    <section aria-labelledby="device-title">
+      <div class="page-head">
+        <p class="crumbs">
+          <a href={href({ page: 'fleet' })}>Fleet</a> /
+        </p>
+        <h1 id="device-title">
+          {d.id} <OnlineBadge online={d.online} />
+        </h1>
+        <dl class="facts">
+          <div>
+            <dt>Class</dt>
+            <dd>{d.deviceClassId}</dd>
+          </div>
+          <div>
+            <dt>Tags</dt>
+            <dd>{d.tags.length ? d.tags.map((t) => <span class="tag">{t}</span>) : '—'}</dd>
+          </div>
+          <div>
+            <dt>Active task</dt>
+            <dd>{s?.activeTask ?? '—'}</dd>
+          </div>
+          <div>
+            <dt>Applied release</dt>
+            <dd>{s?.releaseId ? <code>{s.releaseId}</code> : '—'}</dd>
+          </div>
+          <div>
+            <dt>Assigned release</dt>
+            <dd>{d.assignedReleaseId ? <code>{d.assignedReleaseId}</code> : '—'}</dd>
+          </div>
+          <div>
+            <dt>Waiting to apply</dt>
+            <dd>{s?.pending ? `${s.pending.releaseId}: ${s.pending.reason}` : '—'}</dd>
+          </div>
+          <div>
+            <dt>Moving</dt>
+            <dd>{s ? (s.moving ? 'yes' : 'no') : '—'}</dd>
+          </div>
+          <div>
+            <dt>Last heard</dt>
+            <dd title={dateTime(d.lastSeenAt)}>{ago(d.lastSeenAt)}</dd>
+          </div>
+        </dl>
+        {s?.refused && (
+          <p class="note note-fail">
+            <span aria-hidden="true">✕ </span>The robot refused {s.refused.releaseId ?? 'a release'}: {s.refused.reason}
+          </p>
+        )}
+      </div>
+      {can('devices.assign') && (
+        <>
+          <SafetyCaution />
+          <DeviceAssign deviceId={d.id} deviceClassId={d.deviceClassId} onAssigned={device.reload} />
+        </>
+      )}
+      <h2>Profiles over time</h2>
+      <div class="toolbar" role="toolbar" aria-label="Timeline window">
+        {PRESETS.map((p) => (
+          <button type="button" class="btn btn-small" onClick={() => setWin({ fromMs: Date.now() - p.spanMs, toMs: Date.now() })}>
+            {p.label}
+          </button>
+        ))}
+        <span class="sep" aria-hidden="true" />
+        <button type="button" class="btn btn-small" onClick={() => pan(-0.5)} aria-label="Earlier">
+          ← earlier
+        </button>
+        <button type="button" class="btn btn-small" onClick={() => zoom(0.5)}>
+          zoom in
+        </button>
+        <button type="button" class="btn btn-small" onClick={() => zoom(2)}>
+          zoom out
+        </button>
+        <button type="button" class="btn btn-small" onClick={() => pan(0.5)} aria-label="Later">
+          later →
+        </button>
+        <span class="muted small">
+          {dateTime(new Date(win.fromMs).toISOString())} – {dateTime(new Date(win.toMs).toISOString())} · drag across the chart to zoom to a stretch
+        </span>
+      </div>
+      <ErrorNote error={history.error} title="Could not load the history" />
+      {!history.data && !history.error ? (
+        <Loading what="history" />
+      ) : (
+        <Timeline intervals={intervals} marks={marksOf(history.data)} fromMs={win.fromMs} toMs={win.toMs} nowMs={Date.now()} onSelect={(fromMs, toMs) => setWin({ fromMs, toMs })} />
+      )}
+      <DeviceMeasurements deviceId={d.id} history={history.data} fromMs={win.fromMs} toMs={win.toMs} />
+      <DeviceEvents history={history.data} />
+    </section>
+  );
+}

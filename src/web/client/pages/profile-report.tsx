@@ -1,0 +1,69 @@
+import { BlurPlot, type BlurPoint } from '../charts/blur-plot.js';
+import { StageBars } from '../charts/stage-bars.js';
+import type { Report, Task, ValidationFigures } from '../types.js';
+import { ChecksTable } from '../ui/checks-table.js';
+import { StatusBadge } from '../ui/status.js';
+
+interface Props {
+  report: Report & { figures?: Partial<ValidationFigures> };
+  task: Task | undefined;
+  focusM: number;
+  checking: boolean;
+}
+
+/** What the validator says of the settings on screen: the verdict, every check, blur over distance, cost by stage. */
+export function ProfileReport({ report, task, focusM, checking }: Props) {
+  const f = report.figures ?? {};
+  const latency = f.latency;
+  const energy = f.energy;
+  return (
+    <section class="report" aria-labelledby="report-title" aria-busy={checking}>
+      <h2 id="report-title">
+        Validation <StatusBadge status={report.status} /> {checking && <span class="muted small">checking…</span>}
+      </h2>
+      <ChecksTable checks={report.checks} />
+      <div class="charts">
+        <div>
+          <h3>Blur over the working range</h3>
+          {task && f.blurCurve ? (
+            <BlurPlot curve={f.blurCurve as BlurPoint[]} toleratedBlurPx={f.toleratedBlurPx} nearM={task.nearDistanceM} farM={task.farDistanceM} focusM={focusM} />
+          ) : (
+            <p class="muted">No blur figures in this report.</p>
+          )}
+        </div>
+        <div>
+          <h3>Cost of one frame by stage</h3>
+          {latency ? (
+            <StageBars
+              title="Latency"
+              unit="ms"
+              total={latency.totalMs}
+              budget={task?.latencyBudgetMs}
+              stages={[
+                { label: 'exposure', value: latency.exposureMs },
+                { label: 'readout', value: latency.readoutMs },
+                { label: 'ISP', value: latency.ispMs },
+                { label: 'inference', value: latency.inferenceMs },
+              ]}
+            />
+          ) : (
+            <p class="muted">No latency estimate (the compute checks could not run).</p>
+          )}
+          {energy && (
+            <StageBars
+              title="Energy"
+              unit="mJ"
+              total={energy.totalMj}
+              budget={task?.energyBudgetMjPerFrame}
+              stages={[
+                { label: 'readout', value: energy.readoutMj },
+                { label: 'ISP', value: energy.ispMj },
+                { label: 'inference', value: energy.inferenceMj },
+              ]}
+            />
+          )}
+        </div>
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,105 @@
+/** Shapes of the API's answers as the console reads them (see src/api/*-routes.ts). */
+import type { Check, Report } from '../../schema/report.js';
+import type { Profile } from '../../schema/profile.js';
+import type { Task } from '../../schema/task.js';
+import type { DeviceClass } from '../../schema/device-class.js';
+import type { StateMessage } from '../../protocol/messages.js';
+import type { ValidationFigures } from '../../validate/validate.js';
+
+export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures };
+
+export interface DeviceListItem {
+  id: string;
+  deviceClassId: string;
+  tags: string[];
+  assignedReleaseId: string | null;
+  createdAt: string;
+  online: boolean | null;
+  lastSeenAt: string | null;
+  reportedState: StateMessage | null;
+}
+
+export interface DeviceDetail extends DeviceListItem {
+  assignedRelease: { id: string; version: number; deviceClassId: string } | null;
+  reported: { state: StateMessage | null; online: boolean; lastSeenAt: string } | null;
+  assignments: Array<{ id: number; releaseId: string; cause: string; actor: string; createdAt: string }>;
+}
+
+export interface StoredDocument<T> {
+  id: string;
+  version: number;
+  document: T;
+  createdAt?: string;
+}
+
+export interface RevisionSummary {
+  profileId: string;
+  revision: number;
+  status: 'pass' | 'warn' | 'fail';
+  profile: Profile;
+  createdAt: string;
+  createdBy: string;
+  refs?: unknown;
+}
+
+export interface Revision extends RevisionSummary {
+  report: Report & { figures?: Partial<ValidationFigures> };
+}
+
+export interface ValidateAnswer {
+  report: Report & { figures?: Partial<ValidationFigures> };
+}
+
+export interface ReleaseSummary {
+  id: string;
+  deviceClassId: string;
+  version: number;
+  createdAt: string;
+  createdBy: string;
+  applyPolicy: 'immediate' | 'when-idle';
+  defaultTask: string;
+  tasks: Record<string, { profileId: string; revision: number }>;
+  overridden: boolean;
+}
+
+export interface AuditEntry {
+  id: number;
+  at: string;
+  actor: string;
+  action: string;
+  target: string;
+  detail: unknown;
+}
+
+export interface FieldChange {
+  path: string;
+  change: 'added' | 'removed' | 'changed';
+  before?: unknown;
+  after?: unknown;
+}
+
+export interface RolloutSummary {
+  id: string;
+  releaseId: string;
+  deviceClassId: string;
+  status: 'running' | 'paused' | 'completed' | 'aborted' | 'rolling-back' | 'rolled-back';
+  waveCount: number;
+  currentWave: number;
+  pauseReason: unknown;
+  createdAt: string;
+  createdBy: string;
+  updatedAt: string;
+}
+
+export interface RolloutDevice {
+  deviceId: string;
+  wave: number;
+  status: 'waiting' | 'assigned' | 'applied' | 'passed' | 'failed' | 'skipped';
+  reason: string | null;
+  previousReleaseId: string | null;
+  rollbackStatus: string | null;
+}
+
+export interface RolloutDetail extends RolloutSummary {
+  devices: RolloutDevice[];
+}
