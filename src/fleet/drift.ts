@@ -44,7 +44,7 @@ const QUANTITIES: ReadonlyArray<{ quantity: DriftQuantity; pick: (s: DeviceSampl
  * raises one record per onset, not one per check. Needs enough data on both sides (CALIBRATION_MINIMUM; the
  * rest of the class needs the class's windows and frames from at least two devices).
  */
-export function createDriftMonitor(deps: { store: Pick<Store, 'db' | 'devices' | 'releases' | 'transaction'>; clock: { now(): number }; tolerance?: number }): DriftMonitor {
+export function createDriftMonitor(deps: { store: Pick<Store, 'db' | 'devices' | 'releases' | 'transaction'>; clock: { now(): Date }; tolerance?: number }): DriftMonitor {
   const { store, clock } = deps;
   const tolerance = deps.tolerance ?? DEFAULT_DRIFT_TOLERANCE;
   const repo = createDriftRepository(store.db);
@@ -55,7 +55,7 @@ export function createDriftMonitor(deps: { store: Pick<Store, 'db' | 'devices' |
       const calibrator = createCalibrator(store);
       const classes = [...new Set(store.devices.list().map((d) => d.deviceClassId))];
       const changes: DriftChange[] = [];
-      const at = new Date(clock.now()).toISOString();
+      const at = clock.now().toISOString();
       for (const deviceClassId of classes) {
         const members = calibrator.classSamples(deviceClassId).filter((m) => m.samples.windows > 0);
         const total = { windows: 0, frames: 0, devices: members.length };

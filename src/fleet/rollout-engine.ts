@@ -27,7 +27,7 @@ export interface RolloutEngineDeps extends RolloutEngineOptions {
   store: Store;
   /** Sends releases over the bus; without it assignments are recorded only (devices get them on the bus's next start). */
   publisher: ReleasePublisher | undefined;
-  clock: { now(): number };
+  clock: { now(): Date };
 }
 
 export interface RolloutEngine {
@@ -59,7 +59,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const repo = createRolloutRepository(store.db);
   const facts = createFactsReader(store.db);
   const ranges = createEventRangeReader(store.db);
-  const drift = createDriftMonitor({ store, clock: { now: () => clock.now() }, tolerance: deps.driftTolerance ?? DEFAULT_DRIFT_TOLERANCE });
+  const drift = createDriftMonitor({ store, clock, tolerance: deps.driftTolerance ?? DEFAULT_DRIFT_TOLERANCE });
   const releases = new Map<string, Release>();
   let factors = new Map<string, number>();
   let lastCalibrationMs = Number.NEGATIVE_INFINITY;
@@ -186,7 +186,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   }
 
   async function pass(): Promise<void> {
-    const nowMs = clock.now();
+    const nowMs = clock.now().getTime();
     if (nowMs - lastCalibrationMs >= calibrationEveryMs) {
       lastCalibrationMs = nowMs;
       factors = new Map();

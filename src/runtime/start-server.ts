@@ -102,7 +102,7 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     const engine = createRolloutEngine({
       store,
       publisher: bus?.publisher,
-      clock: { now: () => (options.clock ? options.clock.now().getTime() : Date.now()) },
+      clock: options.clock ?? { now: () => new Date() },
       log,
       ...options.fleet,
     });
