@@ -22,6 +22,7 @@ export const commands: Record<string, CommandEntry> = {
   push: { summary: 'send documents (and weights) to a running server in dependency order', load: () => import('./push.js') },
   release: { summary: 'build and sign a release on a running server', load: () => import('./release.js') },
   device: { summary: 'enrol devices, assign a release to one device, list devices', load: () => import('./device.js') },
+  demo: { summary: 'run the server, its broker and simulated greenhouse robots with demo data, with a staged rollout', load: () => import('./demo.js') },
 };
 
 export function helpText(): string {

@@ -1,0 +1,100 @@
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { startDemo } from '../demo/run-demo.js';
+import { DEMO_CAUTION } from '../demo/scenario.js';
+import { formatSummary } from '../demo/summary.js';
+import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
+import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
+import type { CliIo } from './io.js';
+
+export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--port 8080] [--mqtt-port 1884] [--data DIR]
+  Runs the whole system on this machine with demo data: the server with its embedded MQTT broker, the
+  greenhouse scenario (profiles/greenhouse-demo) loaded through the API, a release per robot class, and
+  simulated robots (device agents over MQTT with simulated cameras) working a time-compressed shift:
+  driving along rows, stopping to count fruit, inspecting leaves, and a low-light patrol at the end.
+  Once every robot runs its first release, a revised fruit-counting profile goes out as a staged rollout.
+  Prints the console URL, an admin token and a summary line every few seconds; Ctrl-C stops everything.
+  --robots N      simulated robots, spread over the two robot classes (default 12)
+  --duration S    stop after S seconds with a final summary (default: run until Ctrl-C)
+  --port, --mqtt-port   HTTP and MQTT ports on 127.0.0.1 (0 picks free ones)
+  --data DIR      the demo's folder (server/, robots/<id>/, demo.log); default a new folder under the
+                  system's temporary folder, kept after the run so you can look at it
+  Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as the admin token on the first start.
+`;
+
+const SUMMARY_EVERY_MS = 3000;
+
+function waitForStop(durationS: number | undefined): Promise<string> {
+  return new Promise((resolvePromise) => {
+    let timer: NodeJS.Timeout | null = null;
+    const done = (why: string) => {
+      process.off('SIGINT', onSignal);
+      process.off('SIGTERM', onSignal);
+      if (timer) clearTimeout(timer);
+      resolvePromise(why);
+    };
+    const onSignal = (signal: string) => done(signal);
+    process.on('SIGINT', onSignal);
+    process.on('SIGTERM', onSignal);
+    if (durationS !== undefined) timer = setTimeout(() => done(`${durationS} s are up`), durationS * 1000);
+  });
+}
+
+export async function run(args: string[], io: CliIo): Promise<number> {
+  return guard(io, usage, async () => {
+    const { values } = parseFlags(args, {
+      robots: { type: 'string' },
+      duration: { type: 'string' },
+      port: { type: 'string' },
+      'mqtt-port': { type: 'string' },
+      data: { type: 'string' },
+      help: { type: 'boolean' },
+    });
+    if (values.help) return io.stdout(usage), EXIT_OK;
+    const robots = optionalNumber(values, 'robots', 12, { integer: true });
+    if (robots > 500) throw new UsageError(`--robots must be at most 500 on one machine, got ${robots}`);
+    const durationS = values.duration === undefined ? undefined : optionalNumber(values, 'duration', 0);
+    const port = optionalNumber(values, 'port', 8080, { positive: false, integer: true });
+    const mqttPort = optionalNumber(values, 'mqtt-port', 1884, { positive: false, integer: true });
+    const dataDir = values.data ? resolve(io.cwd, values.data) : mkdtempSync(join(tmpdir(), 'ocellus-demo-'));
+    const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
+
+    io.stdout(`${DEMO_CAUTION}\n`);
+    io.stdout(`demo folder: ${dataDir}\n`);
+    let demo;
+    try {
+      demo = await startDemo({
+        dataDir, robots, port, mqttPort,
+        ...(adminToken ? { adminToken } : {}),
+        say: (line) => io.stdout(`${line}\n`),
+      });
+    } catch (e) {
+      if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
+      io.stderr(`error: ${(e as Error).message}: a port is taken; choose others with --port and --mqtt-port (0 picks free ones)\n`);
+      return EXIT_BAD_INPUT;
+    }
+    io.stdout(`console: ${demo.consoleUrl}\n`);
+    io.stdout(`admin token: ${demo.adminToken}${demo.tokenSource === 'environment' ? ' (from OCELLUS_ADMIN_TOKEN)' : ''}\n`);
+    io.stdout(`MQTT broker: ${demo.brokerUrl}; server log and agent logs: ${demo.logFile}\n`);
+    io.stdout(durationS === undefined ? 'running; press Ctrl-C to stop\n' : `running for ${durationS} s\n`);
+
+    let printing = false;
+    const ticker = setInterval(() => {
+      if (printing) return;
+      printing = true;
+      demo.summary().then(
+        (s) => io.stdout(`${formatSummary(s)}\n`),
+        (e: unknown) => io.stderr(`demo: summary failed: ${(e as Error).message}\n`),
+      ).finally(() => (printing = false));
+    }, SUMMARY_EVERY_MS);
+    const why = await waitForStop(durationS);
+    clearInterval(ticker);
+    io.stdout(`demo: ${why}; stopping robots, agents, server and broker\n`);
+    const final = await demo.summary().catch(() => null);
+    await demo.stop();
+    if (final) io.stdout(`${formatSummary(final, true)}\n`);
+    io.stdout(`demo data kept in ${dataDir}\n`);
+    return EXIT_OK;
+  });
+}
