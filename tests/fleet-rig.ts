@@ -42,8 +42,11 @@ export interface FleetRig {
   /** Stores a release signed with the test key (demo data). */
   storeRelease(id: string, version: number): SignedRelease;
   enrol(deviceId: string, tags?: string[]): string;
-  /** Starts an in-process agent; `publicKeyPem` overrides the key it trusts. */
-  startAgent(deviceId: string, extra?: Partial<AgentConfig>): Promise<FleetAgent>;
+  /**
+   * Starts an in-process agent; `publicKeyPem` overrides the key it trusts. `simSpeedup` runs the simulated
+   * driver's clock that many times faster, so a short real telemetry interval covers many simulated frames.
+   */
+  startAgent(deviceId: string, extra?: Partial<AgentConfig>, simSpeedup?: number): Promise<FleetAgent>;
   close(): Promise<void>;
 }
 
@@ -97,11 +100,12 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
       return signed;
     },
     enrol,
-    async startAgent(deviceId, extra = {}) {
+    async startAgent(deviceId, extra = {}, simSpeedup = 1) {
       const d = tempDir(`agent-${deviceId}`);
       agentDirs.push(d);
       const config = agentConfig(deviceId, enrol(deviceId), broker.url, web.url, extra.dataDir ?? d.path, { telemetryIntervalS: 0.2, ...extra });
-      const driver = createSimDriver({ clock: systemClock, timeScale: 0, seed: config.simSeed, efficiency: config.simEfficiency });
+      const simClock = { now: () => systemClock.now(), monotonicMs: () => systemClock.monotonicMs() * simSpeedup };
+      const driver = createSimDriver({ clock: simClock, timeScale: 0, seed: config.simSeed, efficiency: config.simEfficiency });
       const agent = createAgent({ config, driver });
       await agent.start();
       const a = { id: deviceId, agent, driver, config };
