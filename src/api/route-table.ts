@@ -6,6 +6,7 @@ import { modelSchema } from '../schema/model.js';
 import { networkSchema } from '../schema/network.js';
 import { profileSchema } from '../schema/profile.js';
 import { taskSchema } from '../schema/task.js';
+import { deviceEventsQuerySchema } from './device-events-query.js';
 import type { Access } from './roles.js';
 import {
   assignRequestSchema,
@@ -110,6 +111,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'rollouts.abort', method: 'post', path: `${API_BASE}/rollouts/:id/abort`, access: 'operator', mutates: true, summary: 'Stop a rollout for good; devices keep what they have', tag: 'rollouts' },
   { key: 'rollouts.rollback', method: 'post', path: `${API_BASE}/rollouts/:id/rollback`, access: 'operator', mutates: true, summary: "Re-assign every moved device's previous release and track until each runs it", tag: 'rollouts' },
   { key: 'devices.history', method: 'get', path: `${D}/:id/history`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Which task profile a device ran when, with the change that caused it (JSON, or CSV with Accept: text/csv or format=csv)', tag: 'history' },
+  { key: 'devices.events', method: 'get', path: `${D}/:id/events`, access: 'viewer', mutates: false, query: deviceEventsQuerySchema, summary: "A device's stored events in a time window (device clock, default the last day), oldest first; type= keeps one kind", tag: 'history' },
   { key: 'devices.usage', method: 'get', path: `${D}/:id/usage`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Seconds, frames and energy per UTC day and task, from telemetry', tag: 'history' },
   { key: 'history.task', method: 'get', path: `${API_BASE}/history/tasks/:id`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Every device\'s intervals running one task', tag: 'history' },
   { key: 'history.release', method: 'get', path: `${API_BASE}/history/releases/:id`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Every device\'s intervals running one release', tag: 'history' },

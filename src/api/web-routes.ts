@@ -3,6 +3,7 @@ import { streamSSE } from 'hono/streaming';
 import { createConsoleAssets } from '../web/server/console-assets.js';
 import { DEFAULT_CONSOLE_DIR } from '../web/server/console-dir.js';
 import type { AppEnv, ResolvedDeps } from './context.js';
+import { registerDeviceEventsRoute } from './device-events-route.js';
 import { HttpError } from './errors.js';
 import { roleAtLeast } from './roles.js';
 import { ROUTES, API_BASE } from './route-table.js';
@@ -60,6 +61,8 @@ export function registerWebRoutes(app: Hono<AppEnv>, route: Router, deps: Resolv
       stop();
     });
   });
+
+  registerDeviceEventsRoute(route, deps);
 
   const assets = createConsoleAssets(consoleDir);
   app.get('/', assets.index);

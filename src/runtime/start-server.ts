@@ -1,6 +1,6 @@
 import type { AddressInfo } from 'node:net';
 import { serve, type ServerType } from '@hono/node-server';
-import { createApp, createSigner, type Clock } from '../api/index.js';
+import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
 import type { ReleasePublisher } from '../fleet/assign.js';
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout-engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
@@ -20,6 +20,8 @@ export interface BusAttachment {
   publisher: ReleasePublisher;
   /** e.g. the broker URL devices connect to; logged and returned by startServer. */
   description?: string;
+  /** Calls the listener with the devices whose state or events the bus just stored; feeds the console's live updates. */
+  onDevicesStored?(listener: (deviceIds: string[]) => void): () => void;
   close(): Promise<void>;
 }
 
@@ -44,6 +46,8 @@ export interface StartServerOptions {
   bus?: (context: BusContext) => Promise<BusAttachment>;
   /** The rollout engine's timing (tick, calibration refresh, drift tolerance); tests shorten them. */
   fleet?: Omit<RolloutEngineOptions, 'log'>;
+  /** The built web console served on `/` (default: dist/console, built by npm install). */
+  consoleDir?: string;
 }
 
 export interface RunningServer {
@@ -89,8 +93,12 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     // The bus starts here, before HTTP, so the first assignment already has a publisher.
     if (options.bus) bus = await options.bus({ store, metrics, log });
 
+    const changes = createChangeFeed();
+    bus?.onDevicesStored?.((deviceIds) => changes.publish({ kind: 'devices', deviceIds }));
     const app = createApp({
       store,
+      changes,
+      ...(options.consoleDir !== undefined ? { consoleDir: options.consoleDir } : {}),
       blobs,
       signer,
       metrics,

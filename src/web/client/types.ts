@@ -102,4 +102,5 @@ export interface RolloutDevice {
 
 export interface RolloutDetail extends RolloutSummary {
   devices: RolloutDevice[];
+  rollback: { restored: number; pending: number; nothingToRestore: number } | null;
 }

@@ -12,13 +12,24 @@ export interface StoredEvent {
   [field: string]: unknown;
 }
 
-export type DeviceHistory = TimelineInterval[] | { intervals: TimelineInterval[]; events?: StoredEvent[] };
+export interface DeviceHistory {
+  from: string;
+  to: string;
+  intervals: TimelineInterval[];
+}
+
+export interface DeviceEventsAnswer {
+  events: StoredEvent[];
+  truncated: boolean;
+}
 
 interface Calibration {
-  latency: { factor: number | null };
-  energy: { factor: number | null };
+  latency: { factor: number | null; residualSpread: number | null };
+  energy: { factor: number | null; residualSpread: number | null };
   enough: boolean;
-  windows?: number;
+  windows: number;
+  frames: number;
+  drift?: unknown[];
 }
 
 interface Prediction {
@@ -28,8 +39,8 @@ interface Prediction {
   frameEnergyMj: number;
 }
 
-function eventsOf(h: DeviceHistory | undefined): StoredEvent[] {
-  return !h || Array.isArray(h) ? [] : (h.events ?? []);
+function eventsOf(answer: DeviceEventsAnswer | undefined): StoredEvent[] {
+  return answer?.events ?? [];
 }
 
 const MARK_KIND: Record<string, TimelineMark['kind']> = {
@@ -64,18 +75,19 @@ function describe(e: StoredEvent): string {
 }
 
 /** Events that matter on the timeline: releases applied, deferred or refused, failed switches, agent restarts. */
-export function marksOf(h: DeviceHistory | undefined): TimelineMark[] {
-  return eventsOf(h)
+export function marksOf(answer: DeviceEventsAnswer | undefined): TimelineMark[] {
+  return eventsOf(answer)
     .filter((e) => MARK_KIND[e.type])
     .map((e) => ({ atMs: Date.parse(e.ts), label: describe(e), kind: MARK_KIND[e.type]! }));
 }
 
-export function DeviceEvents({ history }: { history: DeviceHistory | undefined }) {
-  const events = eventsOf(history).filter((e) => e.type !== 'telemetry');
-  if (events.length === 0) return null;
+export function DeviceEvents({ answer }: { answer: DeviceEventsAnswer | undefined }) {
+  const events = eventsOf(answer).filter((e) => e.type !== 'telemetry');
+  if (events.length === 0) return <p class="muted">No events other than telemetry in this window.</p>;
   return (
     <section aria-labelledby="events-title">
       <h2 id="events-title">Events in this window</h2>
+      {answer?.truncated && <p class="note note-warn">Only the first {answer.events.length} events of this window are shown: zoom in to see the rest.</p>}
       <div class="table-wrap scroll-y">
         <table class="grid compact" aria-label="Device events">
           <thead>
@@ -105,9 +117,9 @@ export function DeviceEvents({ history }: { history: DeviceHistory | undefined }
 }
 
 /** Measured inference latency and frame energy from telemetry, against the release's prediction and the calibration. */
-export function DeviceMeasurements({ deviceId, history, fromMs, toMs }: { deviceId: string; history: DeviceHistory | undefined; fromMs: number; toMs: number }) {
+export function DeviceMeasurements({ deviceId, answer, fromMs, toMs }: { deviceId: string; answer: DeviceEventsAnswer | undefined; fromMs: number; toMs: number }) {
   const { api } = useSession();
-  const telemetry = useMemo(() => eventsOf(history).filter((e) => e.type === 'telemetry'), [history]);
+  const telemetry = useMemo(() => eventsOf(answer).filter((e) => e.type === 'telemetry'), [answer]);
   const releaseIds = [...new Set(telemetry.map((e) => String(e.releaseId)))].sort();
   const predictions = useLoad(async () => {
     const out: Record<string, Record<string, Prediction>> = {};
@@ -145,9 +157,10 @@ export function DeviceMeasurements({ deviceId, history, fromMs, toMs }: { device
     <section aria-labelledby="measured-title">
       <h2 id="measured-title">Measured against predicted</h2>
       <p class="muted">
-        {cal
-          ? `Calibration of this robot: measured inference time is ${num(cal.latency.factor)} × the prediction, energy ${num(cal.energy.factor)} ×${cal.enough ? '' : ' (too few samples to rely on yet)'}.`
-          : 'No calibration for this robot yet.'}
+        {cal && cal.windows > 0
+          ? `Calibration of this robot over ${cal.windows} telemetry windows (${cal.frames} frames): measured inference time is ${num(cal.latency.factor)} × the prediction (spread ${num(cal.latency.residualSpread === null ? null : cal.latency.residualSpread * 100)} %), energy ${num(cal.energy.factor)} ×${cal.enough ? '' : '. Too few samples to rely on yet'}.`
+          : 'No calibration for this robot yet: it has reported no telemetry.'}
+        {cal?.drift && cal.drift.length > 0 && ` ${cal.drift.length} drift episode(s) recorded.`}
       </p>
       <div class="charts">
         <SeriesPlot title="Inference time per frame" unit="ms" points={latency} fromMs={fromMs} toMs={toMs} />

@@ -7,7 +7,7 @@ import { href } from '../router.js';
 import type { DeviceDetail } from '../types.js';
 import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
 import { DeviceAssign } from './device-assign.js';
-import { DeviceEvents, DeviceMeasurements, marksOf, type DeviceHistory } from './device-history.js';
+import { DeviceEvents, DeviceMeasurements, marksOf, type DeviceEventsAnswer, type DeviceHistory } from './device-history.js';
 
 const PRESETS: Array<{ label: string; spanMs: number }> = [
   { label: 'Last day', spanMs: 86_400_000 },
@@ -28,13 +28,20 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
     () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: new Date(win.toMs).toISOString() }),
     [deviceId, win.fromMs, win.toMs],
   );
+  const events = useLoad(
+    () => api.get<DeviceEventsAnswer>(`/devices/${encodeURIComponent(deviceId)}/events`, { from: new Date(win.fromMs).toISOString(), to: new Date(win.toMs).toISOString() }),
+    [deviceId, win.fromMs, win.toMs],
+  );
   const mine = (c: { kind: string; deviceIds?: string[]; path?: string }) =>
     c.kind === 'devices' ? (c.deviceIds ?? []).includes(deviceId) : (c.path ?? '').includes(deviceId) || (c.path ?? '').includes('/rollouts');
   useLiveChanges(() => {
     device.reload();
     // Follow the present when the window ends at it, so a live robot's newest stretch shows.
     if (win.toMs >= Date.now() - 60_000) setWin((w) => ({ fromMs: w.fromMs + (Date.now() - w.toMs), toMs: Date.now() }));
-    else history.reload();
+    else {
+      history.reload();
+      events.reload();
+    }
   }, mine);
 
   if (device.error) return <ErrorNote error={device.error} title={`Could not load device ${deviceId}`} />;
@@ -49,7 +56,7 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
     const shift = (w.toMs - w.fromMs) * fraction;
     return { fromMs: Math.round(w.fromMs + shift), toMs: Math.round(w.toMs + shift) };
   });
-  const intervals = history.data ? (Array.isArray(history.data) ? history.data : history.data.intervals) : [];
+  const intervals = history.data?.intervals ?? [];
 
   return (
     <section aria-labelledby="device-title">
@@ -134,10 +141,11 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
       {!history.data && !history.error ? (
         <Loading what="history" />
       ) : (
-        <Timeline intervals={intervals} marks={marksOf(history.data)} fromMs={win.fromMs} toMs={win.toMs} nowMs={Date.now()} onSelect={(fromMs, toMs) => setWin({ fromMs, toMs })} />
+        <Timeline intervals={intervals} marks={marksOf(events.data)} fromMs={win.fromMs} toMs={win.toMs} nowMs={Date.now()} onSelect={(fromMs, toMs) => setWin({ fromMs, toMs })} />
       )}
-      <DeviceMeasurements deviceId={d.id} history={history.data} fromMs={win.fromMs} toMs={win.toMs} />
-      <DeviceEvents history={history.data} />
+      <DeviceMeasurements deviceId={d.id} answer={events.data} fromMs={win.fromMs} toMs={win.toMs} />
+      <ErrorNote error={events.error} title="Could not load the events" />
+      <DeviceEvents answer={events.data} />
     </section>
   );
 }

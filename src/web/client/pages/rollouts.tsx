@@ -36,12 +36,16 @@ function Badge({ status, table }: { status: string; table: Record<string, { icon
   );
 }
 
+/** Why a rollout stopped: an operator's pause, or the devices that failed a wave's gate (src/fleet/rollout-engine.ts). */
 function pauseText(reason: unknown): string | null {
-  if (reason === null || reason === undefined) return null;
-  if (typeof reason === 'string') return reason;
-  if (Array.isArray(reason)) return reason.map((r) => (typeof r === 'string' ? r : (r as { reason?: string; deviceId?: string }).deviceId ? `${(r as { deviceId: string }).deviceId}: ${(r as { reason?: string }).reason ?? ''}` : JSON.stringify(r))).join('; ');
-  const r = reason as { message?: string; reason?: string };
-  return r.message ?? r.reason ?? JSON.stringify(reason);
+  if (reason === null || reason === undefined || typeof reason !== 'object') return reason ? String(reason) : null;
+  const r = reason as { kind?: string; by?: string; wave?: number; failures?: Array<{ deviceId: string; reason: string }> };
+  if (r.kind === 'operator') return `paused by ${r.by ?? 'an operator'}`;
+  if (r.kind === 'gate') {
+    const list = (r.failures ?? []).map((f) => `${f.deviceId}: ${f.reason}`).join('; ');
+    return `wave ${(r.wave ?? 0) + 1} failed its gate${list ? ` (${list})` : ''}`;
+  }
+  return JSON.stringify(reason);
 }
 
 function Waves({ detail }: { detail: RolloutDetail }) {
@@ -77,7 +81,7 @@ function RolloutCard({ summary, onChanged }: { summary: RolloutSummary; onChange
   const detail = useLoad(() => api.get<RolloutDetail>(`/rollouts/${encodeURIComponent(summary.id)}`), [summary.id, summary.updatedAt]);
   const [error, setError] = useState<Error | null>(null);
   const [confirmRollback, setConfirmRollback] = useState(false);
-  const act = async (verb: 'pause' | 'resume' | 'rollback') => {
+  const act = async (verb: 'pause' | 'resume' | 'abort' | 'rollback') => {
     setError(null);
     try {
       await api.send('POST', `/rollouts/${encodeURIComponent(summary.id)}/${verb}`, {});
@@ -106,6 +110,11 @@ function RolloutCard({ summary, onChanged }: { summary: RolloutSummary; onChange
           <strong>Stopped:</strong> {reason}
         </p>
       )}
+      {detail.data?.rollback && (
+        <p class="muted small">
+          Roll back: {detail.data.rollback.restored} restored, {detail.data.rollback.pending} on their way, {detail.data.rollback.nothingToRestore} had nothing to go back to.
+        </p>
+      )}
       {detail.data ? <Waves detail={detail.data} /> : <Loading what="waves" />}
       <ErrorNote error={error ?? detail.error} />
       <div class="actions">
@@ -119,7 +128,12 @@ function RolloutCard({ summary, onChanged }: { summary: RolloutSummary; onChange
             Resume
           </button>
         )}
-        {(s === 'running' || s === 'paused' || s === 'completed') && can('rollouts.rollback') && !confirmRollback && (
+        {(s === 'running' || s === 'paused') && can('rollouts.abort') && (
+          <button type="button" class="btn" onClick={() => act('abort')} title="Stop for good; robots keep what they have">
+            Stop for good
+          </button>
+        )}
+        {(s === 'running' || s === 'paused' || s === 'completed' || s === 'aborted') && can('rollouts.rollback') && !confirmRollback && (
           <button type="button" class="btn btn-danger" onClick={() => setConfirmRollback(true)}>
             Roll back…
           </button>
