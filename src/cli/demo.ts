@@ -66,6 +66,8 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     try {
       demo = await startDemo({
         dataDir, robots, port, mqttPort,
+        // A short run starts the rollout as soon as every robot runs its first release.
+        rolloutAfterS: durationS === undefined ? 8 : Math.min(8, durationS * 0.2),
         ...(adminToken ? { adminToken } : {}),
         say: (line) => io.stdout(`${line}\n`),
       });

@@ -60,8 +60,8 @@ function adminTokenFor(server: RunningServer, given: string | undefined, generat
 }
 
 /** Starts a rollout; when earlier demo rollouts still hold the robots (a reused folder), aborts those first. */
-async function startRollout(api: DemoApi, releaseId: string, deviceClassId: string, say: (line: string) => void): Promise<string> {
-  const body = demoRolloutRequest(releaseId, deviceClassId);
+async function startRollout(api: DemoApi, releaseId: string, deviceIds: readonly string[], say: (line: string) => void): Promise<string> {
+  const body = demoRolloutRequest(releaseId, deviceIds);
   try {
     return (await api.json<{ id: string }>('POST', '/api/v1/rollouts', body)).id;
   } catch (e) {
@@ -136,6 +136,8 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       telemetryIntervalS: TELEMETRY_INTERVAL_S, log: (id, line) => log(`${id}: ${line}`),
     })));
     say(`enrolled ${robots.length} robots: ${robots.map((r) => r.deviceId).join(', ')}`);
+    // Counts in the summary are this run's: a reused data folder holds earlier runs' events.
+    const baseline = readStoredCounts(server.store.db);
     for (const r of robots) await r.agent.start();
     // The first release goes to every robot directly: there is nothing running to protect yet.
     for (const r of robots) await api.json('POST', `/api/v1/devices/${r.deviceId}/assign`, { releaseId: firstReleases.get(r.demoClass.deviceClassId) });
@@ -168,7 +170,8 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       }
       const revised = await createRevisedRelease(api);
       say(`profile ${revised.release.release.tasks['fruit-counting']!.profileId} revision ${revised.revision} (checks ${revised.status}) released as ${revised.release.release.id}`);
-      rolloutId = await startRollout(api, revised.release.release.id, revisedClass.deviceClassId, say);
+      const targets = robots.filter((r) => r.demoClass.deviceClassId === revisedClass.deviceClassId).map((r) => r.deviceId);
+      rolloutId = await startRollout(api, revised.release.release.id, targets, say);
       say(`staged rollout ${rolloutId} started: one canary robot, then half of the rest, then the others; each wave must pass its gate`);
     };
     const fail = (e: unknown) => say(`could not start the rollout: ${(e as Error).message}`);
@@ -186,10 +189,14 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       summary: async function summary(): Promise<DemoSummary> {
         let rollout: RolloutSummary | null = null;
         if (rolloutId) rollout = summarizeRollout(await api.json('GET', `/api/v1/rollouts/${rolloutId}`));
+        const now = readStoredCounts(server.store.db);
         return {
           elapsedS: (performance.now() - started) / 1000,
           robots: robots.length,
-          ...readStoredCounts(server.store.db),
+          robotsOnline: now.robotsOnline,
+          switches: now.switches - baseline.switches,
+          releasesApplied: now.releasesApplied - baseline.releasesApplied,
+          eventsStored: now.eventsStored - baseline.eventsStored,
           eventsUnacked: robots.reduce((sum, r) => sum + r.agent.unackedEvents(), 0),
           rollout,
         };

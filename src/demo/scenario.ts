@@ -57,10 +57,10 @@ export const REVISED_PROFILE = {
  * The gate is short because the demo compresses time: each robot must apply the release within a minute
  * and report 30 telemetry frames whose mean inference time is within ±25 % of the calibrated prediction.
  */
-export function demoRolloutRequest(releaseId: string, deviceClassId: string): RolloutRequestInput {
+export function demoRolloutRequest(releaseId: string, deviceIds: readonly string[]): RolloutRequestInput {
   return {
     releaseId,
-    target: { deviceClassId, tags: ['demo'] },
+    target: { deviceIds: [...deviceIds] },
     waves: [1, '50%'],
     gate: { applyTimeoutS: 60, telemetryFrames: 30, telemetryTimeoutS: 60, latencyTolerance: 0.25 },
     offline: { waitS: 30, then: 'fail' },
