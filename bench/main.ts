@@ -5,7 +5,10 @@ import type { BenchPart } from './figure.js';
 /** Bench parts by name: one line each; a part is a module exporting `run(): Promise<BenchFigure[]>`. */
 const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   validator: () => import('./validator.js'),
+  history: () => import('./history.js'),
   planner: () => import('./planner.js'),
+  ingest: () => import('./ingest.js'),
+  agent: () => import('./agent.js'),
 };
 
 async function main(names: string[]): Promise<number> {
