@@ -18,9 +18,9 @@ interface Props {
   toMs: number;
 }
 
-const W = 1000;
-const H = 200;
-const M = { left: 60, right: 12, top: 22, bottom: 26 };
+const W = 560;
+const H = 210;
+const M = { left: 52, right: 24, top: 22, bottom: 26 };
 
 function steps(points: SeriesPoint[], key: 'predicted' | 'calibrated', x: (v: number) => number, y: (v: number) => number): string {
   let d = '';
@@ -43,7 +43,7 @@ export function SeriesPlot({ title, unit, points, fromMs, toMs }: Props) {
   const maxV = Math.max(1e-9, ...inWindow.flatMap((p) => [p.measured, p.predicted ?? 0, p.calibrated ?? 0]));
   const x = linearScale([fromMs, toMs], [M.left, W - M.right]);
   const y = linearScale([0, maxV * 1.15], [H - M.bottom, M.top]);
-  const { ticks, stepMs } = timeTicks(fromMs, toMs);
+  const { ticks, stepMs } = timeTicks(fromMs, toMs, 5);
   const mean = inWindow.length ? inWindow.reduce((s, p) => s + p.measured, 0) / inWindow.length : null;
   const label = `${title}: ${inWindow.length} measurements${mean !== null ? `, mean ${num(mean)} ${unit}` : ''}.`;
   return (

@@ -11,6 +11,8 @@ export interface TimelineInterval {
   start: string;
   end: string | null;
   reason: string;
+  /** Seq of the task-switched event that started it: unique per device. */
+  seq: number;
   cause?: { rolloutId?: string; actor?: string; assignment?: string };
 }
 
@@ -32,7 +34,7 @@ interface Props {
 
 const W = 1000;
 const LANE_H = 30;
-const M = { left: 130, right: 12, top: 8, bottom: 26 };
+const M = { left: 130, right: 30, top: 8, bottom: 26 };
 const MARK_LANE_H = 22;
 const MARK_COLOURS = { ok: '#009E73', warn: '#E69F00', fail: '#D55E00', info: '#0072B2' } as const;
 const MARK_ICONS = { ok: '✓', warn: '!', fail: '✕', info: '•' } as const;
@@ -135,7 +137,8 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
           const show = () => setHover({ text, xPct: ((x0 + w / 2) / W) * 100, yPx: M.top + lane * LANE_H });
           return (
             <g
-              data-interval={`${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.start}`}
+              data-interval={`${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.releaseId}`}
+              data-seq={iv.seq}
               tabIndex={0}
               role="img"
               aria-label={text.join('; ')}
