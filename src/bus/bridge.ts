@@ -117,30 +117,41 @@ export function createBridge(options: BridgeOptions): Bridge {
     if (batch.events.size === 0 && batch.states.size === 0) return;
     const at = clock.now().toISOString();
     let acks: Map<string, number>;
+    const added = { events: 0, duplicates: 0, states: 0 };
     try {
       acks = store.transaction(() => {
-      const upTo = new Map<string, number>();
-      for (const [deviceId, list] of batch.events) {
-        const rows: NewDeviceEvent[] = list.map((e) => ({ seq: e.seq, ts: e.ts, type: e.type, json: JSON.stringify(e) }));
-        const added = events.insert(deviceId, rows, at);
-        counts.eventsStored += added;
-        counts.eventsDuplicate += rows.length - added;
-        upTo.set(deviceId, cursor.advance(deviceId, rows.map((r) => r.seq)));
-        if (!batch.states.has(deviceId)) states.touch(deviceId, at);
-      }
-      for (const [deviceId, state] of batch.states) {
-        if (state.online) states.putState(deviceId, state, at);
-        // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.
-        else states.markOffline(deviceId, at);
-        counts.statesStored += 1;
-      }
-      return upTo;
+        const upTo = new Map<string, number>();
+        for (const [deviceId, list] of batch.events) {
+          const rows: NewDeviceEvent[] = list.map((e) => ({ seq: e.seq, ts: e.ts, type: e.type, json: JSON.stringify(e) }));
+          const fresh = events.insert(deviceId, rows, at);
+          added.events += fresh;
+          added.duplicates += rows.length - fresh;
+          upTo.set(deviceId, cursor.advance(deviceId, rows.map((r) => r.seq)));
+          if (!batch.states.has(deviceId)) states.touch(deviceId, at);
+        }
+        for (const [deviceId, state] of batch.states) {
+          if (state.online) states.putState(deviceId, state, at);
+          // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.
+          else states.markOffline(deviceId, at);
+          added.states += 1;
+        }
+        return upTo;
       });
     } catch (e) {
-      // Nothing was acked, so every device resends this batch; the bridge itself keeps running.
+      // Nothing was stored or acked, so every device resends this batch; the bridge itself keeps running.
+      cursor.reset();
       log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`);
       return;
     }
+    counts.eventsStored += added.events;
+    counts.eventsDuplicate += added.duplicates;
+    counts.statesStored += added.states;
+    for (const [deviceId, upTo] of acks) {
+      // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
+      client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });
+      counts.acksSent += 1;
+    }
+    // Listeners (live pages) run after the acks, so they never delay a device's resend window.
     const storedIds = [...new Set([...batch.events.keys(), ...batch.states.keys()])];
     for (const listener of storedListeners) {
       try {
@@ -148,11 +159,6 @@ export function createBridge(options: BridgeOptions): Bridge {
       } catch (e) {
         log(`bus: a stored-change listener failed: ${(e as Error).message}`);
       }
-    }
-    for (const [deviceId, upTo] of acks) {
-      // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
-      client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });
-      counts.acksSent += 1;
     }
   }
 

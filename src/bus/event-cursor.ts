@@ -8,6 +8,8 @@ import type { DeviceEventRepository } from '../store/device-events.js';
 export interface EventCursor {
   /** Records stored seqs of a device and returns its new contiguous seq. Call inside the same transaction as the inserts. */
   advance(deviceId: string, storedSeqs: readonly number[]): number;
+  /** Forgets what is in memory (after a rolled-back transaction); the next advance reloads from the database. */
+  reset(): void;
 }
 
 export function createEventCursor(events: DeviceEventRepository): EventCursor {
@@ -31,6 +33,9 @@ export function createEventCursor(events: DeviceEventRepository): EventCursor {
       while (c.ahead.delete(c.contiguous + 1)) c.contiguous += 1;
       if (c.contiguous !== before) events.setContiguousSeq(deviceId, c.contiguous);
       return c.contiguous;
+    },
+    reset: function reset() {
+      cursors.clear();
     },
   };
 }
