@@ -1,12 +1,17 @@
 import { resolve } from 'node:path';
+import { busForServer } from '../bus/start-bus.js';
 import { startServer } from '../runtime/start-server.js';
-import { guard, optionalNumber, parseFlags } from './args.js';
+import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
 
 export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mb 512]
+                    [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
+  Devices connect over MQTT to the embedded broker on 127.0.0.1:--mqtt-port (0 picks a free port), or to an
+  external MQTT 3.1.1/5 broker given by --broker, where the server logs in as --broker-user with the
+  password in OCELLUS_BROKER_PASSWORD.
   Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as an admin token on the first start, when
   no token exists yet. Stops cleanly on Ctrl-C (SIGINT) or SIGTERM.
 `;
@@ -31,6 +36,9 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       host: { type: 'string' },
       data: { type: 'string' },
       'max-weights-mb': { type: 'string' },
+      'mqtt-port': { type: 'string' },
+      broker: { type: 'string' },
+      'broker-user': { type: 'string' },
       help: { type: 'boolean' },
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
@@ -38,12 +46,20 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const maxWeightsMb = optionalNumber(values, 'max-weights-mb', 512);
     const dataDir = resolve(io.cwd, values.data ?? 'ocellus-data');
     const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
+    const mqttPort = optionalNumber(values, 'mqtt-port', 1884, { positive: false, integer: true });
+    if (values.broker !== undefined && !/^(mqtts?|tcp|ssl):\/\/[^/]+/.test(values.broker)) {
+      throw new UsageError(`--broker must be an mqtt:// or mqtts:// URL, got '${values.broker}'`);
+    }
+    const bus = values.broker
+      ? busForServer({ external: { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' } })
+      : busForServer({ embedded: { port: mqttPort } });
     const server = await startServer({
       dataDir,
       host: values.host ?? '127.0.0.1',
       port,
       maxWeightsBytes: Math.floor(maxWeightsMb * 1024 * 1024),
       ...(adminToken ? { adminToken } : {}),
+      bus,
       log: (line) => io.stderr(`${line}\n`),
     });
     if (server.adminSeed === 'stored') io.stderr('ocellus: stored OCELLUS_ADMIN_TOKEN as the first admin token\n');
