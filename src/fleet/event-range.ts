@@ -46,37 +46,58 @@ function toEvent(r: Row): RangeEvent {
  * other than Z still order correctly.
  */
 export function createEventRangeReader(db: Database.Database): EventRangeReader {
-  const bounds = db.prepare('SELECT MIN(seq) AS lo, MAX(seq) AS hi FROM device_events WHERE device_id = ?');
+  // Two queries, not MIN and MAX in one: SQLite answers a lone MIN or MAX from the index edge, both together by a scan.
+  const lowest = db.prepare('SELECT seq, ts FROM device_events WHERE device_id = ? ORDER BY seq LIMIT 1');
+  const highest = db.prepare('SELECT seq, ts FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1');
   const atOrAfter = db.prepare('SELECT seq, ts FROM device_events WHERE device_id = ? AND seq >= ? ORDER BY seq LIMIT 1');
   const typedRange = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq >= ? AND seq < ? ORDER BY seq');
   const typedBefore = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq < ? ORDER BY seq DESC LIMIT 1');
   const typedFrom = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq >= ? ORDER BY seq LIMIT 1');
   const typedLatest = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? ORDER BY seq DESC LIMIT ?');
 
-  /** A seq boundary b: every stored seq below b is earlier than atMs, every stored seq from b on is not (hi + 1 when none is). */
-  function firstSeqAt(deviceId: string, lo: number, hi: number, atMs: number): number {
-    let left = lo;
-    let right = hi + 1;
-    while (left < right) {
-      const mid = Math.floor((left + right) / 2);
-      const row = atOrAfter.get(deviceId, mid) as { seq: number; ts: string } | undefined;
-      if (!row) {
-        right = mid;
-        continue;
+  /**
+   * The smallest stored seq whose time is at or after atMs (hi.seq + 1 when none is). Interpolation search
+   * (events come at a roughly steady rate, so a guess from the times lands near), alternating with bisection
+   * so an uneven rate still costs at most about 2·log2(n) point reads. Invariant: the event at aSeq is
+   * earlier than atMs; the answer is bSeq or a stored seq in (aSeq, limit); nothing is stored in [limit, bSeq).
+   */
+  function firstSeqAt(deviceId: string, lo: { seq: number; ms: number }, hi: { seq: number; ms: number }, atMs: number): number {
+    if (lo.ms >= atMs) return lo.seq;
+    if (hi.ms < atMs) return hi.seq + 1;
+    let aSeq = lo.seq;
+    let aMs = lo.ms;
+    let bSeq = hi.seq;
+    let bMs = hi.ms;
+    let limit = hi.seq;
+    let bisect = false;
+    while (limit - aSeq > 1) {
+      const guess = bisect || bMs <= aMs ? (aSeq + limit) / 2 : aSeq + ((atMs - aMs) / (bMs - aMs)) * (bSeq - aSeq);
+      const mid = Math.min(limit - 1, Math.max(aSeq + 1, Math.round(guess)));
+      bisect = !bisect;
+      const row = atOrAfter.get(deviceId, mid) as { seq: number; ts: string };
+      const ms = Date.parse(row.ts);
+      if (row.seq >= limit) limit = mid;
+      else if (ms >= atMs) {
+        bSeq = row.seq;
+        bMs = ms;
+        limit = mid;
+      } else {
+        aSeq = row.seq;
+        aMs = ms;
       }
-      // No seq in [mid, row.seq) is stored, so the boundary is either below mid or just after row.seq.
-      if (Date.parse(row.ts) >= atMs) right = mid;
-      else left = row.seq + 1;
     }
-    return left;
+    return bSeq;
   }
+
+  const edge = (row: { seq: number; ts: string } | undefined) => (row ? { seq: row.seq, ms: Date.parse(row.ts) } : undefined);
 
   return {
     seqRange: function seqRange(deviceId, fromMs, toMs) {
-      const b = bounds.get(deviceId) as { lo: number | null; hi: number | null };
-      if (b.lo === null || b.hi === null) return { loSeq: 1, hiSeq: 1 };
-      const loSeq = firstSeqAt(deviceId, b.lo, b.hi, fromMs);
-      const hiSeq = firstSeqAt(deviceId, loSeq, b.hi, toMs);
+      const lo = edge(lowest.get(deviceId) as { seq: number; ts: string } | undefined);
+      const hi = edge(highest.get(deviceId) as { seq: number; ts: string } | undefined);
+      if (!lo || !hi) return { loSeq: 1, hiSeq: 1 };
+      const loSeq = firstSeqAt(deviceId, lo, hi, fromMs);
+      const hiSeq = firstSeqAt(deviceId, lo, hi, toMs);
       return { loSeq, hiSeq: Math.max(loSeq, hiSeq) };
     },
     ofType: function ofType(deviceId, type, range) {
@@ -94,7 +115,7 @@ export function createEventRangeReader(db: Database.Database): EventRangeReader 
       return (typedLatest.all(type, deviceId, limit) as Row[]).map(toEvent);
     },
     maxSeq: function maxSeq(deviceId) {
-      return (bounds.get(deviceId) as { hi: number | null }).hi ?? 0;
+      return (highest.get(deviceId) as { seq: number } | undefined)?.seq ?? 0;
     },
   };
 }
