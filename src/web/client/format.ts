@@ -47,3 +47,8 @@ export function duration(ms: number): string {
   const h = Math.floor(s / 3600);
   return `${h} h ${Math.floor((s % 3600) / 60)} min`;
 }
+
+/** Units as people write them (the validator writes micro as "us", plain ASCII). */
+export function unitText(unit: string): string {
+  return unit === 'us' ? 'µs' : unit;
+}

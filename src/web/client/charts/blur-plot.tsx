@@ -16,9 +16,9 @@ interface Props {
   focusM: number;
 }
 
-const W = 560;
-const H = 260;
-const M = { left: 52, right: 16, top: 14, bottom: 40 };
+const W = 470;
+const H = 250;
+const M = { left: 48, right: 14, top: 14, bottom: 40 };
 
 function path(points: Array<[number, number]>): string {
   return points.map(([x, y], i) => `${i === 0 ? 'M' : 'L'}${x.toFixed(1)},${y.toFixed(1)}`).join('');

@@ -15,7 +15,7 @@ interface Props {
 }
 
 const STAGE_COLOURS = [OKABE_ITO.skyBlue, OKABE_ITO.orange, OKABE_ITO.bluishGreen, OKABE_ITO.reddishPurple, OKABE_ITO.yellow];
-const W = 560;
+const W = 470;
 const H = 74;
 const M = { left: 8, right: 16, top: 18, bottom: 22 };
 

@@ -22,9 +22,31 @@ function toIso(local: string): string | undefined {
   return Number.isNaN(d.getTime()) ? undefined : d.toISOString();
 }
 
-function detailText(detail: unknown): string {
-  if (detail === null || detail === undefined) return '';
-  return JSON.stringify(detail);
+/** A detail value in words: strings bare, records as "key: value" pairs, nested ones in parentheses. */
+export function compact(value: unknown, depth = 0): string {
+  if (value === null || value === undefined) return '—';
+  if (typeof value !== 'object') return String(value);
+  if (Array.isArray(value)) return value.map((v) => compact(v, depth + 1)).join(', ');
+  const inner = Object.entries(value as Record<string, unknown>)
+    .map(([k, v]) => `${k}: ${compact(v, depth + 1)}`)
+    .join('; ');
+  return depth === 0 ? inner : `(${inner})`;
+}
+
+function Detail({ detail }: { detail: unknown }) {
+  if (detail === null || detail === undefined || typeof detail !== 'object') return <span>{compact(detail)}</span>;
+  return (
+    <dl class="detail-list">
+      {Object.entries(detail as Record<string, unknown>)
+        .filter(([, v]) => v !== null && v !== undefined)
+        .map(([k, v]) => (
+          <div>
+            <dt>{k}</dt>
+            <dd>{compact(v, 1).replace(/^\((.*)\)$/, '$1')}</dd>
+          </div>
+        ))}
+    </dl>
+  );
 }
 
 /** Every change anyone made, newest first, filtered by who, what, on what and when. */
@@ -109,14 +131,14 @@ export function AuditPage() {
                 <tr>
                   <td class="nowrap">{dateTime(a.at)}</td>
                   <td>{a.actor}</td>
-                  <td>
+                  <td class="nowrap">
                     <code>{a.action}</code>
                   </td>
-                  <td>
+                  <td class="nowrap">
                     <code>{a.target}</code>
                   </td>
                   <td class="detail">
-                    <code>{detailText(a.detail)}</code>
+                    <Detail detail={a.detail} />
                   </td>
                 </tr>
               ))}

@@ -1,4 +1,4 @@
-import { num } from '../format.js';
+import { num, unitText } from '../format.js';
 import type { Check } from '../types.js';
 import { StatusBadge } from './status.js';
 
@@ -42,10 +42,10 @@ export function ChecksTable({ checks }: { checks: Check[] }) {
                   <code>{c.code}</code>
                 </th>
                 <td class="numeric">
-                  {num(c.actual)} {c.actual !== null ? c.unit : ''}
+                  {num(c.actual)} {c.actual !== null ? unitText(c.unit) : ''}
                 </td>
                 <td class="numeric">
-                  {num(c.limit)} {c.limit !== null ? c.unit : ''}
+                  {num(c.limit)} {c.limit !== null ? unitText(c.unit) : ''}
                 </td>
                 <td>
                   {c.path ? (
