@@ -1,0 +1,172 @@
+import { spawn } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { createInterface } from 'node:readline';
+import { fileURLToPath } from 'node:url';
+import { startBus } from '../src/bus/start-bus.js';
+import { createDeviceEventRepository, type NewDeviceEvent } from '../src/store/device-events.js';
+import { openStore } from '../src/store/index.js';
+import { startServer } from '../src/runtime/start-server.js';
+import type { BenchFigure } from './figure.js';
+import type { IngestFleetSettings } from './ingest-fleet.js';
+
+const DEVICES = 40;
+const EVENTS_PER_DEVICE = 7500;
+/** Each agent logs one agent-started event when it starts, besides its backlog. */
+const EXPECTED = DEVICES * (EVENTS_PER_DEVICE + 1);
+const TARGET_PER_S = 20_000;
+const MIN_RATIO = 0.5;
+const DEADLINE_MS = 240_000;
+/** The agents' batch size: the bare insert commits as many rows per transaction. */
+const BARE_BATCH = 500;
+const FLEET_SCRIPT = fileURLToPath(new URL('./ingest-fleet.ts', import.meta.url));
+
+type FleetMessage = { phase: string; [k: string]: unknown };
+
+function startFleet(settingsFile: string) {
+  const child = spawn(process.execPath, ['--import', 'tsx', FLEET_SCRIPT, settingsFile], { stdio: ['pipe', 'pipe', 'pipe'] });
+  let stderr = '';
+  child.stderr.on('data', (c: Buffer) => void (stderr = (stderr + c.toString()).slice(-4000)));
+  const messages = createInterface({ input: child.stdout });
+  const waiters: Array<{ phase: string; resolve: (m: FleetMessage) => void }> = [];
+  const seen: FleetMessage[] = [];
+  messages.on('line', (line) => {
+    const m = JSON.parse(line) as FleetMessage;
+    seen.push(m);
+    for (const w of waiters.filter((x) => x.phase === m.phase)) w.resolve(m);
+  });
+  const exited = new Promise<number>((resolve) => child.once('exit', (code) => resolve(code ?? -1)));
+  return {
+    child,
+    exited,
+    stderr: () => stderr,
+    phase: (phase: string) =>
+      new Promise<FleetMessage>((resolve, reject) => {
+        const already = seen.find((m) => m.phase === phase);
+        if (already) return resolve(already);
+        waiters.push({ phase, resolve });
+        void exited.then((code) => reject(new Error(`ingest fleet exited (${code}) before '${phase}': ${stderr}`)));
+      }),
+  };
+}
+
+/**
+ * Bare better-sqlite3: the same rows into the same table of a fresh store, through the same prepared
+ * statement, BARE_BATCH rows of one device per transaction, devices taking turns as the agents' batches do.
+ */
+function bareInsertRate(rowsByDevice: Map<string, NewDeviceEvent[]>): number {
+  const dir = mkdtempSync(join(tmpdir(), 'ocellus-bench-bare-'));
+  const store = openStore(dir);
+  try {
+    const repo = createDeviceEventRepository(store.db);
+    const at = new Date().toISOString();
+    let total = 0;
+    const t0 = performance.now();
+    for (let offset = 0, any = true; any; offset += BARE_BATCH) {
+      any = false;
+      for (const [deviceId, rows] of rowsByDevice) {
+        if (offset >= rows.length) continue;
+        any = true;
+        const batch = rows.slice(offset, offset + BARE_BATCH);
+        total += store.transaction(() => repo.insert(deviceId, batch, at));
+      }
+    }
+    return total / ((performance.now() - t0) / 1000);
+  } finally {
+    store.close();
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
+/**
+ * Sustained ingest: DEVICES agents in a child process each drain a backlog of EVENTS_PER_DEVICE telemetry
+ * events (kept on disk, as after a network outage) through the embedded broker and the bridge into the
+ * store, over loopback. The rate is counted from the first stored event to the last; every event must be
+ * stored exactly once. The same rows are then inserted with bare better-sqlite3 for comparison.
+ */
+export async function run(): Promise<BenchFigure[]> {
+  const root = mkdtempSync(join(tmpdir(), 'ocellus-bench-ingest-'));
+  const server = await startServer({ dataDir: join(root, 'server'), port: 0 });
+  const bus = await startBus({ store: server.store, metrics: server.metrics, embedded: { port: 0 } });
+  let fleet: ReturnType<typeof startFleet> | null = null;
+  try {
+    const at = new Date().toISOString();
+    const devices = Array.from({ length: DEVICES }, (_, i) => {
+      const id = `gh-bench-${String(i + 1).padStart(3, '0')}`;
+      const { password } = server.store.devices.enrol({ id, deviceClassId: 'gh-scout-a', tags: ['bench'], actor: 'bench', at })!;
+      return { id, password };
+    });
+    const keyPath = join(root, 'server-public-key.pem');
+    const signingKey = (await (await fetch(`${server.url}/api/v1/signing-key`)).json()) as { publicKeyPem: string };
+    writeFileSync(keyPath, signingKey.publicKeyPem);
+    const settings: IngestFleetSettings = {
+      brokerUrl: bus.brokerUrl,
+      serverUrl: server.url,
+      publicKeyPath: keyPath,
+      dataRoot: join(root, 'agents'),
+      deviceClassId: 'gh-scout-a',
+      eventsPerDevice: EVENTS_PER_DEVICE,
+      devices,
+    };
+    const settingsFile = join(root, 'fleet.json');
+    writeFileSync(settingsFile, JSON.stringify(settings));
+    fleet = startFleet(settingsFile);
+    await fleet.phase('seeded');
+
+    let firstMs: number | null = null;
+    let firstCount = 0;
+    let lastMs = 0;
+    const deadline = performance.now() + DEADLINE_MS;
+    fleet.child.stdin.write('go\n');
+    for (;;) {
+      const stored = bus.bridge.stats().eventsStored;
+      const now = performance.now();
+      if (stored > 0 && firstMs === null) (firstMs = now), (firstCount = stored);
+      if (stored >= EXPECTED) {
+        lastMs = now;
+        break;
+      }
+      if (now > deadline) throw new Error(`ingest: ${stored} of ${EXPECTED} events stored after ${DEADLINE_MS / 1000} s`);
+      await new Promise((r) => setTimeout(r, 10));
+    }
+    await fleet.phase('drained');
+    const storedRows = server.store.db.prepare('SELECT device_id AS deviceId, seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
+    const rowsByDevice = new Map<string, NewDeviceEvent[]>();
+    for (const { deviceId, ...row } of storedRows) {
+      const list = rowsByDevice.get(deviceId);
+      if (list) list.push(row);
+      else rowsByDevice.set(deviceId, [row]);
+    }
+    const events = createDeviceEventRepository(server.store.db);
+    const complete = devices.filter((d) => events.contiguousSeq(d.id) === EVENTS_PER_DEVICE + 1 && events.count(d.id) === EVENTS_PER_DEVICE + 1).length;
+    const lost = EXPECTED - storedRows.length;
+    const stats = bus.bridge.stats();
+    const value = Math.round((stats.eventsStored - firstCount) / ((lastMs - firstMs!) / 1000));
+    const floor = Math.round(bareInsertRate(rowsByDevice));
+    const ratio = Math.round((value / floor) * 1000) / 1000;
+    const figure: BenchFigure & Record<'lost' | 'devices' | 'events' | 'duplicates' | 'devicesComplete', number> = {
+        name: 'ingest',
+        value,
+        unit: 'events/s',
+        target: TARGET_PER_S,
+        floor,
+        ratio,
+        lost,
+        devices: DEVICES,
+        events: EXPECTED,
+        duplicates: stats.eventsDuplicate,
+        devicesComplete: complete,
+        ok: value >= TARGET_PER_S && ratio >= MIN_RATIO && lost === 0 && complete === DEVICES,
+    };
+    return [figure];
+  } finally {
+    if (fleet && fleet.child.exitCode === null) {
+      fleet.child.kill('SIGTERM');
+      await fleet.exited;
+    }
+    await bus.close();
+    await server.close();
+    rmSync(root, { recursive: true, force: true });
+  }
+}
