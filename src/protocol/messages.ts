@@ -71,11 +71,18 @@ export const eventBodySchema = z.discriminatedUnion('type', [
 export type EventBody = z.infer<typeof eventBodySchema>;
 export type EventType = EventBody['type'];
 
-export const deviceEventSchema = z.intersection(
-  z.object({ seq: z.number().int().positive(), ts: isoTime }),
-  eventBodySchema,
-);
-export type DeviceEvent = z.infer<typeof deviceEventSchema>;
+const eventHead = { seq: z.number().int().positive(), ts: isoTime };
+export type DeviceEvent = { seq: number; ts: string } & EventBody;
+
+/**
+ * A numbered event: each body type extended with seq and ts into one flat strict object. (An intersection
+ * of the head and the body union checks the same fields but re-merges every event, about six times
+ * slower on the server's ingest path, and lets unknown keys through.)
+ */
+export const deviceEventSchema = z.discriminatedUnion(
+  'type',
+  eventBodySchema.options.map((variant) => variant.extend(eventHead)) as unknown as [z.ZodObject, ...z.ZodObject[]],
+) as unknown as z.ZodType<DeviceEvent>;
 
 /** Device → server: a batch of numbered events, oldest first. */
 export const eventsMessageSchema = z.strictObject({ v, events: z.array(deviceEventSchema).min(1).max(500) });
