@@ -14,7 +14,7 @@ let consoleDir: string;
 let app: ReturnType<typeof createApp>;
 
 /** A JSON call to this file's app (with its change feed and fixture bundle), as the admin unless a token is given. */
-function call(method: string, path: string, options: { token?: string | null; body?: unknown } = {}): Promise<Response> {
+async function call(method: string, path: string, options: { token?: string | null; body?: unknown } = {}): Promise<Response> {
   const token = options.token === undefined ? h.tokens.admin : options.token;
   const headers: Record<string, string> = token === null ? {} : { authorization: `Bearer ${token}` };
   if (options.body !== undefined) headers['content-type'] = 'application/json';
