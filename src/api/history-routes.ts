@@ -1,36 +1,12 @@
 import type { Context } from 'hono';
-import { toCsv } from '../fleet/csv.js';
+import { INTERVAL_COLUMNS, USAGE_COLUMNS, toCsv } from '../fleet/csv.js';
 import { createHistoryReader, type HistoryInterval, type HistoryWindow } from '../fleet/history.js';
 import { historyQuerySchema, resolveWindow, type HistoryQuery } from '../fleet/queries.js';
-import { createUsageReader, type UsageRow } from '../fleet/usage.js';
+import { createUsageReader } from '../fleet/usage.js';
 import { readQuery } from './body.js';
 import type { AppEnv, ResolvedDeps } from './context.js';
 import { badRequest, notFound } from './errors.js';
 import type { Router } from './routing.js';
-
-const INTERVAL_COLUMNS = [
-  { header: 'deviceId', value: (i: HistoryInterval) => i.deviceId },
-  { header: 'task', value: (i: HistoryInterval) => i.task },
-  { header: 'profileId', value: (i: HistoryInterval) => i.profileId },
-  { header: 'profileRevision', value: (i: HistoryInterval) => i.profileRevision },
-  { header: 'releaseId', value: (i: HistoryInterval) => i.releaseId },
-  { header: 'start', value: (i: HistoryInterval) => i.start },
-  { header: 'end', value: (i: HistoryInterval) => i.end },
-  { header: 'reason', value: (i: HistoryInterval) => i.reason },
-  { header: 'causeRolloutId', value: (i: HistoryInterval) => i.cause.rolloutId },
-  { header: 'causeActor', value: (i: HistoryInterval) => i.cause.actor },
-  { header: 'causeAssignment', value: (i: HistoryInterval) => i.cause.assignment },
-];
-
-const USAGE_COLUMNS = [
-  { header: 'day', value: (u: UsageRow) => u.day },
-  { header: 'task', value: (u: UsageRow) => u.task },
-  { header: 'seconds', value: (u: UsageRow) => u.seconds },
-  { header: 'frames', value: (u: UsageRow) => u.frames },
-  { header: 'energyJ', value: (u: UsageRow) => u.energyJ },
-  { header: 'inferenceEnergyJ', value: (u: UsageRow) => u.inferenceEnergyJ },
-  { header: 'windows', value: (u: UsageRow) => u.windows },
-];
 
 function wantsCsv(c: Context<AppEnv>, q: HistoryQuery): boolean {
   if (q.format !== undefined) return q.format === 'csv';

@@ -22,6 +22,8 @@ export const commands: Record<string, CommandEntry> = {
   push: { summary: 'send documents (and weights) to a running server in dependency order', load: () => import('./push.js') },
   release: { summary: 'build and sign a release on a running server', load: () => import('./release.js') },
   device: { summary: 'enrol devices, assign a release to one device, list devices', load: () => import('./device.js') },
+  rollout: { summary: 'roll a release out in gated waves; status, pause, resume, abort, rollback', load: () => import('./rollout.js') },
+  history: { summary: 'which task profile a device ran when, and the change behind it (text, CSV or JSON)', load: () => import('./history.js') },
   demo: { summary: 'run the server, its broker and simulated greenhouse robots with demo data, with a staged rollout', load: () => import('./demo.js') },
 };
 

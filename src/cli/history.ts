@@ -1,0 +1,52 @@
+import { INTERVAL_COLUMNS, toCsv } from '../fleet/csv.js';
+import type { HistoryInterval } from '../fleet/history.js';
+import { guard, parseFlags, printJson, UsageError } from './args.js';
+import { EXIT_OK } from './io.js';
+import type { CliIo } from './io.js';
+import { CLIENT_FLAGS, createServerClient, reportServerError, ServerError } from './server-client.js';
+
+export const usage = `usage: ocellus history DEVICE [--from ISO-TIME] [--to ISO-TIME] [--csv | --json] [--server URL] [--token T]
+  Which task profile a device ran when: one line per interval, from one task switch to the next, with the
+  release and the change that brought it (a person's assignment or a rollout). The window is [from, to);
+  'to' defaults to now and 'from' to one day before 'to'. An interval still running has no end.
+  --csv prints RFC 4180 CSV (the same columns as the API's export); --json the API's answer.
+`;
+
+function line(i: HistoryInterval): string {
+  const cause = i.cause.rolloutId ? `rollout ${i.cause.rolloutId}` : (i.cause.assignment ?? 'unknown');
+  const who = i.cause.actor ? ` by ${i.cause.actor}` : '';
+  return `${i.start}  ${i.end ?? 'running'.padEnd(24)}  ${i.task}  ${i.profileId}@${i.profileRevision}  ${i.releaseId}  (${i.reason}; ${cause}${who})\n`;
+}
+
+export async function run(args: string[], io: CliIo): Promise<number> {
+  return guard(io, usage, async () => {
+    const { values, positionals } = parseFlags(args, { ...CLIENT_FLAGS, from: { type: 'string' }, to: { type: 'string' }, csv: { type: 'boolean' } }, true);
+    if (values.help) return io.stdout(usage), EXIT_OK;
+    const [deviceId, ...extra] = positionals;
+    if (!deviceId) throw new UsageError('give the device id: ocellus history DEVICE');
+    if (extra.length > 0) throw new UsageError(`unexpected arguments: ${extra.join(' ')}`);
+    if (values.csv && values.json) throw new UsageError('give --csv or --json, not both');
+    for (const flag of ['from', 'to'] as const) {
+      const v = values[flag];
+      if (v !== undefined && Number.isNaN(Date.parse(v))) throw new UsageError(`--${flag} must be an ISO 8601 time such as 2025-03-01T00:00:00Z, got '${v}'`);
+    }
+    const client = createServerClient(values, io);
+    const q = new URLSearchParams();
+    if (values.from) q.set('from', new Date(values.from).toISOString());
+    if (values.to) q.set('to', new Date(values.to).toISOString());
+    try {
+      const r = await client.json<{ from: string; to: string; intervals: HistoryInterval[] }>('GET', `/api/v1/devices/${encodeURIComponent(deviceId)}/history${q.size ? `?${q}` : ''}`);
+      if (values.json) printJson(io, r);
+      else if (values.csv) io.stdout(toCsv(INTERVAL_COLUMNS, r.intervals));
+      else {
+        io.stdout(`device ${deviceId}, ${r.from} to ${r.to}\n`);
+        for (const i of r.intervals) io.stdout(line(i));
+        io.stdout(`${r.intervals.length} interval${r.intervals.length === 1 ? '' : 's'}\n`);
+      }
+      return EXIT_OK;
+    } catch (e) {
+      if (e instanceof ServerError) return reportServerError(io, e);
+      throw e;
+    }
+  });
+}
