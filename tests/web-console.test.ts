@@ -68,6 +68,14 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
 
     await page.getByRole('button', { name: 'Save as revision 2' }).click();
     await page.getByText('Saved as revision 2 (fail).').waitFor();
+    // Compare through the diff route: the one field changed, before and after.
+    await page.getByLabel('From revision').selectOption('1');
+    await page.getByLabel('To revision').selectOption('2');
+    await page.getByRole('button', { name: 'Compare' }).click();
+    const diff = page.getByRole('table', { name: 'Differences from revision 1 to 2' });
+    await diff.waitFor();
+    const cells = await diff.locator('tbody tr').evaluateAll((rows) => rows.map((r) => Array.from(r.children).map((c) => (c.textContent ?? '').trim()).join('|')));
+    expect(cells).toEqual(['camera.exposureUs|changed|2400|120000']);
     await rig.screenshot(page, 'profile-revisions');
 
     await page.goto(`${rig.server.url}/#/releases`);

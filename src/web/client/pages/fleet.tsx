@@ -138,7 +138,7 @@ export function FleetPage() {
                   <th scope="row">
                     <a href={href({ page: 'device', deviceId: d.id })}>{d.id}</a>
                   </th>
-                  <td>{d.deviceClassId}</td>
+                  <td class="nowrap">{d.deviceClassId}</td>
                   <td>
                     {d.tags.map((t) => (
                       <span class="tag">{t}</span>
