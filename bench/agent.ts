@@ -87,8 +87,10 @@ export async function run(): Promise<BenchFigure[]> {
       const t0 = performance.now();
       const child = spawn(process.execPath, [...AGENT_NODE_FLAGS, ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
       children.push(child);
+      const controlOpen = waitForLine(child, /agent: control endpoint/);
       await waitForLine(child, /agent: connected to/);
       const startMs = performance.now() - t0;
+      await controlOpen;
       const control = JSON.parse(readFileSync(join(dataDir, 'control.json'), 'utf8')) as { port: number };
       return { child, startMs, controlPort: control.port };
     }

@@ -1,9 +1,8 @@
-import { mkdirSync } from 'node:fs';
+import { mkdirSync, renameSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { decodeMessage } from '../src/protocol/decode.js';
 import { MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
 import { PROTOCOL_VERSION, eventBodySchema, type EventBody, type StateMessage } from '../src/protocol/messages.js';
-import { writeFileAtomicSync } from './atomic-file.js';
 import { systemClock, type AgentClock } from './clock.js';
 import type { AgentConfig } from './config.js';
 import { startControlServer, type ControlEndpoint, type ControlServer } from './control-server.js';
@@ -144,17 +143,8 @@ export function createAgent(deps: AgentDeps): Agent {
         deviceClassId: config.deviceClassId, emit, changed, log,
       });
       emit({ type: 'agent-started', agentVersion: AGENT_VERSION });
-      await runner.restore();
-      const endpoint: ControlEndpoint = config.controlSocket
-        ? { kind: 'unix', socketPath: config.controlSocket }
-        : { kind: 'tcp', host: config.controlHost, port: config.controlPort };
-      control = await startControlServer(endpoint, {
-        setTask: (task) => runner!.setTask(task, 'local'),
-        setMotion: (moving) => (runner!.setMotion(moving), { status: 200, body: { ok: true, moving } }),
-        state: () => buildState(link?.connected() ?? false),
-      });
-      // Lets `ocellus-agent task` find the endpoint, including a port picked by the system.
-      writeFileAtomicSync(join(config.dataDir, 'control.json'), JSON.stringify(control.endpoint));
+      // restore() decides what runs before its first await, so a release arriving meanwhile is judged against it.
+      const restoring = runner.restore();
       link = openLink({
         deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
         willPayload: JSON.stringify(buildState(false)), reconnectMs: config.reconnectMs, log, onMessage,
@@ -166,6 +156,23 @@ export function createAgent(deps: AgentDeps): Agent {
         },
         onDisconnected: () => outbox!.onDisconnected(),
       });
+      const endpoint: ControlEndpoint = config.controlSocket
+        ? { kind: 'unix', socketPath: config.controlSocket }
+        : { kind: 'tcp', host: config.controlHost, port: config.controlPort };
+      const [, server] = await Promise.all([
+        restoring,
+        startControlServer(endpoint, {
+          setTask: (task) => runner!.setTask(task, 'local'),
+          setMotion: (moving) => (runner!.setMotion(moving), { status: 200, body: { ok: true, moving } }),
+          state: () => buildState(link?.connected() ?? false),
+        }),
+      ]);
+      control = server;
+      // Lets `ocellus-agent task` find the endpoint, including a port picked by the system. Runtime
+      // information, rewritten on every start: replaced by rename, without waiting for the disk.
+      const controlPath = join(config.dataDir, 'control.json');
+      writeFileSync(`${controlPath}.tmp`, JSON.stringify(control.endpoint));
+      renameSync(`${controlPath}.tmp`, controlPath);
       telemetryTimer = setInterval(sendTelemetry, config.telemetryIntervalS * 1000);
       telemetryTimer.unref?.();
     },

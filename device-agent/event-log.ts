@@ -41,9 +41,14 @@ export function openEventLog(dir: string, clock: AgentClock): EventLog {
   let acked = typeof mark?.ackedUpTo === 'number' && Number.isInteger(mark.ackedUpTo) ? mark.ackedUpTo : 0;
   let pending: LoggedEvent[] = [];
   let last = acked;
+  let fileLines = 0;
   if (existsSync(logPath)) {
-    for (const line of readFileSync(logPath, 'utf8').split('\n')) {
+    const text = readFileSync(logPath, 'utf8');
+    // A last line without its newline is torn: count it so the file is rewritten without it.
+    if (text.length > 0 && !text.endsWith('\n')) fileLines += 1;
+    for (const line of text.split('\n')) {
       if (!line) continue;
+      fileLines += 1;
       let seq: unknown;
       try {
         seq = (JSON.parse(line) as { seq?: unknown }).seq;
@@ -56,8 +61,8 @@ export function openEventLog(dir: string, clock: AgentClock): EventLog {
     }
   }
   let linesInFile = pending.length;
-  // Start from a clean file: drops acknowledged lines and any torn tail before appending more.
-  writeFileAtomicSync(logPath, pending.map((e) => `${e.json}\n`).join(''));
+  // Start from a clean file (no acknowledged lines, no torn tail) before appending more; rewrite only when needed.
+  if (pending.length !== fileLines) writeFileAtomicSync(logPath, pending.map((e) => `${e.json}\n`).join(''));
   let fd = openSync(logPath, 'a');
   let syncQueued = false;
 

@@ -48,6 +48,7 @@ function setUp(label: string) {
       const p = spawnAgent(['--config', configPath]);
       procs.push(p);
       await p.waitForOutput(/agent: connected to/, 'agent connected');
+      await p.waitForOutput(/agent: control endpoint/, 'control endpoint open');
       return p;
     },
     endpoint: () => JSON.parse(readFileSync(join(config.dataDir, 'control.json'), 'utf8')) as ControlEndpoint,
@@ -84,7 +85,8 @@ describe('agent as a process (embedded broker)', () => {
     await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-q2', 2, tasks)));
     await s.start();
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.releaseId === 'rel-q2', 'rel-q2 applied after restart');
-    const afterRestart = events(s.id).slice(events(s.id).findLastIndex((e) => e.type === 'agent-started'));
+    const all = events(s.id);
+    const afterRestart = all.slice(all.map((e) => e.type).lastIndexOf('agent-started'));
     expect(afterRestart.map((e) => e.type)).toEqual(['agent-started', 'task-switched', 'release-applied', 'task-switched']);
     expect(afterRestart[1]).toMatchObject({ reason: 'startup', toTask: 'leaves', releaseId: 'rel-q1', fromTask: null });
     expect(afterRestart[3]).toMatchObject({ reason: 'release', toTask: 'leaves', releaseId: 'rel-q2' });
