@@ -48,8 +48,9 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
   if (!device.data) return <Loading what={`device ${deviceId}`} />;
   const d = device.data;
   const s = d.reported?.state ?? d.reportedState;
+  // A window that ends at the present keeps ending there when zoomed, so the newest stretch stays in view.
   const zoom = (factor: number) => setWin((w) => {
-    const [fromMs, toMs] = zoomWindow(w.fromMs, w.toMs, factor);
+    const [fromMs, toMs] = zoomWindow(w.fromMs, w.toMs, factor, w.toMs >= Date.now() - 5_000 ? w.toMs : undefined);
     return { fromMs, toMs };
   });
   const pan = (fraction: number) => setWin((w) => {
