@@ -137,7 +137,10 @@ export function createProfileRunner(deps: RunnerDeps) {
       switched(fromTask, to, 'release', overheadMs, outcome.actuationMs);
       deps.changed();
       await deps.releases.saveRelease(p.raw, p.release.id, taskName).catch((e: unknown) => deps.log(`agent: could not save release: ${(e as Error).message}`));
-      cache.evict(new Set(releaseWeights(p.release).map((m) => m.sha256)));
+      // Keep what runs now and what a newer release (arrived meanwhile) is fetching or waiting with.
+      const newer = pending as Pending | null; // may have been set while the release was being saved
+      const keep = [p.release, ...(newer ? [newer.release] : [])].flatMap((r) => releaseWeights(r).map((m) => m.sha256));
+      cache.evict(new Set(keep));
     });
   }
 

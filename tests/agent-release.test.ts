@@ -64,6 +64,22 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await bus.bridge.clearRelease(id);
   });
 
+  it('switches task on an operator command (QoS 1, run once per command id) and reports telemetry', async () => {
+    const { id, rig } = await newAgent('cmd', undefined, { telemetryIntervalS: 0.05 });
+    await assign(id, sign(demoRelease('rel-c0', 1, tasks)));
+    await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
+    await bus.bridge.publishCommand(id, { type: 'set-task', task: 'leaves' }, 'operator (test)');
+    await waitFor(() => rig.agent.state().activeTask === 'leaves', 'switched by command');
+    await waitFor(() => storedEvents(id, 'task-switched').some((e) => e.reason === 'command'), 'command switch stored');
+    expect(storedEvents(id, 'task-switched').find((e) => e.reason === 'command')).toMatchObject({ fromTask: 'rows', toTask: 'leaves' });
+    await bus.bridge.publishCommand(id, { type: 'set-task', task: 'no-such-task' }, 'operator (test)');
+    await waitFor(() => storedEvents(id, 'switch-failed').length === 1, 'unknown task reported');
+    expect(storedEvents(id, 'switch-failed')[0]).toMatchObject({ toTask: 'no-such-task', step: 'select-task', restored: true });
+    await waitFor(() => storedEvents(id, 'telemetry').length > 0, 'telemetry stored');
+    expect(storedEvents(id, 'telemetry').at(-1)).toMatchObject({ task: 'leaves', profileId: 'leaf-net-profile', releaseId: 'rel-c0' });
+    await bus.bridge.clearRelease(id);
+  });
+
   it('refuses a tampered and a forged release with the reason, and keeps running the old one', async () => {
     const { id, rig } = await newAgent('tamper');
     await assign(id, sign(demoRelease('rel-t1', 1, tasks)));
