@@ -22,18 +22,15 @@ const W = 560;
 const H = 210;
 const M = { left: 52, right: 24, top: 22, bottom: 26 };
 
-function steps(points: SeriesPoint[], key: 'predicted' | 'calibrated', x: (v: number) => number, y: (v: number) => number): string {
+/** A prediction as horizontal steps: each reading's value holds until the next reading (the last one to the window's end). */
+function steps(points: SeriesPoint[], key: 'predicted' | 'calibrated', x: (v: number) => number, y: (v: number) => number, endMs: number): string {
   let d = '';
-  let prev: number | null = null;
-  for (const p of points) {
+  points.forEach((p, i) => {
     const v = p[key];
-    if (v === null) {
-      prev = null;
-      continue;
-    }
-    d += prev === null ? `M${x(p.atMs).toFixed(1)},${y(v).toFixed(1)}` : `H${x(p.atMs).toFixed(1)}V${y(v).toFixed(1)}`;
-    prev = v;
-  }
+    if (v === null) return;
+    const until = i + 1 < points.length ? points[i + 1]!.atMs : endMs;
+    d += `M${x(p.atMs).toFixed(1)},${y(v).toFixed(1)}H${x(Math.max(until, p.atMs)).toFixed(1)}`;
+  });
   return d;
 }
 
@@ -66,8 +63,8 @@ export function SeriesPlot({ title, unit, points, fromMs, toMs }: Props) {
           </text>
         ))}
         <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
-        <path d={steps(inWindow, 'predicted', x, y)} fill="none" stroke={OKABE_ITO.orange} stroke-width="2" />
-        <path d={steps(inWindow, 'calibrated', x, y)} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" />
+        <path d={steps(inWindow, 'predicted', x, y, toMs)} fill="none" stroke={OKABE_ITO.orange} stroke-width="2" />
+        <path d={steps(inWindow, 'calibrated', x, y, toMs)} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" />
         {inWindow.map((p) => (
           <rect x={x(p.atMs) - 3} y={y(p.measured) - 3} width={6} height={6} fill={OKABE_ITO.blue}>
             <title>

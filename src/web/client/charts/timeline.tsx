@@ -39,6 +39,13 @@ const MARK_LANE_H = 22;
 const MARK_COLOURS = { ok: '#009E73', warn: '#E69F00', fail: '#D55E00', info: '#0072B2' } as const;
 const MARK_ICONS = { ok: '✓', warn: '!', fail: '✕', info: '•' } as const;
 
+const SWITCH_REASONS: Record<string, string> = {
+  local: 'asked on the robot',
+  command: 'by an operator command',
+  startup: 'at agent start',
+  restore: 'restored after a failed switch',
+};
+
 function colourOf(key: string, keys: string[]): string {
   return SERIES_COLOURS[keys.indexOf(key) % SERIES_COLOURS.length]!;
 }
@@ -60,6 +67,13 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
   const x = linearScale([fromMs, toMs], [M.left, W - M.right]);
   const { ticks, stepMs } = timeTicks(fromMs, toMs);
   const [hover, setHover] = useState<{ text: string[]; xPct: number; yPx: number } | null>(null);
+  /** SVG units to CSS pixels below the top of the timeline box (the SVG is scaled to the box's width). */
+  const toBoxPx = (ySvg: number) => {
+    const svg = svgRef.current;
+    if (!svg?.parentElement) return ySvg;
+    const box = svg.getBoundingClientRect();
+    return box.top - svg.parentElement.getBoundingClientRect().top + (ySvg * box.height) / H;
+  };
   const [drag, setDrag] = useState<{ x0: number; x1: number } | null>(null);
   const svgRef = useRef<SVGSVGElement>(null);
 
@@ -132,9 +146,11 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
             `${iv.task}: ${iv.profileId} revision ${iv.profileRevision}`,
             `release ${iv.releaseId}`,
             `${dateTime(iv.start)} → ${iv.end ? dateTime(iv.end) : 'still running'} (${duration(e - Date.parse(iv.start))})`,
-            `switched: ${iv.reason}${iv.cause?.rolloutId ? `, rollout ${iv.cause.rolloutId}` : ''}${iv.cause?.actor ? ` by ${iv.cause.actor}` : ''}`,
+            iv.reason === 'release'
+              ? `switched by a new release${iv.cause?.rolloutId ? ` (rollout ${iv.cause.rolloutId})` : ''}${iv.cause?.actor ? `, assigned by ${iv.cause.actor}` : ''}`
+              : `switched: ${SWITCH_REASONS[iv.reason] ?? iv.reason}`,
           ];
-          const show = () => setHover({ text, xPct: ((x0 + w / 2) / W) * 100, yPx: M.top + lane * LANE_H });
+          const show = () => setHover({ text, xPct: ((x0 + w / 2) / W) * 100, yPx: toBoxPx(M.top + lane * LANE_H) });
           return (
             <g
               data-interval={`${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.releaseId}`}
@@ -163,7 +179,7 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
             const cx = x(m.atMs);
             const cy = M.top + lanesH + MARK_LANE_H / 2;
             const text = [`${m.label}`, dateTime(new Date(m.atMs).toISOString())];
-            const show = () => setHover({ text, xPct: (cx / W) * 100, yPx: cy - 10 });
+            const show = () => setHover({ text, xPct: (cx / W) * 100, yPx: toBoxPx(cy - 8) });
             return (
               <g tabIndex={0} role="img" aria-label={text.join(', ')} class="mark" onPointerEnter={show} onPointerLeave={() => setHover(null)} onFocus={show} onBlur={() => setHover(null)}>
                 <circle cx={cx} cy={cy} r={7} fill={MARK_COLOURS[m.kind]} />
