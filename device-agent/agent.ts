@@ -103,12 +103,14 @@ export function createAgent(deps: AgentDeps): Agent {
     if (channel === 'release') {
       // An empty retained payload withdraws the assignment; the device keeps what it runs.
       if (payload.length === 0) return;
-      if (payload.length > MAX_PAYLOAD_BYTES.release) return void runner!.offerRelease(null);
+      if (payload.length > MAX_PAYLOAD_BYTES.release) {
+        return runner!.refuseUnreadable(`oversized: ${payload.length} bytes exceeds the ${MAX_PAYLOAD_BYTES.release}-byte limit of a release`);
+      }
       let raw: unknown;
       try {
         raw = JSON.parse(payload.toString('utf8'));
-      } catch {
-        raw = null;
+      } catch (e) {
+        return runner!.refuseUnreadable(`malformed-json: ${(e as Error).message}`);
       }
       void runner!.offerRelease(raw).catch((e: unknown) => log(`agent: release handling failed: ${(e as Error).message}`));
       return;

@@ -178,6 +178,11 @@ export function createProfileRunner(deps: RunnerDeps) {
       });
     },
 
+    /** A payload on the release topic that could not even be read (too large, not JSON). */
+    refuseUnreadable: function refuseUnreadable(detail: string): void {
+      refuse(null, detail);
+    },
+
     /** A payload from the release topic (already JSON-parsed). */
     offerRelease: async function offerRelease(raw: unknown): Promise<void> {
       const contentKey = keyOf(raw);

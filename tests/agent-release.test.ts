@@ -93,9 +93,11 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await assign(id, signRelease(demoRelease('rel-t3', 3, tasks), stranger.privateKeyPem, stranger.publicKeyPem));
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-t3', 'forged release refused');
     expect(rig.agent.state().refused?.reason).toMatch(/^unknown-key/);
-    expect(rig.agent.state()).toMatchObject({ releaseId: 'rel-t1', activeTask: 'rows' });
-    await waitFor(() => storedEvents(id, 'release-refused').length === 2, 'refusals reach the server');
-    expect(storedEvents(id, 'release-refused').map((e) => e.releaseId)).toEqual(['rel-t2', 'rel-t3']);
+    await bus.serverClient.publishAsync(`ocellus/v1/dev/${id}/release`, '{"release": {"id": "rel-t4"', { qos: 1, retain: true });
+    await waitFor(() => rig.agent.state().refused?.reason.startsWith('malformed-json'), 'unreadable release refused');
+    expect(rig.agent.state()).toMatchObject({ releaseId: 'rel-t1', activeTask: 'rows', refused: { releaseId: null } });
+    await waitFor(() => storedEvents(id, 'release-refused').length === 3, 'refusals reach the server');
+    expect(storedEvents(id, 'release-refused').map((e) => e.releaseId)).toEqual(['rel-t2', 'rel-t3', null]);
     await bus.bridge.clearRelease(id);
   });
 
