@@ -45,6 +45,9 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
   it('a profile edited past its latency budget shows the failing check with its figures, and a plain release of it is blocked until an override reason is given', async () => {
     const page = await rig.openPage();
     await page.goto(`${rig.server.url}/#/profiles`);
+    // The demo's failing profile shows as failing in the overview (demo data: leaf-inspection-wide-open).
+    await page.locator('li', { hasText: 'leaf-inspection-wide-open' }).getByText('fail').waitFor();
+    await rig.screenshot(page, 'profiles');
     await page.getByRole('link', { name: 'fruit-counting-a' }).click();
     await page.getByRole('heading', { level: 1 }).filter({ hasText: 'revision 1' }).waitFor();
     const latency = page.locator('tr[data-check="latency"]');
@@ -163,6 +166,17 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     expect(new Set(actions)).toEqual(new Set(['release.create']));
     await rig.screenshot(page, 'audit');
     await page.context().close();
+  });
+
+  it('the sign-in page refuses an unknown token and says so', async () => {
+    const context = await rig.browser.newContext({ viewport: { width: 1280, height: 800 } });
+    const page = await context.newPage();
+    await page.goto(`${rig.server.url}/`);
+    await page.getByLabel('API token').fill('not-a-token-of-this-server');
+    await page.getByRole('button', { name: 'Sign in' }).click();
+    expect(await page.getByRole('alert').textContent()).toContain('unknown or revoked token');
+    await rig.screenshot(page, 'sign-in');
+    await context.close();
   });
 
   it('a viewer sees the pages but none of the buttons that change anything', async () => {

@@ -2,7 +2,7 @@ import { useMemo } from 'preact/hooks';
 import { SeriesPlot, type SeriesPoint } from '../charts/series-plot.js';
 import type { TimelineInterval, TimelineMark } from '../charts/timeline.js';
 import { useLoad, useSession } from '../context.js';
-import { dateTime, num } from '../format.js';
+import { dateTime, duration, num } from '../format.js';
 
 /** One stored device event as the history route returns it: its seq, time, type and the event's own fields. */
 export interface StoredEvent {
@@ -165,6 +165,57 @@ export function DeviceMeasurements({ deviceId, answer, fromMs, toMs }: { deviceI
       <div class="charts">
         <SeriesPlot title="Inference time per frame" unit="ms" points={latency} fromMs={fromMs} toMs={toMs} />
         <SeriesPlot title="Inference energy per frame" unit="mJ" points={energy} fromMs={fromMs} toMs={toMs} />
+      </div>
+    </section>
+  );
+}
+
+interface UsageRow {
+  day: string;
+  task: string;
+  seconds: number;
+  frames: number;
+  energyJ: number;
+  inferenceEnergyJ: number;
+}
+
+/** Time, frames and energy per UTC day and task in the window, summed from telemetry by the usage route. */
+export function DeviceUsage({ deviceId, fromMs, toMs, reloadKey }: { deviceId: string; fromMs: number; toMs: number; reloadKey: unknown }) {
+  const { api } = useSession();
+  const usage = useLoad(
+    () => api.get<{ days: UsageRow[] }>(`/devices/${encodeURIComponent(deviceId)}/usage`, { from: new Date(fromMs).toISOString(), to: new Date(toMs).toISOString() }),
+    [deviceId, fromMs, toMs, reloadKey],
+  );
+  const rows = usage.data?.days ?? [];
+  if (rows.length === 0) return null;
+  return (
+    <section aria-labelledby="usage-title">
+      <h2 id="usage-title">Time and energy by task</h2>
+      <div class="table-wrap">
+        <table class="grid compact" aria-label="Usage per day and task">
+          <thead>
+            <tr>
+              <th scope="col">Day (UTC)</th>
+              <th scope="col">Task</th>
+              <th scope="col" class="numeric">Time</th>
+              <th scope="col" class="numeric">Frames</th>
+              <th scope="col" class="numeric">Energy (J)</th>
+              <th scope="col" class="numeric">of it inference (J)</th>
+            </tr>
+          </thead>
+          <tbody>
+            {rows.map((r) => (
+              <tr>
+                <td>{r.day}</td>
+                <td>{r.task}</td>
+                <td class="numeric">{duration(r.seconds * 1000)}</td>
+                <td class="numeric">{num(r.frames)}</td>
+                <td class="numeric">{num(r.energyJ)}</td>
+                <td class="numeric">{num(r.inferenceEnergyJ)}</td>
+              </tr>
+            ))}
+          </tbody>
+        </table>
       </div>
     </section>
   );

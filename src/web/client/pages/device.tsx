@@ -7,7 +7,7 @@ import { href } from '../router.js';
 import type { DeviceDetail } from '../types.js';
 import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
 import { DeviceAssign } from './device-assign.js';
-import { DeviceEvents, DeviceMeasurements, marksOf, type DeviceEventsAnswer, type DeviceHistory } from './device-history.js';
+import { DeviceEvents, DeviceMeasurements, DeviceUsage, marksOf, type DeviceEventsAnswer, type DeviceHistory } from './device-history.js';
 
 const PRESETS: Array<{ label: string; spanMs: number }> = [
   { label: 'Last day', spanMs: 86_400_000 },
@@ -145,6 +145,7 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
         <Timeline intervals={intervals} marks={marksOf(events.data)} fromMs={win.fromMs} toMs={win.toMs} nowMs={Date.now()} onSelect={(fromMs, toMs) => setWin({ fromMs, toMs })} />
       )}
       <DeviceMeasurements deviceId={d.id} answer={events.data} fromMs={win.fromMs} toMs={win.toMs} />
+      <DeviceUsage deviceId={d.id} fromMs={win.fromMs} toMs={win.toMs} reloadKey={events.data} />
       <ErrorNote error={events.error} title="Could not load the events" />
       <DeviceEvents answer={events.data} />
     </section>
