@@ -42,6 +42,35 @@ export interface ServerProcess {
   stop(): Promise<number | null>;
 }
 
+/** Starts the fault tests' agent host (tests/fault-agent-host.ts) as a process, its hardware kept in `hardwareFile`. */
+export function startAgentHost(args: string[], hardwareFile: string): AgentProcess {
+  const child = spawn(process.execPath, ['--import', 'tsx', 'tests/fault-agent-host.ts', ...args], {
+    cwd: ROOT,
+    env: { ...process.env, FAULT_HARDWARE_FILE: hardwareFile },
+    stdio: ['ignore', 'pipe', 'pipe'],
+  });
+  const output: string[] = [];
+  child.stdout!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
+  child.stderr!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
+  const exited = new Promise<number | null>((resolve) => child.once('exit', (code) => resolve(code)));
+  return {
+    child,
+    output,
+    waitForOutput: async (pattern, what, timeoutMs = 30_000) => {
+      await waitFor(() => output.some((l) => pattern.test(l)) || child.exitCode !== null, what, timeoutMs);
+      if (!output.some((l) => pattern.test(l))) throw new Error(`agent host exited before ${what}:\n${output.join('\n')}`);
+    },
+    kill: async () => {
+      if (child.exitCode === null && child.signalCode === null) child.kill('SIGKILL');
+      await exited;
+    },
+    stop: async () => {
+      if (child.exitCode === null && child.signalCode === null) child.kill('SIGTERM');
+      return exited;
+    },
+  };
+}
+
 /** Starts `ocellus serve` as a process and waits until it prints its URL. */
 export async function startServerProcess(dataDir: string, port: number, mqttPort: number): Promise<ServerProcess> {
   const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'serve', '--port', String(port), '--mqtt-port', String(mqttPort), '--data', dataDir], {
@@ -84,7 +113,9 @@ export interface FaultSite {
   agents: AgentProcess[];
   /** Starts the server again on the same data folder and ports. */
   restartServer(): Promise<void>;
-  /** Enrols a scout-A robot through the API and starts its agent process. */
+  /** Enrols a scout-A robot through the API and returns the agent flags it runs with (its password included). */
+  enrolRobot(deviceId: string): Promise<string[]>;
+  /** Enrols a scout-A robot through the API and starts its agent process (device-agent/main.ts). */
   startRobot(deviceId: string, extraArgs?: string[]): Promise<AgentProcess>;
   agentDir(deviceId: string): string;
   /** A read-only view of the server's database (WAL lets it read while the server writes). */
@@ -107,6 +138,15 @@ export async function startFaultSite(label: string): Promise<FaultSite> {
   writeFileSync(keyPath, publicKeyPem);
   const agents: AgentProcess[] = [];
   const agentDir = (deviceId: string) => join(dir, 'robots', deviceId);
+  async function enrolRobot(deviceId: string): Promise<string[]> {
+    const enrolled = await api.json<{ mqtt: { password: string } }>('POST', '/api/v1/devices', { id: deviceId, deviceClassId: CLASS_A.deviceClassId, tags: ['fault-test'] });
+    return [
+      '--device-id', deviceId, '--device-class-id', CLASS_A.deviceClassId,
+      '--broker-url', `mqtt://127.0.0.1:${mqttPort}`, '--password', enrolled.mqtt.password,
+      '--server-url', `http://127.0.0.1:${port}`, '--public-key-path', keyPath, '--data-dir', agentDir(deviceId),
+      '--control-port', '0', '--reconnect-ms', '200', '--ack-timeout-ms', '1000',
+    ];
+  }
 
   return {
     dir, serverDir, port, mqttPort, api, keyPath, releaseA, agents, agentDir,
@@ -116,14 +156,9 @@ export async function startFaultSite(label: string): Promise<FaultSite> {
     restartServer: async () => {
       server = await startServerProcess(serverDir, port, mqttPort);
     },
+    enrolRobot,
     startRobot: async (deviceId, extraArgs = []) => {
-      const enrolled = await api.json<{ mqtt: { password: string } }>('POST', '/api/v1/devices', { id: deviceId, deviceClassId: CLASS_A.deviceClassId, tags: ['fault-test'] });
-      const agent = spawnAgent([
-        '--device-id', deviceId, '--device-class-id', CLASS_A.deviceClassId,
-        '--broker-url', `mqtt://127.0.0.1:${mqttPort}`, '--password', enrolled.mqtt.password,
-        '--server-url', `http://127.0.0.1:${port}`, '--public-key-path', keyPath, '--data-dir', agentDir(deviceId),
-        '--control-port', '0', '--reconnect-ms', '200', '--ack-timeout-ms', '1000', ...extraArgs,
-      ]);
+      const agent = spawnAgent([...(await enrolRobot(deviceId)), ...extraArgs]);
       agents.push(agent);
       return agent;
     },
