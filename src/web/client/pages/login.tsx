@@ -31,7 +31,7 @@ export function LoginPage({ onSignedIn }: { onSignedIn: (token: string, who: Who
         <h1 id="login-title">
           <span class="brand-mark" aria-hidden="true">◎</span> Ocellus console
         </h1>
-        <p class="muted">Camera and compute profiles for the robot fleet. Sign in with an API token (an admin makes them with <code>POST /api/v1/tokens</code>).</p>
+        <p class="muted">Camera and compute profiles for the robot fleet. Sign in with an API token (an admin makes one with <code>ocellus token create</code>).</p>
         <label for="token">API token</label>
         <input id="token" name="token" type="password" autocomplete="off" value={token} onInput={(e) => setToken(e.currentTarget.value)} required />
         <p class="hint">Kept for this browser tab only (session storage) and sent only to this server.</p>
