@@ -44,7 +44,10 @@ export function useLoad<T>(load: () => Promise<T>, inputs: unknown[]): Loaded<T>
   return { ...state, reload };
 }
 
-/** Calls `onChange` for fleet changes that pass `filter`, at most once per animation frame burst. */
+/** Least time between two reloads caused by live changes: a fleet reporting every second must not hammer the API. */
+const MIN_RELOAD_GAP_MS = 1000;
+
+/** Calls `onChange` for fleet changes that pass `filter`: soon after a change, and at most once a second under a stream of them. */
 export function useLiveChanges(onChange: () => void, filter: (change: FleetChange) => boolean = () => true): void {
   const { live } = useSession();
   const cb = useRef(onChange);
@@ -53,13 +56,18 @@ export function useLiveChanges(onChange: () => void, filter: (change: FleetChang
   pass.current = filter;
   useEffect(() => {
     let timer: ReturnType<typeof setTimeout> | null = null;
+    let lastMs = 0;
     const stop = live.subscribe((change) => {
       if (!pass.current(change)) return;
       // Bursts of changes (a wave of devices reporting) become one reload.
-      timer ??= setTimeout(() => {
-        timer = null;
-        cb.current();
-      }, 150);
+      timer ??= setTimeout(
+        () => {
+          timer = null;
+          lastMs = Date.now();
+          cb.current();
+        },
+        Math.max(150, MIN_RELOAD_GAP_MS - (Date.now() - lastMs)),
+      );
     });
     return () => {
       stop();
