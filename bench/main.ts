@@ -6,6 +6,7 @@ import type { BenchPart } from './figure.js';
 const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   validator: () => import('./validator.js'),
   history: () => import('./history.js'),
+  rollout: () => import('./rollout.js'),
   planner: () => import('./planner.js'),
   ingest: () => import('./ingest.js'),
   agent: () => import('./agent.js'),

@@ -1,7 +1,7 @@
 import { releaseSchema, type Release } from '../protocol/release.js';
 import { createRolloutRepository, type RolloutDeviceRecord, type RolloutRecord } from '../store/rollouts.js';
 import type { Store } from '../store/store.js';
-import { assignRelease, type ReleasePublisher } from './assign.js';
+import { assignReleases, type AssignInput, type ReleasePublisher } from './assign.js';
 import { createCalibrator } from './calibration.js';
 import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from './drift.js';
 import { createEventRangeReader } from './event-range.js';
@@ -18,7 +18,7 @@ export interface RolloutEngineOptions {
   /** How often drift is checked and the gate's class calibration refreshed, in ms (10,000 by default). */
   calibrationEveryMs?: number;
   driftTolerance?: number;
-  /** How many assignments are sent at once (100 by default). */
+  /** How many assignments one transaction records (100 by default); all are sent without waiting between batches. */
   assignConcurrency?: number;
   log?: (line: string) => void;
 }
@@ -40,8 +40,6 @@ export interface RolloutEngine {
 }
 
 class AlreadyDone extends Error {}
-
-const TERMINAL = new Set(['passed', 'failed', 'skipped']);
 
 /**
  * Advances rollouts from the database alone, so a restarted server continues where the last one stopped.
@@ -85,33 +83,42 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     store.audit.record({ at, actor: ENGINE_ACTOR, action, target: `rollout/${r.id}`, detail });
   }
 
-  async function inBatches(list: RolloutDeviceRecord[], one: (d: RolloutDeviceRecord) => Promise<void>) {
-    for (let i = 0; i < list.length; i += concurrency) await Promise.all(list.slice(i, i + concurrency).map(one));
-  }
-
-  async function assign(r: RolloutRecord, d: RolloutDeviceRecord, releaseId: string, rollback: boolean, at: string): Promise<void> {
-    const previous = store.devices.get(d.deviceId)?.assignedReleaseId ?? null;
-    const eventsAfterSeq = ranges.maxSeq(d.deviceId);
-    try {
-      const result = await assignRelease(store, publisher, {
-        deviceId: d.deviceId,
-        releaseId,
-        actor: rollback ? (r.rollbackBy ?? r.createdBy) : r.createdBy,
-        cause: `${rollback ? 'rollback' : 'rollout'}:${r.id}`,
-        at,
-        withinTransaction: (a) => {
-          const marked = rollback
-            ? repo.markRollback(r.id, d.deviceId, 'assigned', a.id)
-            : repo.markAssigned(r.id, d.deviceId, { assignmentId: a.id, previousReleaseId: previous, at, eventsAfterSeq });
-          if (!marked) throw new AlreadyDone();
-        },
+  /**
+   * Assigns devices in batches: each batch's records in one transaction (the rollout's mark with each), then
+   * its sends. A device whose mark finds it already moved is left out: it is never assigned twice.
+   */
+  async function assignAll(r: RolloutRecord, list: RolloutDeviceRecord[], rollback: boolean, at: string): Promise<void> {
+    const batches: Array<Promise<void>> = [];
+    for (let i = 0; i < list.length; i += concurrency) {
+      const batch = list.slice(i, i + concurrency);
+      const inputs: AssignInput[] = batch.map((d) => {
+        const previous = store.devices.get(d.deviceId)?.assignedReleaseId ?? null;
+        const eventsAfterSeq = ranges.maxSeq(d.deviceId);
+        return {
+          deviceId: d.deviceId,
+          releaseId: rollback ? d.previousReleaseId! : r.releaseId,
+          actor: rollback ? (r.rollbackBy ?? r.createdBy) : r.createdBy,
+          cause: `${rollback ? 'rollback' : 'rollout'}:${r.id}`,
+          at,
+          withinTransaction: (a) => {
+            const marked = rollback
+              ? repo.markRollback(r.id, d.deviceId, 'assigned', a.id)
+              : repo.markAssigned(r.id, d.deviceId, { assignmentId: a.id, previousReleaseId: previous, at, eventsAfterSeq });
+            if (!marked) throw new AlreadyDone(`${d.deviceId} was already moved by rollout ${r.id}`);
+          },
+        };
       });
-      if (!result.ok && !rollback) repo.setDeviceStatus(r.id, d.deviceId, 'failed', result.message, at);
-      else if (!result.ok) log(`rollout ${r.id}: cannot restore ${d.deviceId}: ${result.message}`);
-      else if (result.publish.status === 'not-sent') log(`rollout ${r.id}: ${d.deviceId} assigned but not sent (${result.publish.reason})`);
-    } catch (e) {
-      if (!(e instanceof AlreadyDone)) throw e;
+      // Records are written when assignReleases is called; its sends are awaited after every batch is recorded.
+      batches.push(assignReleases(store, publisher, inputs).then((results) => results.forEach((result, k) => {
+        const d = batch[k]!;
+        if (!result.ok && result.code === 'not-recorded') {
+          if (!(result.error instanceof AlreadyDone)) log(`rollout ${r.id}: ${d.deviceId} not assigned: ${result.message}`);
+        } else if (!result.ok && !rollback) repo.setDeviceStatus(r.id, d.deviceId, 'failed', result.message, at);
+        else if (!result.ok) log(`rollout ${r.id}: cannot restore ${d.deviceId}: ${result.message}`);
+        else if (result.publish.status === 'not-sent') log(`rollout ${r.id}: ${d.deviceId} assigned but not sent (${result.publish.reason})`);
+      })));
     }
+    await Promise.all(batches);
   }
 
   async function advance(r: RolloutRecord, nowMs: number): Promise<void> {
@@ -127,23 +134,21 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const waveStartMs = Date.parse(r.waveStartedAt!);
     const toAssign: RolloutDeviceRecord[] = [];
     store.transaction(() => {
-      for (const d of repo.devices(r.id, r.currentWave)) {
-        if (TERMINAL.has(d.status)) continue;
-        const verdict = judgeDevice(facts.facts(d, release, nowMs, waveStartMs), ctx);
+      for (const d of repo.openDevices(r.id, r.currentWave)) {
+        const verdict = judgeDevice(facts.facts(d, release, nowMs, waveStartMs, spec.gate.telemetryFrames > 0), ctx);
         if (verdict.action === 'assign') toAssign.push(d);
         else if (verdict.action === 'set') repo.setDeviceStatus(r.id, d.deviceId, verdict.status, verdict.reason, at);
       }
     });
-    await inBatches(toAssign, (d) => assign(r, d, r.releaseId, false, at));
-    const wave = repo.devices(r.id, r.currentWave);
-    const outcome = waveOutcome(wave.map((d) => d.status));
+    await assignAll(r, toAssign, false, at);
+    const outcome = waveOutcome(repo.waveCounts(r.id, r.currentWave));
     if (outcome === 'open') return;
     store.transaction(() => {
       const current = repo.get(r.id);
       // An operator may have paused or aborted it while this pass awaited the bus.
       if (!current || current.status !== 'running' || current.currentWave !== r.currentWave) return;
       if (outcome === 'failed') {
-        const failures = wave.filter((d) => d.status === 'failed').map((d) => ({ deviceId: d.deviceId, reason: d.reason ?? 'failed' }));
+        const failures = repo.devices(r.id, r.currentWave).filter((d) => d.status === 'failed').map((d) => ({ deviceId: d.deviceId, reason: d.reason ?? 'failed' }));
         const reason = { kind: 'gate', wave: r.currentWave, at, failures };
         repo.setStatus(r.id, 'paused', at, reason);
         audit(r, 'rollout.pause', at, reason);
@@ -171,7 +176,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         }
       }
     });
-    await inBatches(toRestore, (d) => assign(r, d, d.previousReleaseId!, true, at));
+    await assignAll(r, toRestore, true, at);
     const after = repo.devices(r.id).filter((d) => d.assignmentId !== null);
     if (after.every((d) => d.rollbackStatus === 'restored' || d.rollbackStatus === 'nothing-to-restore')) {
       store.transaction(() => {

@@ -22,8 +22,8 @@ interface ReportedState {
 }
 
 export interface FactsReader {
-  /** Facts about one device of a rollout of `release`, at `nowMs`, for a wave that started at waveStartMs. */
-  facts(d: RolloutDeviceRecord, release: Release, nowMs: number, waveStartMs: number): DeviceFacts;
+  /** Facts about one device of a rollout of `release`, at `nowMs`, for a wave that started at waveStartMs; telemetry only when asked. */
+  facts(d: RolloutDeviceRecord, release: Release, nowMs: number, waveStartMs: number, needTelemetry: boolean): DeviceFacts;
   /** The release a device reports running, and whether it is online (null: never heard from). */
   reported(deviceId: string): { online: boolean; releaseId: string | null } | null;
 }
@@ -37,20 +37,29 @@ const since = (nowMs: number, iso: string | null) => (iso === null ? null : Math
  */
 export function createFactsReader(db: Database.Database): FactsReader {
   const stateRow = db.prepare('SELECT online, release_id, state, updated_at FROM device_state WHERE device_id = ?');
+  const lastSeq = db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1').pluck();
   const eventsAfter = db.prepare(`SELECT type, event FROM device_events WHERE device_id = ? AND seq > ?
       AND type IN ('release-applied', 'release-refused', 'telemetry') ORDER BY seq`);
 
   return {
-    facts: function facts(d, release, nowMs, waveStartMs) {
+    facts: function facts(d, release, nowMs, waveStartMs, needTelemetry) {
       const row = stateRow.get(d.deviceId) as StateRow | undefined;
-      const reported = (row?.state ? JSON.parse(row.state) : {}) as ReportedState;
-      const assignedMs = d.assignedAt === null ? null : Date.parse(d.assignedAt);
-      const stateIsNew = row !== undefined && assignedMs !== null && Date.parse(row.updated_at) >= assignedMs;
-      let applied = row?.release_id === release.id;
-      let refusedReason: string | null =
-        stateIsNew && reported.refused && reported.refused.releaseId === release.id ? reported.refused.reason : null;
+      const runs = row?.release_id === release.id;
+      let applied = runs;
+      let refusedReason: string | null = null;
+      let pendingReason: string | null = null;
       const telemetry = { frames: 0, measuredMsSum: 0, predictedMsSum: 0 };
-      if (d.status !== 'waiting') {
+      // Read only what the device's step needs: a waiting device its online flag, an assigned one that does not
+      // run the release yet its refusals and holds, an applied one its telemetry (when the gate checks latency).
+      // Cheap checks first: most devices of a large wave have said nothing new since the last pass.
+      const stateIsNew = row !== undefined && d.assignedAt !== null && Date.parse(row.updated_at) >= Date.parse(d.assignedAt);
+      const newEvents = d.status !== 'waiting' && ((lastSeq.get(d.deviceId) as number | undefined) ?? 0) > d.eventsAfterSeq;
+      if (d.status === 'assigned' && !runs && row?.state) {
+        const reported = JSON.parse(row.state) as ReportedState;
+        if (stateIsNew && reported.refused && reported.refused.releaseId === release.id) refusedReason = reported.refused.reason;
+        if (reported.pending && reported.pending.releaseId === release.id) pendingReason = reported.pending.reason;
+      }
+      if (newEvents && ((d.status === 'assigned' && !runs) || (d.status === 'applied' && needTelemetry))) {
         for (const e of eventsAfter.all(d.deviceId, d.eventsAfterSeq) as EventRow[]) {
           const body = JSON.parse(e.event) as Record<string, unknown>;
           if (e.type === 'release-applied' && body.releaseId === release.id) applied = true;
@@ -75,7 +84,7 @@ export function createFactsReader(db: Database.Database): FactsReader {
         sinceAppliedMs: since(nowMs, d.appliedAt),
         applied,
         refusedReason,
-        pendingReason: reported.pending && reported.pending.releaseId === release.id ? reported.pending.reason : null,
+        pendingReason,
         telemetry,
       };
     },

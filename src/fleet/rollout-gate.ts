@@ -100,7 +100,7 @@ export function judgeDevice(facts: DeviceFacts, ctx: GateContext): DeviceVerdict
 }
 
 /** A wave passes when every device passed or was skipped; it fails as soon as any device failed. */
-export function waveOutcome(statuses: readonly RolloutDeviceStatus[]): 'passed' | 'failed' | 'open' {
-  if (statuses.some((st) => st === 'failed')) return 'failed';
-  return statuses.every((st) => st === 'passed' || st === 'skipped') ? 'passed' : 'open';
+export function waveOutcome(counts: Partial<Record<RolloutDeviceStatus, number>>): 'passed' | 'failed' | 'open' {
+  if ((counts.failed ?? 0) > 0) return 'failed';
+  return (counts.waiting ?? 0) + (counts.assigned ?? 0) + (counts.applied ?? 0) === 0 ? 'passed' : 'open';
 }

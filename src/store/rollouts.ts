@@ -134,6 +134,10 @@ export interface RolloutRepository {
   /** For each given device held by a rollout in a holding status (other than `exceptRolloutId`): which one. */
   holders(deviceIds: readonly string[], exceptRolloutId?: string): Array<{ deviceId: string; rolloutId: string }>;
   devices(rolloutId: string, wave?: number): RolloutDeviceRecord[];
+  /** Devices of a wave still on their way through the gate: waiting, assigned or applied. */
+  openDevices(rolloutId: string, wave: number): RolloutDeviceRecord[];
+  /** How many devices of a wave are in each status. */
+  waveCounts(rolloutId: string, wave: number): Partial<Record<RolloutDeviceStatus, number>>;
   device(rolloutId: string, deviceId: string): RolloutDeviceRecord | null;
   setStatus(id: string, status: RolloutStatus, at: string, pauseReason?: unknown): void;
   startWave(id: string, wave: number, at: string): void;
@@ -159,6 +163,9 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
   const movingRows = db.prepare("SELECT * FROM rollouts WHERE status IN ('running', 'rolling-back') ORDER BY created_at, id");
   const deviceRows = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? ORDER BY wave, position');
   const waveRows = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND wave = ? ORDER BY position');
+  const openRows = db.prepare(`SELECT * FROM rollout_devices WHERE rollout_id = ? AND wave = ?
+      AND status IN ('waiting', 'assigned', 'applied') ORDER BY position`);
+  const countRows = db.prepare('SELECT status, COUNT(*) AS n FROM rollout_devices WHERE rollout_id = ? AND wave = ? GROUP BY status');
   const oneDevice = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND device_id = ?');
   const holderOf = db.prepare(`SELECT d.rollout_id AS rolloutId FROM rollout_devices d JOIN rollouts r ON r.id = d.rollout_id
       WHERE d.device_id = ? AND r.status IN ('running', 'paused', 'rolling-back') AND r.id <> ?`);
@@ -209,6 +216,12 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
     devices: function devices(rolloutId, wave) {
       const rows = wave === undefined ? deviceRows.all(rolloutId) : waveRows.all(rolloutId, wave);
       return (rows as DeviceRow[]).map(toDevice);
+    },
+    openDevices: function openDevices(rolloutId, wave) {
+      return (openRows.all(rolloutId, wave) as DeviceRow[]).map(toDevice);
+    },
+    waveCounts: function waveCounts(rolloutId, wave) {
+      return Object.fromEntries((countRows.all(rolloutId, wave) as Array<{ status: RolloutDeviceStatus; n: number }>).map((r) => [r.status, r.n]));
     },
     device: function device(rolloutId, deviceId) {
       const row = oneDevice.get(rolloutId, deviceId) as DeviceRow | undefined;

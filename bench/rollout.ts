@@ -1,0 +1,170 @@
+// Rollout bench: a release rolled out to N devices hosted by a SEPARATE process (N lightweight agents, each on
+// its own MQTT connection to the embedded broker), from the rollout's creation until every device reported it
+// applied and the rollout completed; against the floor measured in the same run through the same broker and
+// the same connections: the server publishes one command to each device and waits for each device's reply.
+// Figures rollout-N: value = rollout time, floor = bare publish-and-reply time, ratio = value ÷ floor (≤ 2.0).
+// The rollout is one wave with the telemetry check off (the light agents send no telemetry): it measures the
+// engine's assignment, the bus and the gate, not the waiting a staged rollout does on purpose. Demo data.
+import { spawn, type ChildProcess } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import mqtt, { type MqttClient } from 'mqtt';
+import { createBridge } from '../src/bus/bridge.js';
+import { startEmbeddedBroker } from '../src/bus/broker.js';
+import { createRolloutEngine } from '../src/fleet/rollout-engine.js';
+import { createRolloutService } from '../src/fleet/rollout-service.js';
+import { rolloutRequestSchema } from '../src/fleet/rollout-spec.js';
+import { PROTOCOL_VERSION, RELEASE_FORMAT, allDevicesFilter, deviceTopic, generateSigningKeyPair, parseDeviceTopic, signRelease, type Release } from '../src/protocol/index.js';
+import { hashPassword, openStore, verifyPassword, type Store } from '../src/store/index.js';
+import { benchDeviceClass, benchTask } from './agent-fixture.js';
+import type { BenchFigure } from './figure.js';
+import type { RolloutFleetSettings } from './rollout-fleet.js';
+
+const ROOT = fileURLToPath(new URL('..', import.meta.url));
+const SIZES = [1000, 5000];
+const PASSWORD = 'bench-device-password-demo-data';
+const SERVER_USER = { username: 'bench-server', password: 'bench-server-secret' };
+const log = (line: string) => process.stderr.write(`rollout bench: ${line}\n`);
+
+function waitForLine(child: ChildProcess, pattern: RegExp): Promise<void> {
+  return new Promise((resolve, reject) => {
+    let seen = '';
+    child.stdout!.on('data', (c: Buffer) => {
+      seen += c.toString('utf8');
+      if (pattern.test(seen)) resolve();
+    });
+    child.once('exit', (code) => reject(new Error(`fleet process exited (${code}) before ${pattern}`)));
+  });
+}
+
+async function until(check: () => boolean, what: string, timeoutMs: number, everyMs = 5): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (!check()) {
+    if (Date.now() > deadline) throw new Error(`timed out waiting for ${what}`);
+    await new Promise((r) => setTimeout(r, everyMs));
+  }
+}
+
+/** Devices written straight into SQLite sharing one password hash (one scrypt instead of N). */
+function seedDevices(store: Store, ids: string[]): void {
+  const hash = hashPassword(PASSWORD);
+  const at = new Date().toISOString();
+  const insert = store.db.prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
+    VALUES (?, ?, '["bench"]', ?, NULL, ?, 'bench (demo data)')`);
+  store.transaction(() => ids.forEach((id) => insert.run(id, benchDeviceClass.id, hash, at)));
+}
+
+/** The broker's check of device credentials: the real scrypt verification, remembered per (stored hash, password). */
+function memoAuthenticate(store: Store) {
+  const row = store.db.prepare('SELECT password_hash FROM devices WHERE id = ?').pluck();
+  const known = new Map<string, boolean>();
+  return (id: string, password: string) => {
+    const hash = row.get(id) as string | undefined;
+    if (!hash) return false;
+    const key = `${hash}\u0000${password}`;
+    if (!known.has(key)) known.set(key, verifyPassword(password, hash));
+    return known.get(key)!;
+  };
+}
+
+async function floorMs(client: MqttClient, ids: string[]): Promise<number> {
+  const replied = new Set<string>();
+  const onMessage = (topic: string, _payload: Buffer, packet: { retain?: boolean }) => {
+    if (packet.retain) return;
+    const where = parseDeviceTopic(topic);
+    if (where) replied.add(where.deviceId);
+  };
+  client.on('message', onMessage);
+  await client.subscribeAsync(allDevicesFilter('state'), { qos: 1 });
+  // The retained states arrive first, flagged as retained; let them drain before timing.
+  await new Promise((r) => setTimeout(r, 500));
+  const t0 = performance.now();
+  const command = (i: number) => JSON.stringify({ v: PROTOCOL_VERSION, id: `bench-${i}`, issuedBy: 'bench', command: { type: 'report-state' } });
+  for (let i = 0; i < ids.length; i += 500) {
+    await Promise.all(ids.slice(i, i + 500).map((id, j) => client.publishAsync(deviceTopic(id, 'cmd'), command(i + j), { qos: 1 })));
+  }
+  await until(() => replied.size === ids.length, 'every reply', 120_000, 1);
+  const ms = performance.now() - t0;
+  client.off('message', onMessage);
+  await client.unsubscribeAsync(allDevicesFilter('state'));
+  return ms;
+}
+
+export async function measure(n: number): Promise<BenchFigure> {
+  const work = mkdtempSync(join(tmpdir(), 'ocellus-bench-rollout-'));
+  const store = openStore(join(work, 'server'));
+  const ids = Array.from({ length: n }, (_, i) => `bench-dev-${String(i).padStart(5, '0')}`);
+  seedDevices(store, ids);
+  const keys = generateSigningKeyPair();
+  const files = new Map<string, Buffer>();
+  const release: Release = {
+    format: RELEASE_FORMAT, id: `bench-rel-${n}`, version: 1, deviceClassId: benchDeviceClass.id, deviceClass: benchDeviceClass,
+    createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', applyPolicy: 'immediate', defaultTask: 'rows',
+    tasks: { rows: benchTask('rows-net', files, 0.5, 4), leaves: benchTask('leaf-net', files, 0.25, 2.8) },
+  };
+  const signed = signRelease(release, keys.privateKeyPem, keys.publicKeyPem);
+  store.releases.insert({ id: release.id, deviceClassId: release.deviceClassId, version: 1, createdAt: release.createdAt, createdBy: release.createdBy, signed });
+  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: memoAuthenticate(store) });
+  const settingsPath = join(work, 'fleet.json');
+  const settings: RolloutFleetSettings = {
+    brokerUrl: broker.url, publicKeyPem: keys.publicKeyPem, deviceClassId: benchDeviceClass.id, password: PASSWORD, deviceIds: ids, connectConcurrency: 100,
+  };
+  writeFileSync(settingsPath, JSON.stringify(settings));
+  const child = spawn(process.execPath, ['--import', 'tsx', join(ROOT, 'bench/rollout-fleet.ts'), settingsPath], { cwd: ROOT, stdio: ['pipe', 'pipe', 'inherit'] });
+  const raw = await mqtt.connectAsync(broker.url, { ...SERVER_USER, clientId: 'bench-raw', reconnectPeriod: 0 });
+  const server = await mqtt.connectAsync(broker.url, { ...SERVER_USER, clientId: 'bench-server', reconnectPeriod: 0 });
+  try {
+    const t0 = performance.now();
+    await waitForLine(child, /"phase":"connected"/);
+    log(`${n} agents connected in ${((performance.now() - t0) / 1000).toFixed(1)} s`);
+    const floor = await floorMs(raw, ids);
+    log(`${n}: bare publish-and-reply ${floor.toFixed(0)} ms`);
+
+    const bridge = createBridge({ mqttClient: server, store, clock: { now: () => new Date() } });
+    await until(() => bridge.deviceStates.countOnline() === n, 'every device online in the store', 120_000, 20);
+    const engine = createRolloutEngine({ store, publisher: bridge, clock: { now: () => new Date() }, tickMs: 20, calibrationEveryMs: 3_600_000, assignConcurrency: 500 });
+    const service = createRolloutService(store);
+    const request = rolloutRequestSchema.parse({
+      releaseId: release.id,
+      target: { deviceClassId: benchDeviceClass.id, tags: ['bench'] },
+      waves: ['100%'],
+      gate: { telemetryFrames: 0, applyTimeoutS: 600 },
+      offline: { waitS: 600, then: 'fail' },
+    });
+    await engine.tick(); // the first pass refreshes calibration and drift: not part of the rollout
+    const t1 = performance.now();
+    const created = service.create(request, 'bench operator', new Date().toISOString());
+    if (!created.ok) throw new Error(`rollout refused: ${created.message}`);
+    engine.start();
+    const statusOf = store.db.prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
+    await until(() => {
+      const status = statusOf.get(created.value.id);
+      if (status === 'paused') throw new Error(`rollout paused: ${JSON.stringify(service.view(created.value.id)!.pauseReason)}`);
+      return status === 'completed';
+    }, 'rollout completed', 600_000, 10);
+    const value = performance.now() - t1;
+    const running = store.db.prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
+    if (running !== n) throw new Error(`${running} of ${n} devices report the release`);
+    log(`${n}: rollout to completion ${value.toFixed(0)} ms (${running} devices report the release)`);
+    await engine.stop();
+    await bridge.close();
+    const ratio = value / floor;
+    return { name: `rollout-${n}`, value: Math.round(value), unit: 'ms', target: Math.round(2 * floor), floor: Math.round(floor), ratio: Math.round(ratio * 100) / 100, ok: ratio <= 2 };
+  } finally {
+    child.stdin!.end();
+    await new Promise((r) => (child.exitCode !== null ? r(null) : child.once('exit', r)));
+    await raw.endAsync(true);
+    await server.endAsync(true);
+    await broker.close();
+    store.close();
+    rmSync(work, { recursive: true, force: true });
+  }
+}
+
+export async function run(): Promise<BenchFigure[]> {
+  const figures: BenchFigure[] = [];
+  for (const n of SIZES) figures.push(await measure(n));
+  return figures;
+}
