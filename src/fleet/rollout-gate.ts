@@ -36,12 +36,13 @@ export type DeviceVerdict =
 
 const s = (ms: number) => `${Math.round(ms / 100) / 10} s`;
 
+/** The offline policy: after waitS, fail the gate or leave the device out (an assigned one keeps its assignment). */
 function offlineVerdict(facts: DeviceFacts, sinceMs: number, ctx: GateContext): DeviceVerdict {
   if (sinceMs <= ctx.offline.waitS * 1000) return { action: 'keep' };
   const reason = `offline for more than ${ctx.offline.waitS} s (policy: ${ctx.offline.then})`;
-  if (ctx.offline.then === 'skip' && facts.status === 'waiting') return { action: 'set', status: 'skipped', reason };
-  if (ctx.offline.then === 'skip') return { action: 'set', status: 'skipped', reason: `${reason}; it keeps the assignment and applies it when it returns` };
-  return { action: 'set', status: 'failed', reason };
+  if (ctx.offline.then === 'fail') return { action: 'set', status: 'failed', reason };
+  const kept = facts.status === 'waiting' ? '; not assigned' : '; it keeps the assignment and applies it when it returns';
+  return { action: 'set', status: 'skipped', reason: `${reason}${kept}` };
 }
 
 /** The latency part of the gate: measured mean against the calibrated prediction, within the tolerance. */
