@@ -175,6 +175,17 @@ describe('rollout across a SIGKILL of the server process', () => {
     const bad = captureIo(process.cwd(), { OCELLUS_TOKEN: ADMIN, OCELLUS_SERVER: base() });
     expect(await historyCommand([ids[0]!, '--from', 'last tuesday'], bad)).toBe(2);
     expect(bad.err()).toContain('--from must be an ISO 8601 time');
+    // The validator's report for the class, with the class's fitted calibration once there is enough telemetry.
+    const report = await api('GET', `/api/v1/calibration/profiles/${goodProfile.id}/report`);
+    expect(report.status).toBe(200);
+    expect(report.body.deviceClassId).toBe(deviceClass.id);
+    expect(report.body.fit.devices).toBe(DEVICES);
+    const fit = report.body.fit;
+    const enough = fit.windows >= 20 && fit.frames >= 1000 && fit.devices >= 3;
+    expect(fit.enough).toBe(enough);
+    expect(report.body.calibration).toEqual(enough ? { latencyFactor: fit.latency.factor, energyFactor: fit.energy.factor, samples: fit.windows } : null);
+    expect(['pass', 'warn', 'fail']).toContain(report.body.report.status);
+    expect((await api('GET', '/api/v1/calibration/profiles/no-such-profile/report')).status).toBe(404);
     const missing = captureIo(process.cwd(), { OCELLUS_TOKEN: ADMIN, OCELLUS_SERVER: base() });
     expect(await rolloutCommand(['resume', rolloutId], missing)).toBe(2);
     expect(missing.err()).toContain('is completed');
