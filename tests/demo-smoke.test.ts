@@ -4,26 +4,29 @@
  * must show the robots' safety habits: releases (apply policy when-idle) applied only while a robot stood
  * still, and tasks done standing entered only after stopping. (Demo data throughout.)
  */
-import { spawn } from 'node:child_process';
+import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Database from 'better-sqlite3';
 import { afterAll, describe, expect, it } from 'vitest';
+import { waitFor } from './agent-fixtures.js';
 
 const ROOT = new URL('..', import.meta.url).pathname;
 const dir = mkdtempSync(join(tmpdir(), 'ocellus-demo-smoke-'));
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-function runDemo(args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
+function runDemo(args: string[], whileRunning?: (child: ChildProcess, stdout: () => string) => Promise<void>): Promise<{ code: number | null; stdout: string; stderr: string }> {
   const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'demo', ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'], env: { ...process.env, OCELLUS_ADMIN_TOKEN: '' } });
   let stdout = '';
   let stderr = '';
-  child.stdout.on('data', (c: Buffer) => (stdout += c.toString('utf8')));
-  child.stderr.on('data', (c: Buffer) => (stderr += c.toString('utf8')));
+  child.stdout!.on('data', (c: Buffer) => (stdout += c.toString('utf8')));
+  child.stderr!.on('data', (c: Buffer) => (stderr += c.toString('utf8')));
   const guard = setTimeout(() => child.kill('SIGKILL'), 150_000);
-  return new Promise((resolve) => child.once('exit', (code) => (clearTimeout(guard), resolve({ code, stdout, stderr }))));
+  const exited = new Promise<{ code: number | null; stdout: string; stderr: string }>((resolve) => child.once('exit', (code) => (clearTimeout(guard), resolve({ code, stdout, stderr }))));
+  void whileRunning?.(child, () => stdout).catch((e: unknown) => (stderr += `test: ${(e as Error).message}`));
+  return exited;
 }
 
 describe('ocellus demo', () => {
@@ -71,5 +74,19 @@ describe('ocellus demo', () => {
     } finally {
       db.close();
     }
+  });
+
+  it('stops cleanly on Ctrl-C, a second Ctrl-C included: exit 0, final summary, ports closed', async () => {
+    const r = await runDemo(['--robots', '2', '--port', '0', '--mqtt-port', '0', '--data', join(dir, 'sigint')], async (child, stdout) => {
+      await waitFor(() => /\[demo \d+:\d\d\] robots/.test(stdout()), 'the first summary line', 60_000, 100);
+      // A terminal sends Ctrl-C to the whole process group, and launchers relay it once more.
+      child.kill('SIGINT');
+      child.kill('SIGINT');
+    });
+    expect(r.code, `${r.stdout}\n${r.stderr}`).toBe(0);
+    expect(r.stdout).toContain('demo: SIGINT; stopping robots, agents, server and broker');
+    expect(r.stdout).toMatch(/\[demo \d+:\d\d final\] robots 2\/2 online/);
+    const url = /console: (http:\/\/127\.0\.0\.1:\d+)\//.exec(r.stdout)![1]!;
+    await expect(fetch(`${url}/api/v1/openapi.json`)).rejects.toThrow();
   });
 });

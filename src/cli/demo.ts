@@ -25,20 +25,34 @@ export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--port 8
 
 const SUMMARY_EVERY_MS = 3000;
 
-function waitForStop(durationS: number | undefined): Promise<string> {
-  return new Promise((resolvePromise) => {
-    let timer: NodeJS.Timeout | null = null;
-    const done = (why: string) => {
+/**
+ * Resolves `requested` when Ctrl-C (SIGINT) or SIGTERM arrives, or once `stopAfter` has run out. The handlers stay until `release()`:
+ * a signal during shutdown (a terminal sends Ctrl-C to every process of the group, and launchers relay it
+ * again) must not kill the process halfway through stopping agents, server and broker.
+ */
+function stopRequest(io: CliIo) {
+  let stopping = false;
+  let resolveStop: (why: string) => void = () => {};
+  const requested = new Promise<string>((resolvePromise) => (resolveStop = resolvePromise));
+  const onSignal = (signal: string) => {
+    if (stopping) return void io.stderr(`demo: ${signal} again; already stopping\n`);
+    stopping = true;
+    resolveStop(signal);
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  let timer: NodeJS.Timeout | null = null;
+  return {
+    requested,
+    stopAfter: function stopAfter(durationS: number) {
+      timer = setTimeout(() => onSignal(`${durationS} s are up`), durationS * 1000);
+    },
+    release: function release() {
+      if (timer) clearTimeout(timer);
       process.off('SIGINT', onSignal);
       process.off('SIGTERM', onSignal);
-      if (timer) clearTimeout(timer);
-      resolvePromise(why);
-    };
-    const onSignal = (signal: string) => done(signal);
-    process.on('SIGINT', onSignal);
-    process.on('SIGTERM', onSignal);
-    if (durationS !== undefined) timer = setTimeout(() => done(`${durationS} s are up`), durationS * 1000);
-  });
+    },
+  };
 }
 
 export async function run(args: string[], io: CliIo): Promise<number> {
@@ -61,42 +75,63 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
 
     io.stdout(`${DEMO_CAUTION}\n`);
-    io.stdout(`demo folder: ${dataDir}\n`);
-    let demo;
+    const stop = stopRequest(io);
     try {
-      demo = await startDemo({
-        dataDir, robots, port, mqttPort,
-        // A short run starts the rollout as soon as every robot runs its first release.
-        rolloutAfterS: durationS === undefined ? 8 : Math.min(8, durationS * 0.2),
-        ...(adminToken ? { adminToken } : {}),
-        say: (line) => io.stdout(`${line}\n`),
-      });
-    } catch (e) {
-      if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
-      io.stderr(`error: ${(e as Error).message}: a port is taken; choose others with --port and --mqtt-port (0 picks free ones)\n`);
-      return EXIT_BAD_INPUT;
+      return await runDemo(io, stop, { dataDir, robots, port, mqttPort, durationS, adminToken });
+    } finally {
+      stop.release();
     }
-    io.stdout(`console: ${demo.consoleUrl}\n`);
-    io.stdout(`admin token: ${demo.adminToken}${demo.tokenSource === 'environment' ? ' (from OCELLUS_ADMIN_TOKEN)' : ''}\n`);
-    io.stdout(`MQTT broker: ${demo.brokerUrl}; server log and agent logs: ${demo.logFile}\n`);
-    io.stdout(durationS === undefined ? 'running; press Ctrl-C to stop\n' : `running for ${durationS} s\n`);
-
-    let printing = false;
-    const ticker = setInterval(() => {
-      if (printing) return;
-      printing = true;
-      demo.summary().then(
-        (s) => io.stdout(`${formatSummary(s)}\n`),
-        (e: unknown) => io.stderr(`demo: summary failed: ${(e as Error).message}\n`),
-      ).finally(() => (printing = false));
-    }, SUMMARY_EVERY_MS);
-    const why = await waitForStop(durationS);
-    clearInterval(ticker);
-    io.stdout(`demo: ${why}; stopping robots, agents, server and broker\n`);
-    const final = await demo.summary().catch(() => null);
-    await demo.stop();
-    if (final) io.stdout(`${formatSummary(final, true)}\n`);
-    io.stdout(`demo data kept in ${dataDir}\n`);
-    return EXIT_OK;
   });
+}
+
+/** What `run` parsed from the flags and the environment. */
+interface DemoRun {
+  dataDir: string;
+  robots: number;
+  port: number;
+  mqttPort: number;
+  durationS: number | undefined;
+  adminToken: string | undefined;
+}
+
+async function runDemo(io: CliIo, stop: ReturnType<typeof stopRequest>, o: DemoRun): Promise<number> {
+  const { dataDir, robots, port, mqttPort, durationS, adminToken } = o;
+  io.stdout(`demo folder: ${dataDir}\n`);
+  let demo;
+  try {
+    demo = await startDemo({
+      dataDir, robots, port, mqttPort,
+      // A short run starts the rollout as soon as every robot runs its first release.
+      rolloutAfterS: durationS === undefined ? 8 : Math.min(8, durationS * 0.2),
+      ...(adminToken ? { adminToken } : {}),
+      say: (line) => io.stdout(`${line}\n`),
+    });
+  } catch (e) {
+    if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
+    io.stderr(`error: ${(e as Error).message}: a port is taken; choose others with --port and --mqtt-port (0 picks free ones)\n`);
+    return EXIT_BAD_INPUT;
+  }
+  io.stdout(`console: ${demo.consoleUrl}\n`);
+  io.stdout(`admin token: ${demo.adminToken}${demo.tokenSource === 'environment' ? ' (from OCELLUS_ADMIN_TOKEN)' : ''}\n`);
+  io.stdout(`MQTT broker: ${demo.brokerUrl}; server log and agent logs: ${demo.logFile}\n`);
+  io.stdout(durationS === undefined ? 'running; press Ctrl-C to stop\n' : `running for ${durationS} s\n`);
+  if (durationS !== undefined) stop.stopAfter(durationS);
+
+  let printing = false;
+  const ticker = setInterval(() => {
+    if (printing) return;
+    printing = true;
+    demo.summary().then(
+      (s) => io.stdout(`${formatSummary(s)}\n`),
+      (e: unknown) => io.stderr(`demo: summary failed: ${(e as Error).message}\n`),
+    ).finally(() => (printing = false));
+  }, SUMMARY_EVERY_MS);
+  const why = await stop.requested;
+  clearInterval(ticker);
+  io.stdout(`demo: ${why}; stopping robots, agents, server and broker\n`);
+  const final = await demo.summary().catch(() => null);
+  await demo.stop();
+  if (final) io.stdout(`${formatSummary(final, true)}\n`);
+  io.stdout(`demo data kept in ${dataDir}\n`);
+  return EXIT_OK;
 }
