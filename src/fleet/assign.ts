@@ -35,11 +35,12 @@ type Prepared =
   | Extract<AssignResult, { ok: false }>;
 
 /** Looks up the device and the release and checks they fit; a batch parses each release once (`parsed`). */
-function prepare(store: Store, input: AssignInput, parsed: Map<string, SignedRelease>): Prepared {
+function prepare(store: Store, input: AssignInput, parsed: Map<string, { record: ReleaseRecord; signed: SignedRelease }>): Prepared {
   const at = input.at ?? new Date().toISOString();
   const device = store.devices.get(input.deviceId);
   if (!device) return { ok: false, code: 'device-not-found', message: `no device '${input.deviceId}' is enrolled` };
-  const record = store.releases.get(input.releaseId);
+  const known = parsed.get(input.releaseId);
+  const record = known?.record ?? store.releases.get(input.releaseId);
   if (!record) return { ok: false, code: 'release-not-found', message: `no release '${input.releaseId}' is stored` };
   if (record.deviceClassId !== device.deviceClassId) {
     return {
@@ -48,11 +49,9 @@ function prepare(store: Store, input: AssignInput, parsed: Map<string, SignedRel
       message: `release '${record.id}' is for device class '${record.deviceClassId}'; device '${device.id}' is a '${device.deviceClassId}'`,
     };
   }
-  let signed = parsed.get(record.id);
-  if (!signed) {
-    signed = signedReleaseSchema.parse(record.signed);
-    parsed.set(record.id, signed);
-  }
+  // Releases never change once stored, so one batch reads and checks each release once.
+  const signed = known?.signed ?? signedReleaseSchema.parse(record.signed);
+  if (!known) parsed.set(record.id, { record, signed });
   return { ok: true, input, at, device, record, signed };
 }
 
@@ -103,7 +102,7 @@ export type NotRecorded = { ok: false; code: 'not-recorded'; message: string; er
  * Results come in the order of the inputs.
  */
 export async function assignReleases(store: Store, publisher: ReleasePublisher | undefined, inputs: readonly AssignInput[]): Promise<Array<AssignResult | NotRecorded>> {
-  const parsed = new Map<string, SignedRelease>();
+  const parsed = new Map<string, { record: ReleaseRecord; signed: SignedRelease }>();
   const prepared = inputs.map((input) => prepare(store, input, parsed));
   const recorded = store.transaction(() =>
     prepared.map((p): { p: Prepared; assignment?: AssignmentRecord; failed?: NotRecorded } => {

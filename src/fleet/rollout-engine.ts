@@ -64,6 +64,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   let timer: NodeJS.Timeout | null = null;
   let inFlight: Promise<void> = Promise.resolve();
   let busy = false;
+  let restUntil = 0;
 
   function releaseOf(id: string): Release {
     let r = releases.get(id);
@@ -134,8 +135,9 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const waveStartMs = Date.parse(r.waveStartedAt!);
     const toAssign: RolloutDeviceRecord[] = [];
     store.transaction(() => {
-      for (const d of repo.openDevices(r.id, r.currentWave)) {
-        const verdict = judgeDevice(facts.facts(d, release, nowMs, waveStartMs, spec.gate.telemetryFrames > 0), ctx);
+      const open = facts.openWave({ rolloutId: r.id, wave: r.currentWave, release, nowMs, waveStartMs, needTelemetry: spec.gate.telemetryFrames > 0 });
+      for (const { device: d, facts: f } of open) {
+        const verdict = judgeDevice(f, ctx);
         if (verdict.action === 'assign') toAssign.push(d);
         else if (verdict.action === 'set') repo.setDeviceStatus(r.id, d.deviceId, verdict.status, verdict.reason, at);
       }
@@ -212,10 +214,12 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   function tick(): Promise<void> {
     const run = async () => {
       busy = true;
+      const started = performance.now();
       try {
         await pass();
       } finally {
         busy = false;
+        restUntil = performance.now() + (performance.now() - started);
       }
     };
     inFlight = inFlight.then(run, run);
@@ -225,9 +229,10 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   return {
     start: function start() {
       if (timer) return;
-      // A slow pass (thousands of assignments) is not queued behind: the next tick after it finishes runs.
+      // A slow pass (thousands of devices) is not queued behind, and the next one waits at least as long as the
+      // last one took: the engine keeps to about half of the event loop, leaving the rest to the bus bridge.
       timer = setInterval(() => {
-        if (!busy) void tick();
+        if (!busy && performance.now() >= restUntil) void tick();
       }, tickMs);
       timer.unref?.();
     },

@@ -62,7 +62,8 @@ interface RolloutRow {
   updated_at: string;
 }
 
-interface DeviceRow {
+/** A rollout_devices row as SQLite returns it (for readers that join it with other tables). */
+export interface DeviceRow {
   rollout_id: string;
   device_id: string;
   wave: number;
@@ -96,7 +97,7 @@ function toRollout(r: RolloutRow): RolloutRecord {
   };
 }
 
-function toDevice(r: DeviceRow): RolloutDeviceRecord {
+export function toDevice(r: DeviceRow): RolloutDeviceRecord {
   return {
     rolloutId: r.rollout_id,
     deviceId: r.device_id,
@@ -134,8 +135,6 @@ export interface RolloutRepository {
   /** For each given device held by a rollout in a holding status (other than `exceptRolloutId`): which one. */
   holders(deviceIds: readonly string[], exceptRolloutId?: string): Array<{ deviceId: string; rolloutId: string }>;
   devices(rolloutId: string, wave?: number): RolloutDeviceRecord[];
-  /** Devices of a wave still on their way through the gate: waiting, assigned or applied. */
-  openDevices(rolloutId: string, wave: number): RolloutDeviceRecord[];
   /** How many devices of a wave are in each status. */
   waveCounts(rolloutId: string, wave: number): Partial<Record<RolloutDeviceStatus, number>>;
   device(rolloutId: string, deviceId: string): RolloutDeviceRecord | null;
@@ -163,8 +162,6 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
   const movingRows = db.prepare("SELECT * FROM rollouts WHERE status IN ('running', 'rolling-back') ORDER BY created_at, id");
   const deviceRows = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? ORDER BY wave, position');
   const waveRows = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND wave = ? ORDER BY position');
-  const openRows = db.prepare(`SELECT * FROM rollout_devices WHERE rollout_id = ? AND wave = ?
-      AND status IN ('waiting', 'assigned', 'applied') ORDER BY position`);
   const countRows = db.prepare('SELECT status, COUNT(*) AS n FROM rollout_devices WHERE rollout_id = ? AND wave = ? GROUP BY status');
   const oneDevice = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND device_id = ?');
   const holderOf = db.prepare(`SELECT d.rollout_id AS rolloutId FROM rollout_devices d JOIN rollouts r ON r.id = d.rollout_id
@@ -216,9 +213,6 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
     devices: function devices(rolloutId, wave) {
       const rows = wave === undefined ? deviceRows.all(rolloutId) : waveRows.all(rolloutId, wave);
       return (rows as DeviceRow[]).map(toDevice);
-    },
-    openDevices: function openDevices(rolloutId, wave) {
-      return (openRows.all(rolloutId, wave) as DeviceRow[]).map(toDevice);
     },
     waveCounts: function waveCounts(rolloutId, wave) {
       return Object.fromEntries((countRows.all(rolloutId, wave) as Array<{ status: RolloutDeviceStatus; n: number }>).map((r) => [r.status, r.n]));
