@@ -40,13 +40,14 @@ function validFor(key: string): { path: string; body: unknown } {
     'devices.enrol': { path: '/api/v1/devices', body: { id: 'gh-fuzz', deviceClassId: deviceClass.id, tags: ['a'] } },
     'devices.assign': { path: '/api/v1/devices/gh-01/assign', body: { releaseId } },
     'tokens.create': { path: '/api/v1/tokens', body: { role: 'viewer', label: 'fuzz' } },
+    'rollouts.create': { path: '/api/v1/rollouts', body: { releaseId, target: { deviceIds: ['gh-01'] }, waves: [1] } },
   };
   const v = valid[key];
   if (!v) throw new Error(`no valid body for ${key}`);
   return v;
 }
 
-const TABLES = ['documents', 'profile_revisions', 'releases', 'devices', 'assignments', 'tokens', 'audit'];
+const TABLES = ['documents', 'profile_revisions', 'releases', 'devices', 'assignments', 'tokens', 'audit', 'rollouts', 'rollout_devices'];
 function snapshot(): string {
   const counts = TABLES.map((t) => (h.store.db.prepare(`SELECT COUNT(*) AS n FROM ${t}`).get() as { n: number }).n);
   const blobs = readdirSync(join(h.dir, 'blobs'), { recursive: true }).length;
