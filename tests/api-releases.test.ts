@@ -56,6 +56,9 @@ describe('release building and signing', () => {
     expect(signed.keyId).toBe(key.keyId);
     expect(verifyCanonical(signed.release, signed.signature, key.publicKeyPem)).toBe(true);
     expect(verifyRelease(signed, key.publicKeyPem, deviceClass.id).ok).toBe(true);
+    const pem = await h.call('GET', '/api/v1/signing-key?format=pem', { token: null });
+    expect(pem.headers.get('content-type')).toBe('application/x-pem-file');
+    expect(await pem.text()).toBe(key.publicKeyPem);
 
     // Flip each byte of the canonical text in turn (skipping changes that break the JSON): none verifies.
     const text = canonicalJson(signed.release);

@@ -77,5 +77,10 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     });
   }
 
-  route('signing-key', (c) => c.json({ algorithm: 'Ed25519', keyId: signer.keyId, publicKeyPem: signer.publicKeyPem }));
+  route('signing-key', (c) =>
+    // ?format=pem gives the bare PEM, ready to save as the agent's --public-key-path file.
+    c.req.query('format') === 'pem'
+      ? c.body(signer.publicKeyPem, 200, { 'Content-Type': 'application/x-pem-file' })
+      : c.json({ algorithm: 'Ed25519', keyId: signer.keyId, publicKeyPem: signer.publicKeyPem }),
+  );
 }

@@ -92,7 +92,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'releases.replace', method: 'put', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },
   { key: 'releases.patch', method: 'patch', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },
   { key: 'releases.delete', method: 'delete', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },
-  { key: 'signing-key', method: 'get', path: `${API_BASE}/signing-key`, access: 'public', mutates: false, summary: "The server's Ed25519 public key (PEM) and key id", tag: 'releases' },
+  { key: 'signing-key', method: 'get', path: `${API_BASE}/signing-key`, access: 'public', mutates: false, summary: "The server's Ed25519 public key (PEM) and key id; ?format=pem gives the bare PEM file", tag: 'releases' },
 
   { key: 'devices.enrol', method: 'post', path: D, access: 'operator', mutates: true, body: enrolRequestSchema, summary: 'Enrol a device; its MQTT password is shown once', tag: 'devices' },
   { key: 'devices.list', method: 'get', path: D, access: 'viewer', mutates: false, query: deviceQuerySchema, summary: 'List devices by class, tag and online state', tag: 'devices' },
