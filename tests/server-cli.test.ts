@@ -104,7 +104,7 @@ describe('ocellus serve as a process', () => {
   it('prints its URL, answers, and exits 0 with the database closed on SIGTERM', async () => {
     const data = tempDataDir();
     dirs.push(data);
-    const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'serve', '--port', '0', '--data', data], {
+    const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'serve', '--port', '0', '--mqtt-port', '0', '--data', data], {
       cwd: process.cwd(),
       env: { ...process.env, OCELLUS_ADMIN_TOKEN: 'demo-data-admin-token-0123456789' },
       stdio: ['ignore', 'pipe', 'pipe'],
