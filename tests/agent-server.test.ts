@@ -2,7 +2,7 @@ import { existsSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { busForServer } from '../src/bus/start-bus.js';
-import { createDemoApi, type DemoApi } from '../src/demo/api-client.js';
+import { createApiClient, type ApiClient } from '../src/client/api-client.js';
 import { createClassRelease, loadScenario } from '../src/demo/load-scenario.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../src/demo/scenario.js';
 import { startServer, type RunningServer } from '../src/runtime/start-server.js';
@@ -16,13 +16,13 @@ import { spawnAgent, type AgentProcess } from './agent-process-rig.js';
 describe('agent process against the real server (HTTP API, signed release, embedded broker)', () => {
   const dir = tempDir('agent-server');
   let server: RunningServer;
-  let api: DemoApi;
+  let api: ApiClient;
   const procs: AgentProcess[] = [];
   const adminToken = 'agent-server-test-admin-token-0123456789';
 
   beforeAll(async () => {
     server = await startServer({ dataDir: join(dir.path, 'server'), port: 0, adminToken, log: () => {}, bus: busForServer({ embedded: { port: 0 } }) });
-    api = createDemoApi(server.url, adminToken);
+    api = createApiClient(server.url, adminToken);
     await loadScenario(api, DEMO_CATALOG_DIR);
   });
   afterAll(async () => {

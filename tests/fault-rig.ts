@@ -9,7 +9,7 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Database from 'better-sqlite3';
-import { createDemoApi, type DemoApi } from '../src/demo/api-client.js';
+import { createApiClient, type ApiClient } from '../src/client/api-client.js';
 import { createClassRelease, loadScenario } from '../src/demo/load-scenario.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../src/demo/scenario.js';
 import { waitFor } from './agent-fixtures.js';
@@ -106,7 +106,7 @@ export interface FaultSite {
   port: number;
   mqttPort: number;
   server: ServerProcess;
-  api: DemoApi;
+  api: ApiClient;
   keyPath: string;
   /** Release id of scout A's first release. */
   releaseA: string;
@@ -130,7 +130,7 @@ export async function startFaultSite(label: string): Promise<FaultSite> {
   const port = await freePort();
   const mqttPort = await freePort();
   let server = await startServerProcess(serverDir, port, mqttPort);
-  const api = createDemoApi(server.url, ADMIN_TOKEN);
+  const api = createApiClient(server.url, ADMIN_TOKEN);
   await loadScenario(api, DEMO_CATALOG_DIR);
   const releaseA = (await createClassRelease(api, CLASS_A)).release.id;
   const { publicKeyPem } = await api.json<{ publicKeyPem: string }>('GET', '/api/v1/signing-key');

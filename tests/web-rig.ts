@@ -9,7 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { busForServer } from '../src/bus/start-bus.js';
-import { createDemoApi, type DemoApi } from '../src/demo/api-client.js';
+import { createApiClient, type ApiClient } from '../src/client/api-client.js';
 import { enrolFleet, planRobots, type EnrolledRobot } from '../src/demo/fleet.js';
 import { createClassRelease, loadScenario } from '../src/demo/load-scenario.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../src/demo/scenario.js';
@@ -23,7 +23,7 @@ export const SCREENSHOT_DIR = join(process.cwd(), 'test-artifacts', 'console');
 
 export interface ConsoleRig {
   server: RunningServer;
-  api: DemoApi;
+  api: ApiClient;
   adminToken: string;
   /** A token per role, for the role tests. */
   tokens: Record<'viewer' | 'engineer' | 'operator' | 'admin', string>;
@@ -65,7 +65,7 @@ export async function startConsoleRig(): Promise<ConsoleRig> {
   const robots: EnrolledRobot[] = [];
   let browser: Browser | null = null;
   try {
-    const api = createDemoApi(server.url, adminToken);
+    const api = createApiClient(server.url, adminToken);
     await loadScenario(api, DEMO_CATALOG_DIR);
     const firstReleases = new Map<string, string>();
     for (const c of DEMO_CLASSES) firstReleases.set(c.deviceClassId, (await createClassRelease(api, c)).release.id);

@@ -1,7 +1,8 @@
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { CLIENT_FLAGS, createServerClient, reportServerError, ServerError } from './server-client.js';
+import { ApiError } from '../client/api-client.js';
+import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus device enrol ID --class D [--tag T]... [--server URL] [--token T] [--json]
        ocellus device assign ID --release R [--server URL] [--token T] [--json]
@@ -75,7 +76,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       }
       throw new UsageError(`expected 'device enrol', 'device assign' or 'device list', got '${verb ?? ''}'`);
     } catch (e) {
-      if (e instanceof ServerError) return reportServerError(io, e);
+      if (e instanceof ApiError) return reportServerError(io, e);
       throw e;
     }
   });

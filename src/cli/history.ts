@@ -3,7 +3,8 @@ import type { HistoryInterval } from '../fleet/history.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { CLIENT_FLAGS, createServerClient, reportServerError, ServerError } from './server-client.js';
+import { ApiError } from '../client/api-client.js';
+import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus history DEVICE [--from ISO-TIME] [--to ISO-TIME] [--csv | --json] [--server URL] [--token T]
   Which task profile a device ran when: one line per interval, from one task switch to the next, with the
@@ -45,7 +46,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       }
       return EXIT_OK;
     } catch (e) {
-      if (e instanceof ServerError) return reportServerError(io, e);
+      if (e instanceof ApiError) return reportServerError(io, e);
       throw e;
     }
   });

@@ -2,7 +2,8 @@ import type { SignedRelease } from '../protocol/release.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { CLIENT_FLAGS, createServerClient, reportServerError, ServerError } from './server-client.js';
+import { ApiError } from '../client/api-client.js';
+import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus release create --device-class D --task name=profileId[@revision]... [--default-task T]
                               [--policy when-idle|immediate] [--override-reason R] [--server URL] [--token T] [--json]
@@ -71,7 +72,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       }
       return EXIT_OK;
     } catch (e) {
-      if (e instanceof ServerError) return reportServerError(io, e);
+      if (e instanceof ApiError) return reportServerError(io, e);
       throw e;
     }
   });

@@ -3,7 +3,8 @@ import type { RolloutRequestInput, WaveSize } from '../fleet/rollout-spec.js';
 import { guard, parseFlags, printJson, toNumber, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { CLIENT_FLAGS, createServerClient, reportServerError, ServerError, type ServerClient } from './server-client.js';
+import { ApiError, type ApiClient } from '../client/api-client.js';
+import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus rollout create --release R (--device ID ... | [--class C] [--tag T ...]) [--waves 1,10%]
                               [--apply-timeout-s 600] [--telemetry-frames 300] [--telemetry-timeout-s 900]
@@ -45,7 +46,7 @@ function describe(r: RolloutView): string {
   return out.join('\n') + '\n';
 }
 
-async function create(client: ServerClient, values: Record<string, unknown>): Promise<RolloutView & { caution: string }> {
+async function create(client: ApiClient, values: Record<string, unknown>): Promise<RolloutView & { caution: string }> {
   if (typeof values.release !== 'string') throw new UsageError('missing --release');
   const devices = values.device as string[] | undefined;
   const tags = (values.tag as string[] | undefined) ?? [];
@@ -129,7 +130,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       }
       throw new UsageError(`expected 'rollout create', 'status', 'pause', 'resume', 'abort' or 'rollback', got '${verb ?? ''}'`);
     } catch (e) {
-      if (e instanceof ServerError) return reportServerError(io, e);
+      if (e instanceof ApiError) return reportServerError(io, e);
       throw e;
     }
   });

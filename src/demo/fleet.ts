@@ -4,7 +4,7 @@ import { createAgent, type Agent } from '../../device-agent/agent.js';
 import { agentSettingsSchema } from '../../device-agent/config.js';
 import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
 import { systemClock } from '../../device-agent/clock.js';
-import { DemoApiError, type DemoApi } from './api-client.js';
+import { ApiError, type ApiClient } from '../client/api-client.js';
 import { DEMO_CLASSES, type DemoClass } from './scenario.js';
 
 export interface DemoRobotSpec {
@@ -37,7 +37,7 @@ export function planRobots(count: number): DemoRobotSpec[] {
  * Enrols one robot through the API (its MQTT password is kept in its own folder, so a later demo run on the
  * same data folder reuses it). Returns the password.
  */
-async function enrol(api: DemoApi, spec: DemoRobotSpec, dataDir: string): Promise<string> {
+async function enrol(api: ApiClient, spec: DemoRobotSpec, dataDir: string): Promise<string> {
   const credentialsFile = join(dataDir, 'credentials.json');
   try {
     const r = await api.json<{ mqtt: { password: string } }>('POST', '/api/v1/devices', {
@@ -48,7 +48,7 @@ async function enrol(api: DemoApi, spec: DemoRobotSpec, dataDir: string): Promis
     writeFileSync(credentialsFile, JSON.stringify({ deviceId: spec.deviceId, password: r.mqtt.password, demoData: true }), { mode: 0o600 });
     return r.mqtt.password;
   } catch (e) {
-    if (e instanceof DemoApiError && e.status === 409 && existsSync(credentialsFile)) {
+    if (e instanceof ApiError && e.status === 409 && existsSync(credentialsFile)) {
       return (JSON.parse(readFileSync(credentialsFile, 'utf8')) as { password: string }).password;
     }
     throw e;
@@ -56,7 +56,7 @@ async function enrol(api: DemoApi, spec: DemoRobotSpec, dataDir: string): Promis
 }
 
 export interface FleetOptions {
-  api: DemoApi;
+  api: ApiClient;
   robots: readonly DemoRobotSpec[];
   /** Folder under which each robot gets its own agent folder. */
   robotsDir: string;

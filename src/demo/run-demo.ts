@@ -3,7 +3,7 @@ import { appendFileSync, mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { busForServer } from '../bus/start-bus.js';
 import { startServer, type RunningServer } from '../runtime/start-server.js';
-import { createDemoApi, DemoApiError, type DemoApi } from './api-client.js';
+import { ApiError, createApiClient, type ApiClient } from '../client/api-client.js';
 import { enrolFleet, planRobots, type EnrolledRobot } from './fleet.js';
 import { createClassRelease, createRevisedRelease, loadScenario } from './load-scenario.js';
 import { createDemoRobot, type DemoRobot } from './robot.js';
@@ -60,13 +60,13 @@ function adminTokenFor(server: RunningServer, given: string | undefined, generat
 }
 
 /** Starts a rollout; when earlier demo rollouts still hold the robots (a reused folder), aborts those first. */
-async function startRollout(api: DemoApi, releaseId: string, deviceIds: readonly string[], say: (line: string) => void): Promise<string> {
+async function startRollout(api: ApiClient, releaseId: string, deviceIds: readonly string[], say: (line: string) => void): Promise<string> {
   const body = demoRolloutRequest(releaseId, deviceIds);
   try {
     return (await api.json<{ id: string }>('POST', '/api/v1/rollouts', body)).id;
   } catch (e) {
-    const conflicts = ((e as DemoApiError).body as { conflicts?: Array<{ rolloutId: string }> } | null)?.conflicts;
-    if (!(e instanceof DemoApiError) || e.status !== 409 || !conflicts) throw e;
+    const conflicts = ((e as ApiError).body as { conflicts?: Array<{ rolloutId: string }> } | null)?.conflicts;
+    if (!(e instanceof ApiError) || e.status !== 409 || !conflicts) throw e;
     for (const id of new Set(conflicts.map((c) => c.rolloutId))) {
       say(`aborting rollout ${id} of an earlier demo run, which still holds these robots`);
       await api.json('POST', `/api/v1/rollouts/${id}/abort`);
@@ -114,7 +114,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
 
   try {
     const { token, source } = adminTokenFor(server, options.adminToken, generated);
-    const api = createDemoApi(server.url, token);
+    const api = createApiClient(server.url, token);
     const brokerUrl = /mqtt:\/\/[^\s]+/.exec(server.bus ?? '')?.[0];
     if (!brokerUrl) throw new Error(`the server started without its MQTT broker (${server.bus ?? 'no bus'})`);
 

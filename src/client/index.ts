@@ -1,0 +1,2 @@
+export * from './api-client.js';
+export * from './push-documents.js';
