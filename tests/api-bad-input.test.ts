@@ -36,6 +36,7 @@ function validFor(key: string): { path: string; body: unknown } {
     'profiles.create': { path: '/api/v1/profiles', body: { ...goodProfile, id: 'fuzz-profile' } },
     'profiles.update': { path: `/api/v1/profiles/${goodProfile.id}`, body: goodProfile },
     validate: { path: '/api/v1/validate', body: goodProfile },
+    plan: { path: '/api/v1/plan', body: { taskId: task.id, deviceClassId: deviceClass.id, modelIds: [model.id], options: { granuleKib: 256, nearMisses: 1 } } },
     'releases.create': { path: '/api/v1/releases', body: { deviceClassId: deviceClass.id, tasks: { count: { profileId: goodProfile.id, revision: 1 } }, defaultTask: 'count' } },
     'devices.enrol': { path: '/api/v1/devices', body: { id: 'gh-fuzz', deviceClassId: deviceClass.id, tags: ['a'] } },
     'devices.assign': { path: '/api/v1/devices/gh-01/assign', body: { releaseId } },

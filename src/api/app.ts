@@ -9,6 +9,7 @@ import { registerDocumentRoutes } from './documents-routes.js';
 import { createErrorHandler, type ErrorBody } from './errors.js';
 import { createHttpMetrics } from './http-metrics.js';
 import { openApiDocument } from './openapi.js';
+import { registerPlanRoutes } from './plan-routes.js';
 import { registerHistoryRoutes } from './history-routes.js';
 import { registerProfileRoutes } from './profiles-routes.js';
 import { registerRolloutRoutes } from './rollouts-routes.js';
@@ -48,6 +49,7 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
   registerDocumentRoutes(route, resolved, 'models');
   registerWeightsRoutes(route, resolved);
   registerProfileRoutes(route, resolved);
+  registerPlanRoutes(route, resolved);
   registerReleaseRoutes(route, resolved);
   registerDeviceRoutes(route, resolved);
   registerRolloutRoutes(route, resolved);

@@ -7,6 +7,7 @@ import { networkSchema } from '../schema/network.js';
 import { profileSchema } from '../schema/profile.js';
 import { taskSchema } from '../schema/task.js';
 import { deviceEventsQuerySchema } from './device-events-query.js';
+import { planRequestSchema } from './plan-request.js';
 import type { Access } from './roles.js';
 import {
   assignRequestSchema,
@@ -85,6 +86,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'profiles.revision', method: 'get', path: `${P}/:id/revisions/:revision`, access: 'viewer', mutates: false, summary: 'One revision of a profile', tag: 'profiles' },
   { key: 'profiles.diff', method: 'get', path: `${P}/:id/diff`, access: 'viewer', mutates: false, query: diffQuerySchema, summary: 'Field-level differences between two revisions', tag: 'profiles' },
   { key: 'validate', method: 'post', path: `${API_BASE}/validate`, access: 'viewer', mutates: false, body: profileSchema, summary: 'Validate a profile without saving it', tag: 'profiles' },
+  { key: 'plan', method: 'post', path: `${API_BASE}/plan`, access: 'engineer', mutates: false, body: planRequestSchema, summary: 'Search settings for a task on a device class: the Pareto front of candidates that pass every check (energy, accuracy, latency), or the binding constraints and near misses; up to about a second of CPU', tag: 'profiles' },
 
   { key: 'releases.list', method: 'get', path: R, access: 'viewer', mutates: false, query: releaseQuerySchema, summary: 'List releases', tag: 'releases' },
   { key: 'releases.create', method: 'post', path: R, access: 'operator', mutates: true, body: releaseRequestSchema, summary: 'Build, sign and store a release from validated profile revisions', tag: 'releases' },

@@ -1,0 +1,135 @@
+/**
+ * POST /api/v1/plan in-process against the greenhouse demo documents (demo data), pushed through the API
+ * as `ocellus push` does. The planner's own computations are tested in plan-*.test.ts; here: the route
+ * finds the stored documents, answers what plan() answers over the same files, every front member passes
+ * the validator the API itself runs, and bad requests are refused naming the field.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { findDocument, loadCatalog, type Catalog } from '../src/catalog/index.js';
+import { inDependencyOrder } from '../src/client/push-documents.js';
+import { DEMO_CATALOG_DIR } from '../src/demo/scenario.js';
+import { candidateToProfile, plan, type Candidate, type PlanResult } from '../src/plan/index.js';
+import type { Check } from '../src/schema/index.js';
+import { createHarness, removeDir, tempDataDir, type Harness } from './api-fixtures.js';
+
+interface PlanAnswer extends PlanResult {
+  calibration: unknown;
+  refs: { task: { id: string; version: number }; deviceClass: { id: string; version: number }; models: Array<{ model: { id: string } }> };
+}
+
+let h: Harness;
+let catalog: Catalog;
+
+beforeAll(async () => {
+  h = createHarness(tempDataDir());
+  catalog = await loadCatalog([DEMO_CATALOG_DIR]);
+  expect(catalog.issues).toEqual([]);
+  for (const doc of inDependencyOrder(catalog.documents)) {
+    if (doc.kind === 'profile') continue;
+    const collection = { 'device-class': 'device-classes', network: 'networks', model: 'models', task: 'tasks' }[doc.kind];
+    const res = await h.call('POST', `/api/v1/${collection}`, { body: doc.value });
+    expect(res.status, `${doc.kind} ${doc.value.id}`).toBe(201);
+  }
+});
+afterAll(() => {
+  h.closeStore();
+  removeDir(h.dir);
+});
+
+const planCall = (body: unknown, token: string | null = h.tokens.engineer) => h.call('POST', '/api/v1/plan', { body, token });
+
+async function validateCandidate(c: Candidate, taskId: string, deviceClassId: string): Promise<Check[]> {
+  const profile = candidateToProfile(c, { id: 'planned-check', taskId, deviceClassId, demoData: true });
+  const res = await h.call('POST', '/api/v1/validate', { body: profile, token: h.tokens.viewer });
+  expect(res.status).toBe(200);
+  return ((await res.json()) as { report: { checks: Check[] } }).report.checks;
+}
+
+describe('POST /api/v1/plan', () => {
+  it('fruit counting on gh-scout-a: the front plan() finds over the same files, each member passing /validate (demo data)', async () => {
+    const res = await planCall({ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a' });
+    expect(res.status).toBe(200);
+    const answer = (await res.json()) as PlanAnswer;
+    expect(answer.front.length).toBeGreaterThan(0);
+    // Without modelIds: the stored models of the accelerator's precision (int8 for gh-scout-a), none skipped.
+    expect(answer.searched.modelIds.sort()).toEqual(['fruit-finder-a', 'leaf-check-a', 'row-guide-a']);
+    expect(answer.skipped).toEqual([]);
+    expect(answer.calibration).toBeNull();
+    expect(answer.refs.task).toEqual({ id: 'fruit-counting', version: 1 });
+    expect(answer.refs.deviceClass).toEqual({ id: 'gh-scout-a', version: 1 });
+
+    const task = findDocument(catalog, 'task', 'fruit-counting')!;
+    const deviceClass = findDocument(catalog, 'device-class', 'gh-scout-a')!;
+    const candidates = answer.searched.modelIds.map((id) => {
+      const model = findDocument(catalog, 'model', id)!;
+      return { model, network: findDocument(catalog, 'network', model.networkId)! };
+    });
+    const direct = JSON.parse(JSON.stringify(plan({ task, deviceClass, candidates }))) as PlanResult;
+    expect(answer.front).toEqual(direct.front);
+    expect(answer.evaluated).toBe(direct.evaluated);
+
+    for (const c of answer.front) {
+      const checks = await validateCandidate(c, 'fruit-counting', 'gh-scout-a');
+      expect(checks.filter((k) => k.status === 'fail'), JSON.stringify(c)).toEqual([]);
+      // The figures the planner ranks by are the validator's own (demo data, same documents).
+      expect(c.predictedAccuracy).toBeGreaterThanOrEqual(task.minAccuracy);
+      expect(c.latencyMs).toBeLessThanOrEqual(task.latencyBudgetMs);
+    }
+  });
+
+  it('modelIds narrows the search; near misses come back on request with their failing checks', async () => {
+    const res = await planCall({ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', modelIds: ['fruit-finder-a'], options: { granuleKib: 128, nearMisses: 3 } });
+    expect(res.status).toBe(200);
+    const answer = (await res.json()) as PlanAnswer;
+    expect(answer.searched.modelIds).toEqual(['fruit-finder-a']);
+    expect(answer.front.every((c) => c.modelId === 'fruit-finder-a')).toBe(true);
+    // 2048 KiB of SRAM in 128 KiB steps: weight buffers 0, 128, … 2048, i.e. 17 partitions (gh-scout-a, demo data).
+    expect(answer.searched.memoryPartitions).toHaveLength(17);
+    expect(answer.nearMisses.length).toBeGreaterThan(0);
+    for (const n of answer.nearMisses) expect(n.failing.length).toBeGreaterThan(0);
+  });
+
+  it('an impossible task gives an empty front with the binding constraints and near misses', async () => {
+    // Demo data: fruit counting with a 5 ms latency budget. The frame budget is exposure + readout + ISP +
+    // inference (README, "Frame budget"); gh-scout-a's readout (9 ms) and ISP (3 ms) alone exceed it.
+    const base = findDocument(catalog, 'task', 'fruit-counting')!;
+    const created = await h.call('POST', '/api/v1/tasks', { body: { ...base, id: 'fruit-counting-impossible', name: 'Fruit counting in 5 ms (demo data)', latencyBudgetMs: 5 } });
+    expect(created.status).toBe(201);
+    const res = await planCall({ taskId: 'fruit-counting-impossible', deviceClassId: 'gh-scout-a' });
+    expect(res.status).toBe(200);
+    const answer = (await res.json()) as PlanAnswer;
+    expect(answer.front).toEqual([]);
+    expect(answer.evaluated).toBeGreaterThan(0);
+    expect(answer.bindingConstraints).toContain('latency');
+    expect(answer.failCounts.latency).toBe(answer.evaluated);
+    expect(answer.nearMisses.length).toBeGreaterThan(0);
+    for (const n of answer.nearMisses) expect(n.failing.map((c) => c.code)).toContain('latency');
+  });
+
+  it('a bad body is a 400 naming the field; missing references are 400s naming the reference', async () => {
+    const cases: Array<[unknown, string]> = [
+      [{ taskId: 'fruit-counting' }, 'deviceClassId'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', options: { granuleKib: 0 } }, 'options.granuleKib'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', options: { nearMisses: -1 } }, 'options.nearMisses'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', modelIds: [] }, 'modelIds'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', extra: 1 }, '(root)'],
+      [{ taskId: 'no-such-task', deviceClassId: 'gh-scout-a' }, 'taskId'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'no-such-class' }, 'deviceClassId'],
+      [{ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', modelIds: ['fruit-finder-a', 'no-such-model'] }, 'modelIds[1]'],
+    ];
+    for (const [body, path] of cases) {
+      const res = await planCall(body);
+      expect(res.status, JSON.stringify(body)).toBe(400);
+      const err = (await res.json()) as { error: string; issues: Array<{ path: string; message: string }> };
+      expect(typeof err.error).toBe('string');
+      expect(err.issues.map((i) => i.path), JSON.stringify(body)).toContain(path);
+    }
+  });
+
+  it('is for engineers and above: a viewer gets 403, no token 401, an operator 200', async () => {
+    const body = { taskId: 'low-light-patrol', deviceClassId: 'gh-scout-a', modelIds: ['row-guide-a'] };
+    expect((await planCall(body, h.tokens.viewer)).status).toBe(403);
+    expect((await planCall(body, null)).status).toBe(401);
+    expect((await planCall(body, h.tokens.operator)).status).toBe(200);
+  });
+});
