@@ -1,6 +1,7 @@
 import { assignRelease } from '../fleet/assign.js';
 import type { DeviceRecord } from '../store/devices.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from '../store/device-state.js';
+import { createDriftRepository } from '../store/drift.js';
 import { actorOf } from './auth.js';
 import { recordChange } from './audit-log.js';
 import { readJson, readQuery } from './body.js';
@@ -17,6 +18,7 @@ export const ASSIGN_CAUTION =
 /** Devices: enrolment (credentials shown once), listing, and manual release assignment. */
 export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
+  const drift = createDriftRepository(store.db);
   let states: DeviceStateRepository | null = null;
   /** The bus bridge's device_state table, once its migration has run; null before that. */
   function stateRepo(): DeviceStateRepository | null {
@@ -65,6 +67,8 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
       assignedRelease: assigned ? { id: assigned.id, version: assigned.version, deviceClassId: assigned.deviceClassId } : null,
       reported: stateRepo()?.get(id) ?? null,
       assignments: store.devices.assignments(id),
+      // Newest first: episodes where this device's measured ÷ predicted ratio left its class's.
+      drift: drift.list({ deviceId: id, limit: 20 }),
     });
   });
 
