@@ -69,6 +69,19 @@ function memoAuthenticate(store: Store) {
   };
 }
 
+/** Where the rollout's time went, from stored times alone (ms after creation): read after the run, so it costs the run nothing. */
+function phases(store: Store, rolloutId: string, releaseId: string, createdMs: number): string {
+  const q = (sql: string, ...args: unknown[]) => store.db.prepare(sql).pluck().get(...args) as string | null;
+  const after = (iso: string | null) => (iso === null ? '?' : String(Date.parse(iso) - Math.round(createdMs)));
+  const firstAssigned = q('SELECT MIN(assigned_at) FROM rollout_devices WHERE rollout_id = ?', rolloutId);
+  const firstState = q('SELECT MIN(updated_at) FROM device_state WHERE release_id = ?', releaseId);
+  const lastState = q('SELECT MAX(updated_at) FROM device_state WHERE release_id = ?', releaseId);
+  const lastPassed = q("SELECT MAX(applied_at) FROM rollout_devices WHERE rollout_id = ?", rolloutId);
+  const completed = q('SELECT updated_at FROM rollouts WHERE id = ?', rolloutId);
+  return `first pass at +${after(firstAssigned)} ms, states with the release stored from +${after(firstState)} to +${after(lastState)} ms, ` +
+    `last device applied at +${after(lastPassed)} ms, completed at +${after(completed)} ms`;
+}
+
 async function floorMs(client: MqttClient, ids: string[]): Promise<number> {
   const replied = new Set<string>();
   const onMessage = (topic: string, _payload: Buffer, packet: { retain?: boolean }) => {
@@ -124,7 +137,10 @@ export async function measure(n: number): Promise<BenchFigure> {
 
     const bridge = createBridge({ mqttClient: server, store, clock: { now: () => new Date() } });
     await until(() => bridge.deviceStates.countOnline() === n, 'every device online in the store', 120_000, 20);
-    const engine = createRolloutEngine({ store, publisher: bridge, clock: { now: () => new Date() }, tickMs: 20, calibrationEveryMs: 3_600_000, assignConcurrency: 500 });
+    const engine = createRolloutEngine({
+      store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener),
+      tickMs: 20, calibrationEveryMs: 3_600_000, assignConcurrency: 500,
+    });
     const service = createRolloutService(store);
     const request = rolloutRequestSchema.parse({
       releaseId: release.id,
@@ -148,6 +164,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     const running = store.db.prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
     if (running !== n) throw new Error(`${running} of ${n} devices report the release`);
     log(`${n}: rollout to completion ${value.toFixed(0)} ms (${running} devices report the release)`);
+    log(`${n}: ${phases(store, created.value.id, release.id, Date.now() - value)}`);
     await engine.stop();
     await bridge.close();
     const ratio = value / floor;

@@ -64,7 +64,10 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
   const web = await startWeightsServer();
   web.files.set('/api/v1/models/rows-net/weights', rowsWeights.bytes);
   web.files.set('/api/v1/models/leaf-net/weights', leavesWeights.bytes);
-  const engine = createRolloutEngine({ store, publisher: bridge, clock: { now: () => new Date() }, tickMs: 50, ...engineOptions });
+  // Wired as the server wires it: devices' reports wake the engine.
+  const engine = createRolloutEngine({
+    store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener), tickMs: 50, ...engineOptions,
+  });
   engine.start();
   const key = loadOrCreateSigningKey(dir.path, generateSigningKeyPair);
   const app = createApp({ store, blobs: createBlobStore(dir.path), signer: createSigner(key), publisher: bridge, onError: (e) => { throw e; } });

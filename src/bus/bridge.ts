@@ -172,8 +172,16 @@ export function createBridge(options: BridgeOptions): Bridge {
   client.on('connect', subscribe);
   if (client.connected) subscribe();
 
+  // A rollout hands the same signed release object for every device of a wave: it is encoded once, not per device.
+  // Signed releases are never changed after signing (a change would break the signature), so the cache stays true.
+  const encoded = new WeakMap<SignedRelease, Buffer>();
+
   async function publishRelease(deviceId: string, signed: SignedRelease): Promise<void> {
-    const payload = encodeMessage(signed);
+    let payload = encoded.get(signed);
+    if (!payload) {
+      payload = encodeMessage(signed);
+      encoded.set(signed, payload);
+    }
     if (payload.byteLength > MAX_PAYLOAD_BYTES.release) {
       throw new RangeError(`release ${signed.release.id} is ${payload.byteLength} bytes; the limit is ${MAX_PAYLOAD_BYTES.release}`);
     }

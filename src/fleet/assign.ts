@@ -19,9 +19,10 @@ export interface AssignInput {
   /**
    * Runs inside the assignment's transaction with the new assignment row, so a caller's own bookkeeping
    * (a rollout marking its device assigned) lands together with it or not at all: if it throws, nothing
-   * is recorded or sent and the error reaches the caller.
+   * is recorded or sent and the error reaches the caller. `before` holds the release the device was assigned
+   * before this assignment (read with the device, so the caller needs no read of its own).
    */
-  withinTransaction?: (assignment: AssignmentRecord) => void;
+  withinTransaction?: (assignment: AssignmentRecord, before: { releaseId: string | null }) => void;
 }
 
 export type PublishOutcome = { status: 'sent' } | { status: 'not-sent'; reason: string };
@@ -34,8 +35,8 @@ type Prepared =
   | { ok: true; input: AssignInput; at: string; device: DeviceRecord; record: ReleaseRecord; signed: SignedRelease }
   | Extract<AssignResult, { ok: false }>;
 
-/** Looks up the device and the release and checks they fit; a batch parses each release once (`parsed`). */
-function prepare(store: Store, input: AssignInput, parsed: Map<string, { record: ReleaseRecord; signed: SignedRelease }>): Prepared {
+/** Looks up the device and the release and checks they fit; each release is parsed once (`parsed`). */
+function prepare(store: Store, input: AssignInput, parsed: ParsedReleases): Prepared {
   const at = input.at ?? new Date().toISOString();
   const device = store.devices.get(input.deviceId);
   if (!device) return { ok: false, code: 'device-not-found', message: `no device '${input.deviceId}' is enrolled` };
@@ -66,7 +67,7 @@ function record(store: Store, p: Extract<Prepared, { ok: true }>): AssignmentRec
     target: `device/${device.id}`,
     detail: { releaseId: release.id, version: release.version, cause: input.cause, previousReleaseId: device.assignedReleaseId },
   });
-  input.withinTransaction?.(a);
+  input.withinTransaction?.(a, { releaseId: device.assignedReleaseId });
   return a;
 }
 
@@ -96,29 +97,48 @@ export async function assignRelease(store: Store, publisher: ReleasePublisher | 
 /** One item of a batch whose `withinTransaction` threw: nothing of it was recorded or sent. */
 export type NotRecorded = { ok: false; code: 'not-recorded'; message: string; error: unknown };
 
+/** A recorded assignment waiting to be sent, or why an item was not recorded. */
+export type RecordedAssignment =
+  | { ok: true; assignment: AssignmentRecord; release: SignedRelease; deviceId: string }
+  | Extract<AssignResult, { ok: false }>
+  | NotRecorded;
+
+/** Parsed releases by id, kept by a caller across batches (a rollout's release is parsed once, not per batch). */
+export type ParsedReleases = Map<string, { record: ReleaseRecord; signed: SignedRelease }>;
+
 /**
- * Many assignments at once (a rollout's wave): every record in ONE transaction, each item in its own savepoint
- * so an item whose `withinTransaction` throws is left out alone; then, after the commit, every release is sent.
- * Results come in the order of the inputs.
+ * The recording half of a batch: every record in ONE transaction, each item in its own savepoint so an item
+ * whose `withinTransaction` throws is left out alone. Nothing is sent. Results come in the order of the inputs;
+ * recorded items of one release share one parsed signed release object (`parsed`, which the caller may keep).
  */
-export async function assignReleases(store: Store, publisher: ReleasePublisher | undefined, inputs: readonly AssignInput[]): Promise<Array<AssignResult | NotRecorded>> {
-  const parsed = new Map<string, { record: ReleaseRecord; signed: SignedRelease }>();
+export function recordAssignments(store: Store, inputs: readonly AssignInput[], parsed: ParsedReleases = new Map()): RecordedAssignment[] {
   const prepared = inputs.map((input) => prepare(store, input, parsed));
-  const recorded = store.transaction(() =>
-    prepared.map((p): { p: Prepared; assignment?: AssignmentRecord; failed?: NotRecorded } => {
-      if (!p.ok) return { p };
+  return store.transaction(() =>
+    prepared.map((p): RecordedAssignment => {
+      if (!p.ok) return p;
       try {
-        return { p, assignment: store.transaction(() => record(store, p)) };
+        return { ok: true, assignment: store.transaction(() => record(store, p)), release: p.signed, deviceId: p.device.id };
       } catch (error) {
-        return { p, failed: { ok: false, code: 'not-recorded', message: error instanceof Error ? error.message : String(error), error } };
+        return { ok: false, code: 'not-recorded', message: error instanceof Error ? error.message : String(error), error };
       }
     }),
   );
+}
+
+/** The sending half: every recorded item's release is sent at once (not one after another); outcomes in input order. */
+export function sendAssignments(publisher: ReleasePublisher | undefined, recorded: readonly RecordedAssignment[]): Promise<Array<AssignResult | NotRecorded>> {
   return Promise.all(
     recorded.map(async (r): Promise<AssignResult | NotRecorded> => {
-      if (!r.p.ok) return r.p;
-      if (r.failed) return r.failed;
-      return { ok: true, assignment: r.assignment!, release: r.p.signed, publish: await send(publisher, r.p.device.id, r.p.signed) };
+      if (!r.ok) return r;
+      return { ok: true, assignment: r.assignment, release: r.release, publish: await send(publisher, r.deviceId, r.release) };
     }),
   );
+}
+
+/**
+ * Many assignments at once (a rollout's wave): every record in ONE transaction (recordAssignments), then,
+ * after the commit, every release is sent (sendAssignments). Results come in the order of the inputs.
+ */
+export async function assignReleases(store: Store, publisher: ReleasePublisher | undefined, inputs: readonly AssignInput[]): Promise<Array<AssignResult | NotRecorded>> {
+  return sendAssignments(publisher, recordAssignments(store, inputs));
 }

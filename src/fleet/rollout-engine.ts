@@ -1,12 +1,14 @@
 import { releaseSchema, type Release } from '../protocol/release.js';
 import { createRolloutRepository, type RolloutDeviceRecord, type RolloutRecord } from '../store/rollouts.js';
 import type { Store } from '../store/store.js';
-import { assignReleases, type AssignInput, type ReleasePublisher } from './assign.js';
+import type { ReleasePublisher } from './assign.js';
 import { createCalibrator } from './calibration.js';
 import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from './drift.js';
 import { createEventRangeReader } from './event-range.js';
+import { createAssignmentDispatcher } from './rollout-dispatch.js';
 import { createFactsReader } from './rollout-facts.js';
-import { judgeDevice, waveOutcome } from './rollout-gate.js';
+import { judgeDevice, waveOutcome, type DeviceFacts, type DeviceVerdict, type GateContext } from './rollout-gate.js';
+import { createPassPacer } from './rollout-pacing.js';
 import type { RolloutSpec } from './rollout-spec.js';
 
 /** The actor of changes the engine makes on its own (wave starts, gate pauses, completion). */
@@ -18,8 +20,10 @@ export interface RolloutEngineOptions {
   /** How often drift is checked and the gate's class calibration refreshed, in ms (10,000 by default). */
   calibrationEveryMs?: number;
   driftTolerance?: number;
-  /** How many assignments one transaction records (100 by default); all are sent without waiting between batches. */
+  /** How many assignments one transaction records (100 by default); each batch is sent as soon as it is recorded. */
   assignConcurrency?: number;
+  /** Sends the broker has not acknowledged yet above which the engine waits before recording more (2,000 by default). */
+  maxSendsInFlight?: number;
   log?: (line: string) => void;
 }
 
@@ -28,43 +32,53 @@ export interface RolloutEngineDeps extends RolloutEngineOptions {
   /** Sends releases over the bus; without it assignments are recorded only (devices get them on the bus's next start). */
   publisher: ReleasePublisher | undefined;
   clock: { now(): Date };
+  /**
+   * Subscribes to the bus's "devices stored" notices (the bridge's `onStored`); returns the unsubscribe. With it,
+   * a device's report is judged as soon as it is stored instead of on the next tick, and passes over every open
+   * device are needed only for the clock's verdicts (src/fleet/rollout-pacing.ts).
+   */
+  onDevicesStored?: (listener: (deviceIds: string[]) => void) => () => void;
 }
 
 export interface RolloutEngine {
-  /** Starts the timer. Rollouts left running or rolling back by an earlier process carry on from their stored state. */
+  /** Starts the timer (and listens for reports). Rollouts left running or rolling back by an earlier process carry on from their stored state. */
   start(): void;
-  /** Stops the timer and waits for a pass in progress. */
+  /** Stops the timer and waits for a pass in progress and the sends it started. */
   stop(): Promise<void>;
-  /** Runs one pass now (after the one in progress, if any). */
+  /** Runs one pass over every open device now (after the one in progress, if any); resolves once its sends have their outcome. */
   tick(): Promise<void>;
 }
 
-class AlreadyDone extends Error {}
-
 /**
  * Advances rollouts from the database alone, so a restarted server continues where the last one stopped.
- * Each pass judges the devices of the current wave (src/fleet/rollout-gate.ts), assigns the ones that may
- * go, pauses on a failed gate, and opens the next wave when the current one passed. An assignment and
- * the rollout's mark that the device was assigned land in one transaction, and the mark only moves a
- * device out of 'waiting': a device is never assigned twice by one rollout, whatever crashed when.
+ * Each pass judges the devices of the current wave (src/fleet/rollout-gate.ts) from their stored state and
+ * events, assigns the ones that may go (src/fleet/rollout-dispatch.ts: one transaction per batch, each
+ * assignment with the rollout's mark), pauses on a failed gate, and opens the next wave when the current
+ * one passed. Passes run on a timer and, given `onDevicesStored`, as soon as devices report
+ * (src/fleet/rollout-pacing.ts).
  */
 export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const { store, publisher, clock } = deps;
   const log = deps.log ?? (() => {});
   const tickMs = deps.tickMs ?? 200;
   const calibrationEveryMs = deps.calibrationEveryMs ?? 10_000;
-  const concurrency = deps.assignConcurrency ?? 100;
   const repo = createRolloutRepository(store.db);
   const facts = createFactsReader(store.db);
   const ranges = createEventRangeReader(store.db);
   const drift = createDriftMonitor({ store, clock, tolerance: deps.driftTolerance ?? DEFAULT_DRIFT_TOLERANCE });
+  const dispatcher = createAssignmentDispatcher({
+    store,
+    publisher,
+    repo,
+    ranges,
+    batchSize: deps.assignConcurrency ?? 100,
+    maxSendsInFlight: deps.maxSendsInFlight ?? 2000,
+    log,
+  });
   const releases = new Map<string, Release>();
   let factors = new Map<string, number>();
   let lastCalibrationMs = Number.NEGATIVE_INFINITY;
-  let timer: NodeJS.Timeout | null = null;
-  let inFlight: Promise<void> = Promise.resolve();
-  let busy = false;
-  let restUntil = 0;
+  let unsubscribe: (() => void) | null = null;
 
   function releaseOf(id: string): Release {
     let r = releases.get(id);
@@ -85,44 +99,20 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   }
 
   /**
-   * Assigns devices in batches: each batch's records in one transaction (the rollout's mark with each), then
-   * its sends. A device whose mark finds it already moved is left out: it is never assigned twice.
+   * A device's verdict, followed one step further when it just applied: with no telemetry to wait for, the
+   * gate's applied → passed step needs no new fact, so it is taken in the same pass.
    */
-  async function assignAll(r: RolloutRecord, list: RolloutDeviceRecord[], rollback: boolean, at: string): Promise<void> {
-    const batches: Array<Promise<void>> = [];
-    for (let i = 0; i < list.length; i += concurrency) {
-      const batch = list.slice(i, i + concurrency);
-      const inputs: AssignInput[] = batch.map((d) => {
-        const previous = store.devices.get(d.deviceId)?.assignedReleaseId ?? null;
-        const eventsAfterSeq = ranges.maxSeq(d.deviceId);
-        return {
-          deviceId: d.deviceId,
-          releaseId: rollback ? d.previousReleaseId! : r.releaseId,
-          actor: rollback ? (r.rollbackBy ?? r.createdBy) : r.createdBy,
-          cause: `${rollback ? 'rollback' : 'rollout'}:${r.id}`,
-          at,
-          withinTransaction: (a) => {
-            const marked = rollback
-              ? repo.markRollback(r.id, d.deviceId, 'assigned', a.id)
-              : repo.markAssigned(r.id, d.deviceId, { assignmentId: a.id, previousReleaseId: previous, at, eventsAfterSeq });
-            if (!marked) throw new AlreadyDone(`${d.deviceId} was already moved by rollout ${r.id}`);
-          },
-        };
-      });
-      // Records are written when assignReleases is called; its sends are awaited after every batch is recorded.
-      batches.push(assignReleases(store, publisher, inputs).then((results) => results.forEach((result, k) => {
-        const d = batch[k]!;
-        if (!result.ok && result.code === 'not-recorded') {
-          if (!(result.error instanceof AlreadyDone)) log(`rollout ${r.id}: ${d.deviceId} not assigned: ${result.message}`);
-        } else if (!result.ok && !rollback) repo.setDeviceStatus(r.id, d.deviceId, 'failed', result.message, at);
-        else if (!result.ok) log(`rollout ${r.id}: cannot restore ${d.deviceId}: ${result.message}`);
-        else if (result.publish.status === 'not-sent') log(`rollout ${r.id}: ${d.deviceId} assigned but not sent (${result.publish.reason})`);
-      })));
-    }
-    await Promise.all(batches);
+  function judged(f: DeviceFacts, ctx: GateContext): Array<Extract<DeviceVerdict, { action: 'set' }>> | 'assign' | null {
+    const verdict = judgeDevice(f, ctx);
+    if (verdict.action === 'assign') return 'assign';
+    if (verdict.action !== 'set') return null;
+    if (verdict.status !== 'applied') return [verdict];
+    const next = judgeDevice({ ...f, status: 'applied', sinceAppliedMs: 0 }, ctx);
+    return next.action === 'set' ? [verdict, next] : [verdict];
   }
 
-  async function advance(r: RolloutRecord, nowMs: number): Promise<void> {
+  /** One pass over a running rollout's current wave (`only`: just these devices). Returns the ms it waited on the bus. */
+  async function advance(r: RolloutRecord, nowMs: number, only: ReadonlySet<string> | null): Promise<number> {
     const at = new Date(nowMs).toISOString();
     if (r.waveStartedAt === null) {
       repo.startWave(r.id, r.currentWave, at);
@@ -134,17 +124,24 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const ctx = { gate: spec.gate, offline: spec.offline, latencyFactor: latencyFactor(r.deviceClassId) };
     const waveStartMs = Date.parse(r.waveStartedAt!);
     const toAssign: RolloutDeviceRecord[] = [];
+    let settled = 0;
     store.transaction(() => {
-      const open = facts.openWave({ rolloutId: r.id, wave: r.currentWave, release, nowMs, waveStartMs, needTelemetry: spec.gate.telemetryFrames > 0 });
-      for (const { device: d, facts: f } of open) {
-        const verdict = judgeDevice(f, ctx);
-        if (verdict.action === 'assign') toAssign.push(d);
-        else if (verdict.action === 'set') repo.setDeviceStatus(r.id, d.deviceId, verdict.status, verdict.reason, at);
+      const w = { rolloutId: r.id, wave: r.currentWave, release, nowMs, waveStartMs, needTelemetry: spec.gate.telemetryFrames > 0 };
+      for (const { device: d, facts: f } of only ? facts.openDevices(w, only) : facts.openWave(w)) {
+        const steps = judged(f, ctx);
+        if (steps === 'assign') toAssign.push(d);
+        else if (steps) {
+          for (const step of steps) repo.setDeviceStatus(r.id, d.deviceId, step.status, step.reason, at);
+          const last = steps[steps.length - 1]!.status;
+          if (last === 'passed' || last === 'failed' || last === 'skipped') settled += 1;
+        }
       }
     });
-    await assignAll(r, toAssign, false, at);
+    const { waitedMs } = await dispatcher.dispatch(r, toAssign, false, at);
+    // A short pass that settled no device cannot have closed the wave.
+    if (only && settled === 0) return waitedMs;
     const outcome = waveOutcome(repo.waveCounts(r.id, r.currentWave));
-    if (outcome === 'open') return;
+    if (outcome === 'open') return waitedMs;
     store.transaction(() => {
       const current = repo.get(r.id);
       // An operator may have paused or aborted it while this pass awaited the bus.
@@ -163,9 +160,11 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         audit(r, 'rollout.complete', at, { waves: r.waveCount });
       }
     });
+    return waitedMs;
   }
 
-  async function rollBack(r: RolloutRecord, nowMs: number): Promise<void> {
+  /** One pass over a rollout rolling back. Returns the ms it waited on the bus. */
+  async function rollBack(r: RolloutRecord, nowMs: number): Promise<number> {
     const at = new Date(nowMs).toISOString();
     const moved = repo.devices(r.id).filter((d) => d.assignmentId !== null);
     const toRestore: RolloutDeviceRecord[] = [];
@@ -178,7 +177,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         }
       }
     });
-    await assignAll(r, toRestore, true, at);
+    const { waitedMs } = await dispatcher.dispatch(r, toRestore, true, at);
     const after = repo.devices(r.id).filter((d) => d.assignmentId !== null);
     if (after.every((d) => d.rollbackStatus === 'restored' || d.rollbackStatus === 'nothing-to-restore')) {
       store.transaction(() => {
@@ -190,57 +189,54 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         });
       });
     }
+    return waitedMs;
   }
 
-  async function pass(): Promise<void> {
+  /** A full pass (`only` null) or a short one over devices that reported; short passes leave rollbacks to full ones. */
+  async function pass(only: ReadonlySet<string> | null): Promise<{ busyMs: number; moving: boolean }> {
+    const begun = performance.now();
+    let waitedMs = 0;
     const nowMs = clock.now().getTime();
-    if (nowMs - lastCalibrationMs >= calibrationEveryMs) {
+    if (only === null && nowMs - lastCalibrationMs >= calibrationEveryMs) {
       lastCalibrationMs = nowMs;
       factors = new Map();
       for (const change of drift.check()) {
         log(`drift ${change.kind}: ${change.record.deviceId} ${change.record.quantity} ${(change.record.deviation * 100).toFixed(1)}% from its class`);
       }
     }
-    for (const r of repo.moving()) {
+    const moving = repo.moving();
+    for (const r of moving) {
       try {
-        if (r.status === 'running') await advance(r, nowMs);
-        else await rollBack(r, nowMs);
+        if (r.status === 'running') waitedMs += await advance(r, nowMs, only);
+        else if (only === null) waitedMs += await rollBack(r, nowMs);
       } catch (e) {
         log(`rollout ${r.id}: pass failed: ${e instanceof Error ? e.message : String(e)}`);
       }
     }
+    return { busyMs: Math.max(0, performance.now() - begun - waitedMs), moving: moving.length > 0 };
   }
 
-  function tick(): Promise<void> {
-    const run = async () => {
-      busy = true;
-      const started = performance.now();
-      try {
-        await pass();
-      } finally {
-        busy = false;
-        restUntil = performance.now() + (performance.now() - started);
-      }
-    };
-    inFlight = inFlight.then(run, run);
-    return inFlight;
-  }
+  const pacer = createPassPacer({
+    tickMs,
+    runPass: pass,
+    reportsWake: deps.onDevicesStored !== undefined,
+    onError: (e) => log(`rollout engine: pass failed: ${e instanceof Error ? e.message : String(e)}`),
+  });
 
   return {
     start: function start() {
-      if (timer) return;
-      // A slow pass (thousands of devices) is not queued behind, and the next one waits at least as long as the
-      // last one took: the engine keeps to about half of the event loop, leaving the rest to the bus bridge.
-      timer = setInterval(() => {
-        if (!busy && performance.now() >= restUntil) void tick();
-      }, tickMs);
-      timer.unref?.();
+      if (deps.onDevicesStored && !unsubscribe) unsubscribe = deps.onDevicesStored((ids) => pacer.reported(ids));
+      pacer.start();
     },
     stop: async function stop() {
-      if (timer) clearInterval(timer);
-      timer = null;
-      await inFlight.catch(() => undefined);
+      unsubscribe?.();
+      unsubscribe = null;
+      await pacer.stop();
+      await dispatcher.settled();
     },
-    tick,
+    tick: async function tick() {
+      await pacer.runFull();
+      await dispatcher.settled();
+    },
   };
 }

@@ -40,6 +40,8 @@ export interface WaveInput {
 export interface FactsReader {
   /** Facts about every device of a wave still on its way through the gate, from one query plus event reads where needed. */
   openWave(input: WaveInput): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
+  /** The same for only the given devices (those of them in the wave and still open): one indexed read each. */
+  openDevices(input: WaveInput, deviceIds: Iterable<string>): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
   /** The release a device reports running, and whether it is online (null: never heard from). */
   reported(deviceId: string): { online: boolean; releaseId: string | null } | null;
 }
@@ -55,10 +57,12 @@ export function createFactsReader(db: Database.Database): FactsReader {
   const stateRow = db.prepare('SELECT online, release_id, updated_at FROM device_state WHERE device_id = ?');
   const stateOf = db.prepare('SELECT state FROM device_state WHERE device_id = ?').pluck();
   // One query for the whole wave: each open device with its retained state and its highest stored event seq.
-  const openRows = db.prepare(`SELECT rd.*, ds.online AS ds_online, ds.release_id AS ds_release, ds.updated_at AS ds_updated,
+  const joined = `SELECT rd.*, ds.online AS ds_online, ds.release_id AS ds_release, ds.updated_at AS ds_updated,
       (SELECT e.seq FROM device_events e WHERE e.device_id = rd.device_id ORDER BY e.seq DESC LIMIT 1) AS last_seq
-    FROM rollout_devices rd LEFT JOIN device_state ds ON ds.device_id = rd.device_id
-    WHERE rd.rollout_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied') ORDER BY rd.position`);
+    FROM rollout_devices rd LEFT JOIN device_state ds ON ds.device_id = rd.device_id`;
+  const openRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied') ORDER BY rd.position`);
+  // One device by the primary key (rollout_id, device_id).
+  const openRow = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied')`);
   const eventsAfter = db.prepare(`SELECT type, event FROM device_events WHERE device_id = ? AND seq > ?
       AND type IN ('release-applied', 'release-refused', 'telemetry') ORDER BY seq`);
 
@@ -110,13 +114,23 @@ export function createFactsReader(db: Database.Database): FactsReader {
     };
   }
 
+  function fromRow(r: DeviceRow & JoinedRow, w: WaveInput) {
+    const device = toDevice(r);
+    const row: StateRow | undefined = r.ds_updated === null ? undefined : { online: r.ds_online!, release_id: r.ds_release, updated_at: r.ds_updated };
+    return { device, facts: factsOf(device, row, r.last_seq, w.release, w.nowMs, w.waveStartMs, w.needTelemetry) };
+  }
+
   return {
     openWave: function openWave(w) {
-      return (openRows.all(w.rolloutId, w.wave) as Array<DeviceRow & JoinedRow>).map((r) => {
-        const device = toDevice(r);
-        const row: StateRow | undefined = r.ds_updated === null ? undefined : { online: r.ds_online!, release_id: r.ds_release, updated_at: r.ds_updated };
-        return { device, facts: factsOf(device, row, r.last_seq, w.release, w.nowMs, w.waveStartMs, w.needTelemetry) };
-      });
+      return (openRows.all(w.rolloutId, w.wave) as Array<DeviceRow & JoinedRow>).map((r) => fromRow(r, w));
+    },
+    openDevices: function openDevices(w, deviceIds) {
+      const out: Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }> = [];
+      for (const id of deviceIds) {
+        const r = openRow.get(w.rolloutId, id, w.wave) as (DeviceRow & JoinedRow) | undefined;
+        if (r) out.push(fromRow(r, w));
+      }
+      return out;
     },
     reported: function reported(deviceId) {
       const row = stateRow.get(deviceId) as StateRow | undefined;

@@ -106,12 +106,15 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       ...(bus ? { publisher: bus.publisher } : {}),
       ...(options.maxWeightsBytes !== undefined ? { limits: { maxWeightsBytes: options.maxWeightsBytes } } : {}),
     });
-    // Rollouts carry on from the database: one left running by an earlier process continues here.
+    // Rollouts carry on from the database: one left running by an earlier process continues here. Devices'
+    // reports wake the engine, so a gate is judged as soon as its facts are stored.
+    const reports = bus?.onDevicesStored?.bind(bus);
     const engine = createRolloutEngine({
       store,
       publisher: bus?.publisher,
       clock: options.clock ?? { now: () => new Date() },
       log,
+      ...(reports ? { onDevicesStored: reports } : {}),
       ...options.fleet,
     });
     engine.start();

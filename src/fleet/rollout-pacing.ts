@@ -1,0 +1,114 @@
+/**
+ * When the rollout engine runs its passes. A full pass looks at every open device of every moving rollout;
+ * a short pass looks only at devices that just reported (their state or events were stored). Passes never
+ * overlap, and each one rests afterwards as long as it worked, so the engine keeps to about half of the event
+ * loop and leaves the rest to the broker and the bus bridge.
+ *
+ * Without reports a full pass runs on every tick. With reports, most verdicts (applied, refused, online) come
+ * from short passes as soon as the facts are stored; full passes are then needed only for the verdicts the
+ * clock makes (apply timeouts, offline waits, telemetry timeouts, all counted in seconds), so a full pass
+ * rests FULL_PASS_REST times as long as it took: over a 5,000-device wave it does not compete with the bus.
+ */
+export const FULL_PASS_REST = 10;
+
+/** One pass: `only` null for a full pass, else the devices that reported. Returns the ms it worked (not waited). */
+export type PassRunner = (only: ReadonlySet<string> | null) => Promise<{ busyMs: number; moving: boolean }>;
+
+export interface PassPacer {
+  /** Starts the timer, with a full pass right away. */
+  start(): void;
+  /** Stops the timer and waits for the pass in progress. */
+  stop(): Promise<void>;
+  /** Devices whose state or events were just stored: a short pass over them runs soon. */
+  reported(deviceIds: readonly string[]): void;
+  /** Runs a full pass now (after the one in progress). */
+  runFull(): Promise<void>;
+}
+
+export function createPassPacer(options: { tickMs: number; runPass: PassRunner; reportsWake: boolean; onError: (e: unknown) => void }): PassPacer {
+  const { tickMs, runPass } = options;
+  let timer: NodeJS.Timeout | null = null;
+  let scheduled: NodeJS.Timeout | null = null;
+  let chain: Promise<void> = Promise.resolve();
+  let busy = false;
+  let started = false;
+  let restUntil = 0;
+  let nextFullAt = 0;
+  let fullDue = false;
+  let dirty = new Set<string>();
+  // Until a pass says otherwise, reports may matter (a rollout may be moving).
+  let moving = true;
+
+  function kick() {
+    if (!started || scheduled || busy) return;
+    if (!fullDue && dirty.size === 0) return;
+    scheduled = setTimeout(runNext, Math.max(0, restUntil - performance.now()));
+    scheduled.unref?.();
+  }
+
+  function runNext() {
+    scheduled = null;
+    if (busy) return;
+    const only = fullDue ? null : dirty;
+    fullDue = false;
+    dirty = new Set();
+    void enqueue(only);
+  }
+
+  function enqueue(only: ReadonlySet<string> | null): Promise<void> {
+    const run = async () => {
+      busy = true;
+      // A full pass may find a rollout that just started: collect the reports that arrive meanwhile.
+      if (only === null) moving = true;
+      const begun = performance.now();
+      let busyMs = 0;
+      try {
+        const result = await runPass(only);
+        busyMs = result.busyMs;
+        moving = result.moving;
+      } catch (e) {
+        busyMs = performance.now() - begun;
+        options.onError(e);
+      } finally {
+        busy = false;
+        const end = performance.now();
+        restUntil = end + busyMs;
+        if (only === null) nextFullAt = end + (options.reportsWake ? FULL_PASS_REST : 1) * busyMs;
+        kick();
+      }
+    };
+    chain = chain.then(run, run);
+    return chain;
+  }
+
+  return {
+    start: function start() {
+      if (started) return;
+      started = true;
+      fullDue = true;
+      kick();
+      timer = setInterval(() => {
+        if (performance.now() < nextFullAt) return;
+        fullDue = true;
+        kick();
+      }, tickMs);
+      timer.unref?.();
+    },
+    stop: async function stop() {
+      started = false;
+      if (timer) clearInterval(timer);
+      if (scheduled) clearTimeout(scheduled);
+      timer = null;
+      scheduled = null;
+      await chain.catch(() => undefined);
+    },
+    reported: function reported(deviceIds) {
+      if (!moving) return;
+      for (const id of deviceIds) dirty.add(id);
+      kick();
+    },
+    runFull: function runFull() {
+      return enqueue(null);
+    },
+  };
+}
