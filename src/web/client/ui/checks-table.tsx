@@ -10,6 +10,12 @@ function focusField(path: string) {
   el?.focus();
 }
 
+/** A field path that may wrap after each dot (camera.<wbr>focusDistanceM) in a narrow column. */
+function breakAtDots(path: string) {
+  const parts = path.split('.');
+  return parts.flatMap((part, i) => (i < parts.length - 1 ? [`${part}.`, <wbr />] : [part]));
+}
+
 /** The validator's checks as a table: failures first, each with its figure, its limit and the field to change. */
 export function ChecksTable({ checks }: { checks: Check[] }) {
   const sorted = [...checks].sort((a, b) => ORDER[a.status] - ORDER[b.status]);
@@ -20,7 +26,7 @@ export function ChecksTable({ checks }: { checks: Check[] }) {
       <p class="muted" aria-live="polite">
         {counts.fail} failing, {counts.warn} warning, {counts.pass} passing
       </p>
-      <div class="table-wrap">
+      <div class="table-wrap checks-wrap">
         <table class="grid checks" aria-label="Validation checks">
           <thead>
             <tr>
@@ -41,22 +47,24 @@ export function ChecksTable({ checks }: { checks: Check[] }) {
                 <th scope="row">
                   <code>{c.code}</code>
                 </th>
-                <td class="numeric">
+                <td class="numeric" data-label="Figure">
                   {num(c.actual)} {c.actual !== null ? unitText(c.unit) : ''}
                 </td>
-                <td class="numeric">
+                <td class="numeric" data-label="Limit">
                   {num(c.limit)} {c.limit !== null ? unitText(c.unit) : ''}
                 </td>
-                <td>
+                <td class="check-field" data-label="Field">
                   {c.path ? (
                     <button type="button" class="link" onClick={() => focusField(c.path)} title="Go to this field">
-                      {c.path}
+                      {breakAtDots(c.path)}
                     </button>
                   ) : (
                     '—'
                   )}
                 </td>
-                <td class="message">{c.message}</td>
+                <td class="message" data-label="What it found">
+                  {c.message}
+                </td>
               </tr>
             ))}
           </tbody>
