@@ -4,9 +4,18 @@
  * page go to test-artifacts/console/.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createDriftRepository } from '../src/store/drift.js';
 import { CHROMIUM_PATH, hasChromium, startConsoleRig, until, type ConsoleRig } from './web-rig.js';
 
 if (!hasChromium) console.warn(`web console tests skipped: no Chromium at ${CHROMIUM_PATH} (apt-get install -y chromium)`);
+
+/** How far the validation table reaches past the right edge of its panel, in CSS pixels (≤ 0: it fits). */
+async function tableOverflowPx(page: import('playwright-core').Page): Promise<number> {
+  return page.locator('table.checks').evaluate((t) => {
+    const wrap = t.closest('.table-wrap')!;
+    return Math.max(wrap.scrollWidth - wrap.clientWidth, t.getBoundingClientRect().right - wrap.getBoundingClientRect().right);
+  });
+}
 
 describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMIUM_PATH})`, () => {
   let rig: ConsoleRig;
@@ -68,6 +77,8 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     expect(row).toContain(`${Math.round(check.limit)} ms`);
     expect(row).toContain(`${Math.round(check.actual)} ms`);
     await rig.screenshot(page, 'profile-editor-failing');
+    // The checks table fits its panel at 1280 px: no column cut off at the right edge.
+    expect(await tableOverflowPx(page)).toBeLessThanOrEqual(0);
 
     await page.getByRole('button', { name: 'Save as revision 2' }).click();
     await page.getByText('Saved as revision 2 (fail).').waitFor();
@@ -97,6 +108,46 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     const made = releases.find((r) => r.overridden);
     expect(made?.tasks['fruit-counting']?.revision).toBe(2);
     await page.locator(`tr[data-release="${made!.id}"]`).getByText('override').waitFor();
+    await page.context().close();
+  });
+
+  it('the planner lists the front the API finds, and opening a candidate fills the editor, whose checks all pass', async () => {
+    const page = await rig.openPage(rig.tokens.engineer);
+    await page.goto(`${rig.server.url}/#/planner/fruit-counting/gh-scout-a`);
+    await page.getByRole('button', { name: 'Search settings' }).click();
+    const table = page.getByRole('table', { name: 'Candidates on the front' });
+    await table.waitFor();
+    // The same question through the API (demo data): the page lists exactly its front, in its order.
+    const answer = await rig.api.json<{ front: Array<{ modelId: string; camera: { exposureUs: number; fNumber: number }; memory: { weightBufferKib: number } }> }>(
+      'POST',
+      '/api/v1/plan',
+      { taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', options: { granuleKib: 64 } },
+    );
+    expect(answer.front.length).toBeGreaterThan(0);
+    const rows = await table.locator('tbody tr').evaluateAll((trs) => trs.map((tr) => tr.querySelector('th')!.textContent!.trim()));
+    expect(rows).toEqual(answer.front.map((c) => c.modelId));
+    expect(await page.locator('.front-point').count()).toBe(answer.front.length);
+    await page.getByText('Settings change what the robot sees.').first().waitFor();
+    await rig.screenshot(page, 'planner');
+
+    await page.getByRole('button', { name: 'Open candidate 1 in the editor' }).click();
+    await page.getByText('Settings of candidate 1 from the planner').waitFor();
+    const first = answer.front[0]!;
+    expect(await page.getByRole('spinbutton', { name: 'Exposure (µs)' }).inputValue()).toBe(String(first.camera.exposureUs));
+    expect(await page.locator('#field-modelId').inputValue()).toBe(first.modelId);
+    expect(await page.getByRole('spinbutton', { name: 'Weight buffer (KiB)' }).inputValue()).toBe(String(first.memory.weightBufferKib));
+    // The editor shows a report only once the validator has answered for these settings.
+    await page.locator('tr[data-check]').first().waitFor();
+    await page.getByText(/^0 failing, \d+ warning, \d+ passing$/).waitFor();
+    expect(await page.locator('tr[data-check][data-status="fail"]').count()).toBe(0);
+    expect(await page.locator('tr[data-check]').count()).toBeGreaterThan(10);
+    await page.getByRole('button', { name: /Save as revision/ }).waitFor();
+    expect(await tableOverflowPx(page)).toBeLessThanOrEqual(0);
+    await rig.screenshot(page, 'planner-editor');
+    // A tablet held upright: the editor stacks and the checks table still fits.
+    await page.setViewportSize({ width: 820, height: 1180 });
+    await rig.screenshot(page, 'profile-editor-tablet');
+    expect(await tableOverflowPx(page)).toBeLessThanOrEqual(0);
     await page.context().close();
   });
 
@@ -131,8 +182,20 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
   it("the device page's timeline shows exactly the intervals the history API returns, with details on hover", async () => {
     const robot = rig.robots.find((r) => r.demoClass.deviceClassId === 'gh-scout-a')!;
     await robot.agent.setTask('leaf-inspection');
+    // One cleared and one open drift episode, as the drift monitor would store them (demo data; with one robot
+    // per class in this rig the monitor itself never compares, so it leaves them as they are).
+    const drift = createDriftRepository(rig.server.store.db);
+    const episode = { deviceId: robot.deviceId, deviceClassId: robot.demoClass.deviceClassId, tolerance: 0.15 };
+    const cleared = drift.onset({ ...episode, quantity: 'energy', onsetAt: '2026-03-01T08:00:00.000Z', deviceFactor: 0.8, classFactor: 1, deviation: -0.2 });
+    drift.clear(cleared.id, '2026-03-01T08:40:00.000Z');
+    drift.onset({ ...episode, quantity: 'latency', onsetAt: '2026-03-01T09:00:00.000Z', deviceFactor: 1.3, classFactor: 1, deviation: 0.3 });
     const page = await rig.openPage();
     await page.goto(`${rig.server.url}/#/devices/${robot.deviceId}`);
+    const open = page.locator('[data-drift="latency"][data-open="true"]');
+    await open.waitFor();
+    expect(await open.textContent()).toContain('drifting');
+    expect(await open.textContent()).toContain('×1.3 of its class');
+    expect(await page.locator('[data-drift="energy"][data-open="false"]').textContent()).toContain('cleared');
     await page.getByRole('heading', { name: 'Profiles over time' }).waitFor();
     const history = await until(async () => {
       const h = await rig.api.json<{ intervals: Array<{ seq: number; task: string; profileId: string; profileRevision: number; releaseId: string }> }>('GET', `/api/v1/devices/${robot.deviceId}/history`);
@@ -188,6 +251,9 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     for (const name of ['Create release', 'Start rollout', 'Pause', 'Resume', 'Roll back…', 'Stop for good']) {
       expect(await page.getByRole('button', { name, exact: true }).count(), name).toBe(0);
     }
+    await page.goto(`${rig.server.url}/#/planner`);
+    await page.getByText('Searching takes the engineer role or above').waitFor();
+    expect(await page.getByRole('button', { name: 'Search settings' }).count()).toBe(0);
     await page.goto(`${rig.server.url}/#/profiles/fruit-counting-a`);
     await page.getByText('Your role can try settings here but not save them.').waitFor();
     expect(await page.getByRole('button', { name: /Save as revision/ }).count()).toBe(0);

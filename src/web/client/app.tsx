@@ -6,6 +6,7 @@ import { AuditPage } from './pages/audit.js';
 import { DevicePage } from './pages/device.js';
 import { FleetPage } from './pages/fleet.js';
 import { LoginPage } from './pages/login.js';
+import { PlannerPage } from './pages/planner.js';
 import { ProfileEditorPage } from './pages/profile-editor.js';
 import { ProfilesPage } from './pages/profiles.js';
 import { ReleasesPage } from './pages/releases.js';
@@ -15,6 +16,7 @@ import { clearToken, loadToken, saveToken } from './session.js';
 const NAV: Array<{ label: string; place: Place; pages: Place['page'][] }> = [
   { label: 'Fleet', place: { page: 'fleet' }, pages: ['fleet', 'device'] },
   { label: 'Profiles', place: { page: 'profiles' }, pages: ['profiles', 'profile'] },
+  { label: 'Planner', place: { page: 'planner' }, pages: ['planner'] },
   { label: 'Releases & rollouts', place: { page: 'releases' }, pages: ['releases'] },
   { label: 'Audit', place: { page: 'audit' }, pages: ['audit'] },
 ];
@@ -38,6 +40,8 @@ function Page({ place }: { place: Place }) {
       return <ProfilesPage />;
     case 'profile':
       return <ProfileEditorPage profileId={place.profileId} />;
+    case 'planner':
+      return <PlannerPage taskId={place.taskId} deviceClassId={place.deviceClassId} />;
     case 'releases':
       return <ReleasesPage />;
     case 'audit':

@@ -6,6 +6,7 @@ export type Place =
   | { page: 'device'; deviceId: string }
   | { page: 'profiles' }
   | { page: 'profile'; profileId: string }
+  | { page: 'planner'; taskId?: string; deviceClassId?: string }
   | { page: 'releases' }
   | { page: 'audit' };
 
@@ -15,6 +16,7 @@ export function parsePlace(hash: string): Place {
   if (first === 'devices' && second) return { page: 'device', deviceId: second };
   if (first === 'profiles' && second) return { page: 'profile', profileId: second };
   if (first === 'profiles') return { page: 'profiles' };
+  if (first === 'planner') return { page: 'planner', ...(second ? { taskId: second } : {}), ...(parts[2] ? { deviceClassId: parts[2] } : {}) };
   if (first === 'releases') return { page: 'releases' };
   if (first === 'audit') return { page: 'audit' };
   return { page: 'fleet' };
@@ -26,6 +28,8 @@ export function href(place: Place): string {
       return `#/devices/${encodeURIComponent(place.deviceId)}`;
     case 'profile':
       return `#/profiles/${encodeURIComponent(place.profileId)}`;
+    case 'planner':
+      return place.taskId && place.deviceClassId ? `#/planner/${encodeURIComponent(place.taskId)}/${encodeURIComponent(place.deviceClassId)}` : '#/planner';
     default:
       return `#/${place.page}`;
   }

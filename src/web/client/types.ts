@@ -5,8 +5,20 @@ import type { Task } from '../../schema/task.js';
 import type { DeviceClass } from '../../schema/device-class.js';
 import type { StateMessage } from '../../protocol/messages.js';
 import type { ValidationFigures } from '../../validate/validate.js';
+import type { Candidate, NearMiss, PlanResult } from '../../plan/types.js';
+import type { DriftRecord } from '../../store/drift.js';
 
-export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures };
+export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures, Candidate, NearMiss, DriftRecord };
+
+/** POST /plan: the planner's result, the calibration it applied and the document versions it read. */
+export interface PlanAnswer extends PlanResult {
+  calibration: { latencyFactor: number; energyFactor: number; samples: number } | null;
+  refs: {
+    task: { id: string; version: number };
+    deviceClass: { id: string; version: number };
+    models: Array<{ model: { id: string; version: number }; network: { id: string; version: number } }>;
+  };
+}
 
 export interface DeviceListItem {
   id: string;
@@ -23,6 +35,8 @@ export interface DeviceDetail extends DeviceListItem {
   assignedRelease: { id: string; version: number; deviceClassId: string } | null;
   reported: { state: StateMessage | null; online: boolean; lastSeenAt: string } | null;
   assignments: Array<{ id: number; releaseId: string; cause: string; actor: string; createdAt: string }>;
+  /** Drift episodes, newest first. */
+  drift: DriftRecord[];
 }
 
 export interface StoredDocument<T> {

@@ -7,6 +7,7 @@ import { href } from '../router.js';
 import type { DeviceDetail } from '../types.js';
 import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
 import { DeviceAssign } from './device-assign.js';
+import { DeviceDrift } from './device-drift.js';
 import { DeviceEvents, DeviceMeasurements, DeviceUsage, marksOf, type DeviceEventsAnswer, type DeviceHistory } from './device-history.js';
 
 const PRESETS: Array<{ label: string; spanMs: number }> = [
@@ -108,6 +109,7 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
           </p>
         )}
       </div>
+      <DeviceDrift episodes={d.drift ?? []} />
       {can('devices.assign') && (
         <>
           <SafetyCaution />

@@ -1,9 +1,10 @@
 import { useEffect, useRef, useState } from 'preact/hooks';
 import { ApiError } from '../api.js';
 import { useLoad, useSession } from '../context.js';
+import { plannedProfile, takePlannedDraft, type PlannedDraft } from '../planned-draft.js';
 import { href } from '../router.js';
 import type { DeviceClass, Profile, Revision, RevisionSummary, StoredDocument, Task, ValidateAnswer } from '../types.js';
-import { ErrorNote, Loading, StatusBadge } from '../ui/status.js';
+import { ErrorNote, Loading, SafetyCaution, StatusBadge } from '../ui/status.js';
 import { ProfileForm, type FieldProblem } from './profile-form.js';
 import { ProfileReport } from './profile-report.js';
 import { ProfileRevisions } from './profile-revisions.js';
@@ -37,12 +38,17 @@ export function ProfileEditorPage({ profileId }: { profileId: string }) {
   const [checking, setChecking] = useState(false);
   const [saved, setSaved] = useState<string | null>(null);
   const [saveError, setSaveError] = useState<Error | null>(null);
+  const [planned, setPlanned] = useState<PlannedDraft | null>(null);
   const request = useRef(0);
 
   useEffect(() => {
     if (latest.data) {
-      setDraft(latest.data.profile);
-      setAnswer(latest.data.report);
+      // A candidate handed over by the planner becomes the unsaved draft; the stored report does not describe it.
+      const offered = takePlannedDraft(profileId);
+      const next = offered ? plannedProfile(latest.data.profile, offered.candidate) : latest.data.profile;
+      setPlanned(offered);
+      setDraft(next);
+      setAnswer(same(next, latest.data.profile) ? latest.data.report : null);
       setProblems(null);
     }
   }, [latest.data]);
@@ -100,6 +106,16 @@ export function ProfileEditorPage({ profileId }: { profileId: string }) {
           {draft.demoData && <span class="tag">demo data</span>}
         </p>
       </div>
+      {planned && changed && (
+        <div class="planned-banner">
+          <p class="note note-info" role="status">
+            Settings of candidate {planned.rank} from the <a href={href({ page: 'planner', taskId: draft.taskId, deviceClassId: draft.deviceClassId })}>planner</a>, not saved
+            yet{planned.calibrated ? ' (it ranked them with the fleet\'s calibrated figures; the checks here use the plain estimates)' : ''}. Check them
+            below, then save them as revision {latest.data.revision + 1}; robots get them only through a release and a staged rollout.
+          </p>
+          <SafetyCaution />
+        </div>
+      )}
       <div class="editor">
         <div class="editor-side">
           <ProfileForm

@@ -5,7 +5,7 @@ import { ErrorNote, Loading, StatusBadge } from '../ui/status.js';
 
 /** Profiles laid out by task (rows) and device class (columns), each with its latest revision's verdict. */
 export function ProfilesPage() {
-  const { api } = useSession();
+  const { api, can } = useSession();
   const data = useLoad(
     () =>
       Promise.all([
@@ -65,6 +65,11 @@ export function ProfilesPage() {
                           </li>
                         ))}
                       </ul>
+                      {can('plan') && (
+                        <a class="small" href={href({ page: 'planner', taskId: t, deviceClassId: c })} aria-label={`Search settings for ${t} on ${c}`}>
+                          search settings
+                        </a>
+                      )}
                     </td>
                   );
                 })}
