@@ -4,6 +4,8 @@
  * finds the stored documents, answers what plan() answers over the same files, every front member passes
  * the validator the API itself runs, and bad requests are refused naming the field.
  */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findDocument, loadCatalog, type Catalog } from '../src/catalog/index.js';
 import { inDependencyOrder } from '../src/client/push-documents.js';
@@ -131,5 +133,52 @@ describe('POST /api/v1/plan', () => {
     expect((await planCall(body, h.tokens.viewer)).status).toBe(403);
     expect((await planCall(body, null)).status).toBe(401);
     expect((await planCall(body, h.tokens.operator)).status).toBe(200);
+  });
+
+  it('with enough telemetry from the class, the search scales inference by its calibration, as plan() does with the same factors', async () => {
+    // A release of fruit-counting-a for gh-scout-a, so telemetry has a prediction to be measured against (demo data).
+    const profile = findDocument(catalog, 'profile', 'fruit-counting-a')!;
+    expect((await h.call('POST', '/api/v1/profiles', { body: profile })).status).toBe(201);
+    const weights = readFileSync(join(DEMO_CATALOG_DIR, 'weights', 'fruit-finder-a.bin'));
+    expect((await h.call('PUT', '/api/v1/models/fruit-finder-a/weights', { body: weights })).status).toBe(201);
+    const made = await h.call('POST', '/api/v1/releases', {
+      body: { deviceClassId: 'gh-scout-a', tasks: { 'fruit-counting': { profileId: 'fruit-counting-a', revision: 1 } }, defaultTask: 'fruit-counting' },
+    });
+    expect(made.status).toBe(201);
+    const release = ((await made.json()) as { release: { id: string; tasks: Record<string, { predicted: { inferenceMs: number; inferenceMj: number } }> } }).release;
+    const predicted = release.tasks['fruit-counting']!.predicted;
+
+    // Three units, eight windows of 50 frames each: 24 windows and 1,200 frames, over the class minimum
+    // (CALIBRATION_MINIMUM: 20 windows, 1,000 frames, 3 devices). Every unit measures 1.25 × the predicted
+    // time and 0.9 × the energy, so the least-squares factors through the origin are exactly those.
+    const insert = h.store.db.prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+    for (const unit of ['gh-a-cal-1', 'gh-a-cal-2', 'gh-a-cal-3']) {
+      expect((await h.call('POST', '/api/v1/devices', { body: { id: unit, deviceClassId: 'gh-scout-a', tags: [] } })).status).toBe(201);
+      for (let seq = 1; seq <= 8; seq++) {
+        const ts = new Date(Date.UTC(2026, 2, 1, 8, seq)).toISOString();
+        const event = {
+          type: 'telemetry', task: 'fruit-counting', profileId: 'fruit-counting-a', profileRevision: 1, releaseId: release.id, frames: 50, windowS: 5,
+          inferenceMsMean: 1.25 * predicted.inferenceMs, inferenceMjMean: 0.9 * predicted.inferenceMj, frameEnergyMjMean: 0.2,
+        };
+        insert.run(unit, seq, ts, 'telemetry', JSON.stringify({ seq, ts, ...event }), ts);
+      }
+    }
+
+    const res = await planCall({ taskId: 'fruit-counting', deviceClassId: 'gh-scout-a', modelIds: ['fruit-finder-a'] });
+    expect(res.status).toBe(200);
+    const answer = (await res.json()) as PlanAnswer & { calibration: { latencyFactor: number; energyFactor: number; samples: number } };
+    expect(answer.calibration.latencyFactor).toBeCloseTo(1.25, 9);
+    expect(answer.calibration.energyFactor).toBeCloseTo(0.9, 9);
+    expect(answer.calibration.samples).toBe(24);
+
+    const task = findDocument(catalog, 'task', 'fruit-counting')!;
+    const deviceClass = findDocument(catalog, 'device-class', 'gh-scout-a')!;
+    const model = findDocument(catalog, 'model', 'fruit-finder-a')!;
+    const candidates = [{ model, network: findDocument(catalog, 'network', model.networkId)! }];
+    const calibrated = JSON.parse(JSON.stringify(plan({ task, deviceClass, candidates, options: { calibration: answer.calibration } }))) as PlanResult;
+    const plain = plan({ task, deviceClass, candidates });
+    expect(answer.front).toEqual(calibrated.front);
+    // Inference is a sliver of this task's 13 ms frame (demo data), but the calibrated figures must still differ.
+    expect(answer.front[0]!.latencyMs).not.toBeCloseTo(plain.front[0]!.latencyMs, 6);
   });
 });
