@@ -135,7 +135,7 @@ export function createAgent(deps: AgentDeps): Agent {
   return {
     start: async function start() {
       mkdirSync(config.dataDir, { recursive: true });
-      events = openEventLog(config.dataDir, clock);
+      events = openEventLog(config.dataDir, clock, { log });
       const username = config.username ?? config.deviceId;
       outbox = createOutbox({ log: events, ackTimeoutMs: config.ackTimeoutMs, send: (payload) => link?.publishEvents(payload) });
       const cache = createWeightsCache({ dir: join(config.dataDir, 'weights'), maxBytes: config.cacheMaxBytes, serverUrl: config.serverUrl, username, password: config.password, log });

@@ -3,6 +3,7 @@ import { join } from 'node:path';
 import type { EventBody } from '../src/protocol/messages.js';
 import { readJsonIfExists, writeFileAtomicSync } from './atomic-file.js';
 import type { AgentClock } from './clock.js';
+import { removeLeftover, replaceSmallFile, rewriteLiveFile, systemDisk, type RewriteDisk } from './log-rewrite.js';
 
 /** An event not yet covered by the server's ack: its number and its JSON text as written to disk. */
 export interface LoggedEvent {
@@ -15,31 +16,52 @@ export interface EventLog {
   append(body: EventBody): number;
   /** Unacknowledged events after `afterSeq`, oldest first, at most `maxCount` of them and about `maxBytes` of JSON. */
   after(afterSeq: number, maxCount: number, maxBytes: number): LoggedEvent[];
-  /** The server stored every event up to `upTo`: forget them, and compact the file now and then. */
+  /** The server stored every event up to `upTo`: forget them, and compact the file when it has grown enough. */
   ack(upTo: number): void;
   lastSeq(): number;
   ackedUpTo(): number;
   unackedCount(): number;
+  /** Resolves when no compaction is running (each one runs in the background, off the event loop's path). */
+  settled(): Promise<void>;
   close(): void;
 }
 
-/** Compact once this many acknowledged lines sit in the file, or this few when everything is acknowledged. */
-const COMPACT_AFTER_LINES = 500;
+export interface EventLogOptions {
+  /** The disk's fsync; a test hands in one it can hold. */
+  disk?: RewriteDisk;
+  log?: (line: string) => void;
+}
+
+/**
+ * Compact once the acknowledged lines in the file are at least as many as the pending ones (and at
+ * least this many): each compaction then rewrites no more lines than were acknowledged since the
+ * last, so rewriting costs O(1) per event however long the backlog (amortised analysis, as for a
+ * doubling array; common practice).
+ */
+const COMPACT_MIN_ACKED_LINES = 500;
+/** When everything is acknowledged, this few acknowledged lines are enough (the rewrite is tiny). */
 const COMPACT_WHEN_DRAINED_LINES = 50;
 
 /**
  * The agent's outbox on disk: `events.log` holds one JSON event per line, appended as they happen;
  * `events-acked.json` holds the highest seq the server acknowledged. Events stay on disk until an
- * ack covers them, so they survive restarts and lost connections. Compaction rewrites the log with
- * only the unacknowledged events (write the ack mark first, then the log, each atomically), so a
- * crash at any point leaves nothing lost and nothing resurrected.
+ * ack covers them, so they survive restarts and lost connections. Compaction writes the ack mark
+ * first, then replaces the log with the unacknowledged events, each atomically and in the
+ * background while appends go on, so a crash at any point leaves nothing lost and nothing
+ * resurrected, and a task switch never waits for the disk.
  */
-export function openEventLog(dir: string, clock: AgentClock): EventLog {
+export function openEventLog(dir: string, clock: AgentClock, options: EventLogOptions = {}): EventLog {
+  const disk = options.disk ?? systemDisk;
+  const say = options.log ?? (() => {});
   const logPath = join(dir, 'events.log');
   const ackPath = join(dir, 'events-acked.json');
+  removeLeftover(logPath);
+  removeLeftover(ackPath);
   const mark = readJsonIfExists(ackPath) as { ackedUpTo?: unknown } | null;
   let acked = typeof mark?.ackedUpTo === 'number' && Number.isInteger(mark.ackedUpTo) ? mark.ackedUpTo : 0;
+  // pending[head..] are the unacknowledged events, oldest first; the acknowledged front is cut off now and then.
   let pending: LoggedEvent[] = [];
+  let head = 0;
   let last = acked;
   let fileLines = 0;
   if (existsSync(logPath)) {
@@ -60,41 +82,120 @@ export function openEventLog(dir: string, clock: AgentClock): EventLog {
       last = seq;
     }
   }
+  const linesOf = (from: number) => pending.slice(from).map((e) => `${e.json}\n`).join('');
   let linesInFile = pending.length;
   // Start from a clean file (no acknowledged lines, no torn tail) before appending more; rewrite only when needed.
-  if (pending.length !== fileLines) writeFileAtomicSync(logPath, pending.map((e) => `${e.json}\n`).join(''));
+  if (pending.length !== fileLines) writeFileAtomicSync(logPath, linesOf(0));
   let fd = openSync(logPath, 'a');
   let syncQueued = false;
+  let compaction: Promise<void> | null = null;
+  /** Lines appended while a background rewrite runs, for it to copy before its rename. */
+  let appendedDuringRewrite: string[] | null = null;
+  let closed = false;
 
-  function compact() {
+  function queueDataSync() {
+    // The write already survives a crash of this process; the data sync (for power loss) runs off the hot path.
+    if (syncQueued) return;
+    syncQueued = true;
+    const syncFd = fd;
+    setImmediate(() => fdatasync(syncFd, () => (syncQueued = false)));
+  }
+
+  function dropAcknowledged() {
+    while (head < pending.length && pending[head]!.seq <= acked) head += 1;
+    // Cut the front off once it is the larger part, so the array stays proportional to what is pending.
+    if (head > 1024 && head * 2 > pending.length) {
+      pending = pending.slice(head);
+      head = 0;
+    }
+  }
+
+  /** First index at or after `head` whose seq is above `seq` (seqs ascend, so a binary search). */
+  function indexAfter(seq: number): number {
+    let lo = head;
+    let hi = pending.length;
+    while (lo < hi) {
+      const mid = (lo + hi) >>> 1;
+      if (pending[mid]!.seq <= seq) lo = mid + 1;
+      else hi = mid;
+    }
+    return lo;
+  }
+
+  function compactSync() {
     writeFileAtomicSync(ackPath, JSON.stringify({ ackedUpTo: acked }));
     closeSync(fd);
-    writeFileAtomicSync(logPath, pending.map((e) => `${e.json}\n`).join(''));
+    writeFileAtomicSync(logPath, linesOf(head));
     fd = openSync(logPath, 'a');
-    linesInFile = pending.length;
+    linesInFile = pending.length - head;
+  }
+
+  async function compactInBackground() {
+    // Snapshot in one tick: the mark, and every line above it (acknowledged or not) for the new file.
+    const markedUpTo = acked;
+    const from = indexAfter(markedUpTo);
+    const headText = linesOf(from);
+    let lines = pending.length - from;
+    appendedDuringRewrite = [];
+    try {
+      // The mark goes first: the log may only lose lines the mark already covers.
+      if (!(await replaceSmallFile(ackPath, JSON.stringify({ ackedUpTo: markedUpTo }), () => closed, disk))) return;
+      await rewriteLiveFile({
+        path: logPath,
+        head: headText,
+        disk,
+        cancelled: () => closed,
+        tail: function appendedMeanwhile() {
+          const more = appendedDuringRewrite!;
+          appendedDuringRewrite = [];
+          lines += more.length;
+          return more.join('');
+        },
+        swapped: function useRewrittenFile() {
+          closeSync(fd);
+          fd = openSync(logPath, 'a');
+          linesInFile = lines;
+          appendedDuringRewrite = null;
+        },
+      });
+    } finally {
+      appendedDuringRewrite = null;
+    }
+  }
+
+  function maybeCompact() {
+    if (compaction || closed) return;
+    const unacked = pending.length - head;
+    const ackedLines = linesInFile - unacked;
+    const due = unacked === 0 ? ackedLines >= COMPACT_WHEN_DRAINED_LINES : ackedLines >= Math.max(unacked, COMPACT_MIN_ACKED_LINES);
+    if (!due) return;
+    compaction = compactInBackground()
+      .catch((e: unknown) => say(`agent: event log compaction failed (${(e as Error).message}); the log keeps its acknowledged lines until the next try`))
+      .finally(() => {
+        compaction = null;
+        // Acks that came in meanwhile may already call for the next one.
+        maybeCompact();
+      });
   }
 
   return {
     append: function append(body) {
       const seq = last + 1;
       const json = JSON.stringify({ seq, ts: new Date(clock.now()).toISOString(), ...body });
-      writeSync(fd, `${json}\n`);
+      const line = `${json}\n`;
+      writeSync(fd, line);
+      appendedDuringRewrite?.push(line);
       last = seq;
       pending.push({ seq, json });
       linesInFile += 1;
-      // The write already survives a crash of this process; the data sync (for power loss) runs off the hot path.
-      if (!syncQueued) {
-        syncQueued = true;
-        const syncFd = fd;
-        setImmediate(() => fdatasync(syncFd, () => (syncQueued = false)));
-      }
+      queueDataSync();
       return seq;
     },
     after: function after(afterSeq, maxCount, maxBytes) {
       const out: LoggedEvent[] = [];
       let bytes = 0;
-      for (const e of pending) {
-        if (e.seq <= afterSeq) continue;
+      for (let i = indexAfter(afterSeq); i < pending.length; i++) {
+        const e = pending[i]!;
         if (out.length >= maxCount || (out.length > 0 && bytes + e.json.length > maxBytes)) break;
         out.push(e);
         bytes += e.json.length + 1;
@@ -104,18 +205,21 @@ export function openEventLog(dir: string, clock: AgentClock): EventLog {
     ack: function ack(upTo) {
       if (upTo <= acked) return;
       acked = Math.min(upTo, last);
-      let drop = 0;
-      while (drop < pending.length && pending[drop]!.seq <= acked) drop += 1;
-      pending = pending.slice(drop);
+      dropAcknowledged();
       // Until compaction, a restart resends some acknowledged events; the server ignores them (same device and seq).
-      const ackedLines = linesInFile - pending.length;
-      if (ackedLines >= COMPACT_AFTER_LINES || (pending.length === 0 && ackedLines >= COMPACT_WHEN_DRAINED_LINES)) compact();
+      maybeCompact();
     },
     lastSeq: () => last,
     ackedUpTo: () => acked,
-    unackedCount: () => pending.length,
+    unackedCount: () => pending.length - head,
+    settled: async function settled() {
+      while (compaction) await compaction;
+    },
     close: function close() {
-      if (linesInFile > pending.length) compact();
+      if (closed) return;
+      // A background compaction stops before its rename; this one, synchronous, supersedes it.
+      closed = true;
+      if (linesInFile > pending.length - head) compactSync();
       closeSync(fd);
     },
   };

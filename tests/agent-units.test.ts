@@ -110,12 +110,13 @@ describe('event log on disk', () => {
     expect(readFileSync(join(dir.path, 'events.log'), 'utf8').trim().split('\n').map((l) => JSON.parse(l).seq)).toEqual([1, 2]);
   });
 
-  it('compacts the file once enough is acknowledged, keeping only what is not', () => {
+  it('compacts the file once enough is acknowledged, keeping only what is not', async () => {
     const dir = tempDir('evlog-compact');
     dirs.push(dir);
     const log = openEventLog(dir.path, systemClock);
     for (let i = 0; i < 600; i++) log.append({ type: 'motion', moving: i % 2 === 0 });
     log.ack(550);
+    await log.settled();
     const lines = readFileSync(join(dir.path, 'events.log'), 'utf8').trim().split('\n');
     expect(lines.map((l) => JSON.parse(l).seq)).toEqual(Array.from({ length: 50 }, (_v, i) => 551 + i));
     log.close();
