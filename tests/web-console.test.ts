@@ -151,6 +151,24 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await page.context().close();
   });
 
+  it('for a task no setting can meet, the planner says so and lists the binding constraints and the nearest misses', async () => {
+    // Demo data: fruit counting in 5 ms. Latency = exposure + readout + ISP + inference (README, "Frame
+    // budget"), and gh-scout-a's readout (9 ms) alone exceeds it.
+    const { document: base } = await rig.api.json<{ document: Record<string, unknown> }>('GET', '/api/v1/tasks/fruit-counting');
+    await rig.api.json('POST', '/api/v1/tasks', { ...base, id: 'fruit-counting-5ms', name: 'Fruit counting in 5 ms (demo data)', latencyBudgetMs: 5 });
+    const page = await rig.openPage(rig.tokens.engineer);
+    await page.goto(`${rig.server.url}/#/planner/fruit-counting-5ms/gh-scout-a`);
+    await page.getByRole('button', { name: 'Search settings' }).click();
+    await page.getByText('No candidate meets every check.').waitFor();
+    expect(await page.getByRole('table', { name: 'Candidates on the front' }).count()).toBe(0);
+    expect(await page.locator('[data-constraint="latency"]').textContent()).toContain('fails');
+    const misses = await page.locator('[data-near-miss]').allTextContents();
+    expect(misses.length).toBeGreaterThan(0);
+    for (const m of misses) expect(m).toContain('latency');
+    await rig.screenshot(page, 'planner-empty');
+    await page.context().close();
+  });
+
   it('a rollout started from the page moves a simulated robot to the new release, wave by wave', async () => {
     const robot = rig.robots.find((r) => r.demoClass.deviceClassId === 'gh-scout-a')!;
     // A passing release to roll out: every task's revision 1 (demo data).
