@@ -3,8 +3,9 @@ import type { MqttClient } from 'mqtt';
 import type { MetricsRegistry } from '../metrics/registry.js';
 import { METRIC_NAMES } from '../metrics/registry.js';
 import { decodeMessage, encodeMessage } from '../protocol/decode.js';
+import { decodeEventsMessage } from '../protocol/decode-events.js';
 import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
-import { PROTOCOL_VERSION, type CommandMessage, type DeviceEvent, type StateMessage } from '../protocol/messages.js';
+import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
 import type { SignedRelease } from '../protocol/release.js';
 import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
 import { createDeviceEventRepository, type NewDeviceEvent } from '../store/device-events.js';
@@ -50,7 +51,7 @@ export interface Bridge extends ReleasePublisher {
   close(): Promise<void>;
 }
 
-type Pending = { events: Map<string, DeviceEvent[]>; states: Map<string, StateMessage> };
+type Pending = { events: Map<string, NewDeviceEvent[]>; states: Map<string, StateMessage> };
 
 /**
  * The server side of the bus: stores every device's state and events and acknowledges events.
@@ -100,11 +101,13 @@ export function createBridge(options: BridgeOptions): Bridge {
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
       pending.states.set(where.deviceId, decoded.value);
     } else {
-      const decoded = decodeMessage('events', payload);
+      const decoded = decodeEventsMessage(payload);
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
-      const list = pending.events.get(where.deviceId);
-      if (list) list.push(...decoded.value.events);
-      else pending.events.set(where.deviceId, decoded.value.events);
+      // Rows keep each event's JSON as the device sent it: stored without serialising it again.
+      const { events: list, texts } = decoded.value;
+      let rows = pending.events.get(where.deviceId);
+      if (!rows) pending.events.set(where.deviceId, (rows = []));
+      for (let i = 0; i < list.length; i++) rows.push({ seq: list[i]!.seq, ts: list[i]!.ts, type: list[i]!.type, json: texts[i]! });
     }
     scheduled ??= setImmediate(flush);
   }
@@ -121,8 +124,7 @@ export function createBridge(options: BridgeOptions): Bridge {
     try {
       acks = store.transaction(() => {
         const upTo = new Map<string, number>();
-        for (const [deviceId, list] of batch.events) {
-          const rows: NewDeviceEvent[] = list.map((e) => ({ seq: e.seq, ts: e.ts, type: e.type, json: JSON.stringify(e) }));
+        for (const [deviceId, rows] of batch.events) {
           const fresh = events.insert(deviceId, rows, at);
           added.events += fresh;
           added.duplicates += rows.length - fresh;

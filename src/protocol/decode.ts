@@ -19,10 +19,10 @@ const schemas = {
 export type ChannelMessage = { [K in DeviceChannel]: z.infer<(typeof schemas)[K]> };
 
 /**
- * Decodes one payload of a channel: size limit first (before parsing), then JSON, then the protocol
- * version, then the schema. Returns why a message was rejected instead of throwing.
+ * The common front of decoding: size limit first (before parsing), then JSON, then the protocol
+ * version. Returns the parsed JSON, not yet checked against the channel's schema.
  */
-export function decodeMessage<C extends DeviceChannel>(channel: C, payload: Uint8Array | string): Decoded<ChannelMessage[C]> {
+export function readPayload(channel: DeviceChannel, payload: Uint8Array | string): Decoded<unknown> {
   const size = typeof payload === 'string' ? Buffer.byteLength(payload) : payload.byteLength;
   if (size > MAX_PAYLOAD_BYTES[channel]) {
     return { ok: false, reason: 'oversized', detail: `${size} bytes exceeds the ${MAX_PAYLOAD_BYTES[channel]}-byte limit of ${channel}` };
@@ -39,12 +39,27 @@ export function decodeMessage<C extends DeviceChannel>(channel: C, payload: Uint
       return { ok: false, reason: 'unknown-version', detail: `protocol version ${JSON.stringify(version)}; this build speaks ${PROTOCOL_VERSION}` };
     }
   }
-  const r = schemas[channel].safeParse(json);
+  return { ok: true, value: json };
+}
+
+/** A schema's verdict as a Decoded: the first issue names the field path. */
+export function checkSchema<T>(schema: z.ZodType<T>, json: unknown): Decoded<T> {
+  const r = schema.safeParse(json);
   if (!r.success) {
     const first = r.error.issues[0]!;
     return { ok: false, reason: 'wrong-schema', detail: `${first.path.join('.') || '(root)'}: ${first.message}` };
   }
-  return { ok: true, value: r.data as ChannelMessage[C] };
+  return { ok: true, value: r.data };
+}
+
+/**
+ * Decodes one payload of a channel: size limit first (before parsing), then JSON, then the protocol
+ * version, then the schema. Returns why a message was rejected instead of throwing.
+ */
+export function decodeMessage<C extends DeviceChannel>(channel: C, payload: Uint8Array | string): Decoded<ChannelMessage[C]> {
+  const read = readPayload(channel, payload);
+  if (!read.ok) return read;
+  return checkSchema(schemas[channel] as unknown as z.ZodType<ChannelMessage[C]>, read.value);
 }
 
 export function encodeMessage(value: unknown): Buffer {
