@@ -1,5 +1,7 @@
 import mqtt from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createBridge } from '../src/bus/bridge.js';
+import { startEmbeddedBroker } from '../src/bus/broker.js';
 import { startBus, type Bus } from '../src/bus/start-bus.js';
 import { PROTOCOL_VERSION, deviceTopic } from '../src/protocol/index.js';
 import { openStore, type Store } from '../src/store/index.js';
@@ -56,5 +58,54 @@ describe('bridge ingest of telemetry batches (embedded broker)', () => {
     expect(store.db.prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get(id)).toBe(0);
     expect(d.acks).toEqual([]);
     await d.client.endAsync();
+  });
+});
+
+describe('device admission to the embedded broker', () => {
+  it('holds a device\'s connection until the bridge has subscribed, so its first batch is stored, not dropped', async () => {
+    const dir = tempDir('bus-admission');
+    const store = openStore(dir.path);
+    const serverUser = { username: 'test-server', password: 'test-server-secret' };
+    let admit = () => {};
+    const devicesAdmitted = new Promise<void>((resolve) => (admit = resolve));
+    const broker = await startEmbeddedBroker({
+      port: 0, serverUser, devicesAdmitted,
+      authenticate: (id, password) => store.devices.verifyCredentialsAsync(id, password),
+    });
+    const id = uniqueDeviceId('admit');
+    const { password } = store.devices.enrol({ id, deviceClassId: 'gh-scout-a', tags: [], actor: 'test', at: new Date().toISOString() })!;
+    try {
+      let connected = false;
+      const deviceClient = mqtt.connectAsync(broker.url, { username: id, password, clientId: id, reconnectPeriod: 0 }).then((c) => ((connected = true), c));
+      const server = await mqtt.connectAsync(broker.url, { ...serverUser, reconnectPeriod: 0 });
+      const bridge = createBridge({ mqttClient: server, store, clock: { now: () => new Date() } });
+      await bridge.subscribed();
+      // The server's client got in and subscribed; the device is still at the door.
+      expect(connected).toBe(false);
+      admit();
+      const device = await deviceClient;
+      await device.publishAsync(deviceTopic(id, 'events'), `{"v":${PROTOCOL_VERSION},"events":[${telemetryText(1)}]}`, { qos: 1 });
+      await waitFor(() => bridge.stats().eventsStored === 1, 'the first batch stored');
+      await device.endAsync();
+      await bridge.close();
+      await server.endAsync();
+    } finally {
+      await broker.close();
+      store.close();
+      dir.remove();
+    }
+  });
+
+  it('checks device passwords off the event loop with the same verdicts as the blocking check', async () => {
+    const dir = tempDir('bus-credentials');
+    const store = openStore(dir.path);
+    try {
+      const { password } = store.devices.enrol({ id: 'gh-cred-01', deviceClassId: 'gh-scout-a', tags: [], actor: 'test', at: new Date().toISOString() })!;
+      const cases: Array<[string, string]> = [['gh-cred-01', password], ['gh-cred-01', `${password}x`], ['gh-cred-99', password], ['gh-cred-01', password]];
+      for (const [id, pw] of cases) expect(await store.devices.verifyCredentialsAsync(id, pw), `${id}`).toBe(store.devices.verifyCredentials(id, pw));
+    } finally {
+      store.close();
+      dir.remove();
+    }
   });
 });

@@ -48,6 +48,8 @@ export interface Bridge extends ReleasePublisher {
   stats(): BridgeStats;
   /** Stores everything received so far and sends the acks now, instead of at the end of this tick. */
   flush(): void;
+  /** Settles once the broker has answered the bridge's first subscription to device state and events. */
+  subscribed(): Promise<void>;
   close(): Promise<void>;
 }
 
@@ -164,9 +166,13 @@ export function createBridge(options: BridgeOptions): Bridge {
     }
   }
 
+  let markSubscribed!: () => void;
+  const firstSubscription = new Promise<void>((resolve) => (markSubscribed = resolve));
+
   function subscribe() {
     client.subscribe([allDevicesFilter('state'), allDevicesFilter('events')], { qos: 1 }, (err) => {
       if (err) log(`bus: subscription failed: ${err.message}`);
+      markSubscribed();
     });
   }
 
@@ -209,6 +215,7 @@ export function createBridge(options: BridgeOptions): Bridge {
       return { ...counts, rejected: rejects.counts() };
     },
     flush,
+    subscribed: () => firstSubscription,
     close: async function close() {
       flush();
       closed = true;

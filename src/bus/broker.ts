@@ -16,6 +16,11 @@ export interface EmbeddedBrokerOptions {
   authenticate(username: string, password: string): boolean | Promise<boolean>;
   /** The server's own account, which may publish and subscribe anywhere. */
   serverUser: { username: string; password: string };
+  /**
+   * Device connections wait for this (their CONNACK is held back) while the server's own client is let
+   * in at once: a device that connected before the server subscribed would publish into nothing.
+   */
+  devicesAdmitted?: Promise<void>;
   log?: (line: string) => void;
 }
 
@@ -58,7 +63,7 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
         return done(null, true);
       }
       if (!isValidDeviceId(user)) return done(refusal('user name is not a device id'), false);
-      Promise.resolve()
+      Promise.resolve(options.devicesAdmitted)
         .then(() => options.authenticate(user, secret))
         .then(
           (ok) => {

@@ -36,6 +36,8 @@ export async function startBus(options: BusOptions): Promise<Bus> {
   const clock = options.clock ?? { now: () => new Date() };
   let broker: EmbeddedBroker | null = null;
   let account: { url: string; username: string; password: string };
+  let admitDevices = () => {};
+  const devicesAdmitted = new Promise<void>((resolve) => (admitDevices = resolve));
   if (options.external) {
     account = options.external;
   } else {
@@ -44,7 +46,9 @@ export async function startBus(options: BusOptions): Promise<Bus> {
       ...(options.embedded?.host !== undefined ? { host: options.embedded.host } : {}),
       ...(options.embedded?.port !== undefined ? { port: options.embedded.port } : {}),
       serverUser,
-      authenticate: (deviceId, password) => options.store.verifyDeviceCredentials(deviceId, password),
+      // scrypt on the thread pool: a fleet connecting at once does not stall the event loop (and the ingest) for seconds.
+      authenticate: (deviceId, password) => options.store.devices.verifyCredentialsAsync(deviceId, password),
+      devicesAdmitted,
       log,
     });
     account = { url: broker.url, ...serverUser };
@@ -59,6 +63,9 @@ export async function startBus(options: BusOptions): Promise<Bus> {
   });
   client.on('error', (e) => log(`bus: ${e.message}`));
   const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
+  await bridge.subscribed();
+  admitDevices();
   if (broker) await republishAssignedReleases(options.store, bridge, log);
   return {
     bridge,

@@ -1,4 +1,4 @@
-import { createHash, randomBytes, scryptSync, timingSafeEqual } from 'node:crypto';
+import { createHash, randomBytes, scrypt, scryptSync, timingSafeEqual } from 'node:crypto';
 
 // scrypt cost parameters: N = 2^14, r = 8, p = 1 are the interactive-login values of the scrypt paper
 // (Percival, "Stronger key derivation via sequential memory-hard functions", 2009) and Node's defaults.
@@ -17,16 +17,30 @@ export function hashPassword(password: string): string {
   return ['scrypt', SCRYPT.N, SCRYPT.r, SCRYPT.p, salt.toString('base64'), key.toString('base64')].join('$');
 }
 
-/** Constant-time comparison of a password with a stored scrypt hash; false for any malformed hash. */
-export function verifyPassword(password: string, stored: string): boolean {
+function parseStoredHash(stored: string) {
   const parts = stored.split('$');
-  if (parts.length !== 6 || parts[0] !== 'scrypt') return false;
+  if (parts.length !== 6 || parts[0] !== 'scrypt') return null;
   const [N, r, p] = parts.slice(1, 4).map(Number) as [number, number, number];
   const salt = Buffer.from(parts[4]!, 'base64');
   const expected = Buffer.from(parts[5]!, 'base64');
-  if (!Number.isInteger(N) || !Number.isInteger(r) || !Number.isInteger(p) || expected.length === 0) return false;
-  const actual = scryptSync(password, salt, expected.length, { N, r, p });
-  return timingSafeEqual(actual, expected);
+  if (!Number.isInteger(N) || !Number.isInteger(r) || !Number.isInteger(p) || expected.length === 0) return null;
+  return { salt, expected, cost: { N, r, p } };
+}
+
+/** Constant-time comparison of a password with a stored scrypt hash; false for any malformed hash. */
+export function verifyPassword(password: string, stored: string): boolean {
+  const h = parseStoredHash(stored);
+  if (!h) return false;
+  return timingSafeEqual(scryptSync(password, h.salt, h.expected.length, h.cost), h.expected);
+}
+
+/** The same as verifyPassword, with scrypt on libuv's thread pool so the event loop keeps turning. */
+export function verifyPasswordAsync(password: string, stored: string): Promise<boolean> {
+  const h = parseStoredHash(stored);
+  if (!h) return Promise.resolve(false);
+  return new Promise((resolve, reject) => {
+    scrypt(password, h.salt, h.expected.length, h.cost, (err, actual) => (err ? reject(err) : resolve(timingSafeEqual(actual, h.expected))));
+  });
 }
 
 /** Bearer tokens are long random secrets, so a fast unsalted sha256 is enough to keep them unreadable at rest. */

@@ -1,6 +1,6 @@
 import type Database from 'better-sqlite3';
 import { createHash, timingSafeEqual } from 'node:crypto';
-import { hashPassword, newSecret, verifyPassword } from './credentials.js';
+import { hashPassword, newSecret, verifyPassword, verifyPasswordAsync } from './credentials.js';
 
 export interface DeviceRecord {
   id: string;
@@ -69,6 +69,8 @@ export interface DeviceRepository {
   list(filter?: { deviceClassId?: string; tag?: string }): DeviceRecord[];
   /** True only for an enrolled device whose password matches. */
   verifyCredentials(deviceId: string, password: string): boolean;
+  /** The same, without blocking the event loop on scrypt (for the broker, where a fleet connects at once). */
+  verifyCredentialsAsync(deviceId: string, password: string): Promise<boolean>;
   /** Records the release a device should run and the assignment history row. */
   assign(input: { deviceId: string; releaseId: string; cause: string; actor: string; at: string }): AssignmentRecord;
   assignments(deviceId: string): AssignmentRecord[];
@@ -118,6 +120,16 @@ export function createDeviceRepository(db: Database.Database): DeviceRepository 
       const remembered = verified.get(key);
       if (remembered) return timingSafeEqual(remembered, digest(password));
       if (!verifyPassword(password, row.password_hash)) return false;
+      verified.set(key, digest(password));
+      return true;
+    },
+    verifyCredentialsAsync: async function verifyCredentialsAsync(deviceId, password) {
+      const row = oneRow.get(deviceId) as Row | undefined;
+      if (row === undefined) return false;
+      const key = `${deviceId}\u0000${row.password_hash}`;
+      const remembered = verified.get(key);
+      if (remembered) return timingSafeEqual(remembered, digest(password));
+      if (!(await verifyPasswordAsync(password, row.password_hash))) return false;
       verified.set(key, digest(password));
       return true;
     },
