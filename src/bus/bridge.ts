@@ -8,10 +8,11 @@ import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
 import type { SignedRelease } from '../protocol/release.js';
 import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
-import { createDeviceEventRepository, type NewDeviceEvent } from '../store/device-events.js';
+import type { NewDeviceEvent } from '../store/device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
-import { createEventCursor } from './event-cursor.js';
+import type { IngestBatch, IngestResult } from './event-batch.js';
+import { createInlineEventWriter, type EventWriter } from './event-writer.js';
 import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
 
 /** What the server's release-assignment code calls to deliver a release to one device. */
@@ -24,6 +25,8 @@ export interface BridgeOptions {
   mqttClient: MqttClient;
   store: Pick<Store, 'db' | 'devices' | 'transaction'>;
   clock: { now(): Date };
+  /** Where batches are stored: by default on this thread through the store's connection; startBus hands in a worker. */
+  eventWriter?: EventWriter;
   metrics?: MetricsRegistry;
   log?: (line: string) => void;
 }
@@ -46,8 +49,8 @@ export interface Bridge extends ReleasePublisher {
   /** Calls `listener` with the ids of the devices whose state or events were just stored (e.g. for live pages); returns the unsubscribe. */
   onStored(listener: (deviceIds: string[]) => void): () => void;
   stats(): BridgeStats;
-  /** Stores everything received so far and sends the acks now, instead of at the end of this tick. */
-  flush(): void;
+  /** Stores everything received so far and sends the acks; resolves once that is done. */
+  flush(): Promise<void>;
   /** Settles once the broker has answered the bridge's first subscription to device state and events. */
   subscribed(): Promise<void>;
   close(): Promise<void>;
@@ -66,13 +69,13 @@ export function createBridge(options: BridgeOptions): Bridge {
   const { mqttClient: client, store, clock } = options;
   const log = options.log ?? (() => {});
   const states = createDeviceStateRepository(store.db);
-  const events = createDeviceEventRepository(store.db);
-  const cursor = createEventCursor(events);
+  const writer = options.eventWriter ?? createInlineEventWriter(store);
   const rejects = createRejectCounter(options.metrics, log);
   const enrolled = new Set<string>();
   const counts = { messages: 0, eventsStored: 0, eventsDuplicate: 0, statesStored: 0, acksSent: 0 };
   let pending: Pending = { events: new Map(), states: new Map() };
   let scheduled: NodeJS.Immediate | null = null;
+  let writing: Promise<void> | null = null;
   let closed = false;
   const storedListeners = new Set<(deviceIds: string[]) => void>();
 
@@ -111,58 +114,59 @@ export function createBridge(options: BridgeOptions): Bridge {
       if (!rows) pending.events.set(where.deviceId, (rows = []));
       for (let i = 0; i < list.length; i++) rows.push({ seq: list[i]!.seq, ts: list[i]!.ts, type: list[i]!.type, json: texts[i]! });
     }
-    scheduled ??= setImmediate(flush);
+    scheduled ??= setImmediate(startWrite);
   }
 
-  function flush() {
+  /**
+   * Hands what was received to the writer, one batch at a time and in order; what arrives meanwhile
+   * waits for the next. Acks go out only after the writer has committed.
+   */
+  function startWrite() {
     if (scheduled) clearImmediate(scheduled);
     scheduled = null;
+    if (writing) return;
     const batch = pending;
     pending = { events: new Map(), states: new Map() };
     if (batch.events.size === 0 && batch.states.size === 0) return;
-    const at = clock.now().toISOString();
-    let acks: Map<string, number>;
-    const added = { events: 0, duplicates: 0, states: 0 };
-    try {
-      acks = store.transaction(() => {
-        const upTo = new Map<string, number>();
-        for (const [deviceId, rows] of batch.events) {
-          const fresh = events.insert(deviceId, rows, at);
-          added.events += fresh;
-          added.duplicates += rows.length - fresh;
-          upTo.set(deviceId, cursor.advance(deviceId, rows.map((r) => r.seq)));
-          if (!batch.states.has(deviceId)) states.touch(deviceId, at);
-        }
-        for (const [deviceId, state] of batch.states) {
-          if (state.online) states.putState(deviceId, state, at);
-          // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.
-          else states.markOffline(deviceId, at);
-          added.states += 1;
-        }
-        return upTo;
+    const ingest: IngestBatch = { at: clock.now().toISOString(), events: [...batch.events], states: [...batch.states] };
+    writing = writer
+      .write(ingest)
+      .then(
+        (result) => afterCommit(ingest, result),
+        // Nothing was stored or acked, so every device resends this batch; the bridge itself keeps running.
+        (e: unknown) => log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`),
+      )
+      .finally(() => {
+        writing = null;
+        if (pending.events.size > 0 || pending.states.size > 0) scheduled ??= setImmediate(startWrite);
       });
-    } catch (e) {
-      // Nothing was stored or acked, so every device resends this batch; the bridge itself keeps running.
-      cursor.reset();
-      log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`);
-      return;
-    }
-    counts.eventsStored += added.events;
-    counts.eventsDuplicate += added.duplicates;
-    counts.statesStored += added.states;
-    for (const [deviceId, upTo] of acks) {
+  }
+
+  function afterCommit(batch: IngestBatch, result: IngestResult) {
+    counts.eventsStored += result.eventsStored;
+    counts.eventsDuplicate += result.eventsDuplicate;
+    counts.statesStored += result.statesStored;
+    for (const [deviceId, upTo] of result.acks) {
       // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
       client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });
       counts.acksSent += 1;
     }
     // Listeners (live pages) run after the acks, so they never delay a device's resend window.
-    const storedIds = [...new Set([...batch.events.keys(), ...batch.states.keys()])];
+    const storedIds = [...new Set([...batch.events.map(([id]) => id), ...batch.states.map(([id]) => id)])];
     for (const listener of storedListeners) {
       try {
         listener(storedIds);
       } catch (e) {
         log(`bus: a stored-change listener failed: ${(e as Error).message}`);
       }
+    }
+  }
+
+  async function flush(): Promise<void> {
+    startWrite();
+    while (writing) {
+      await writing;
+      startWrite();
     }
   }
 
@@ -217,7 +221,7 @@ export function createBridge(options: BridgeOptions): Bridge {
     flush,
     subscribed: () => firstSubscription,
     close: async function close() {
-      flush();
+      await flush();
       closed = true;
       client.off('message', onMessage);
       client.off('connect', subscribe);

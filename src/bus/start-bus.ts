@@ -5,6 +5,7 @@ import { signedReleaseSchema } from '../protocol/release.js';
 import type { Store } from '../store/store.js';
 import { createBridge, type Bridge } from './bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from './broker.js';
+import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
 
 export interface BusOptions {
   store: Store;
@@ -13,6 +14,8 @@ export interface BusOptions {
   /** Where the embedded broker listens (127.0.0.1:1884 by default; port 0 picks a free one), and the server's account on it (random by default). */
   embedded?: { host?: string; port?: number; serverUser?: { username: string; password: string } };
   clock?: { now(): Date };
+  /** Where device events are written: a worker thread with its own connection (default), or the event loop's thread. */
+  eventWriter?: 'worker' | 'inline';
   metrics?: MetricsRegistry;
   log?: (line: string) => void;
 }
@@ -62,7 +65,14 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     connectTimeout: 10_000,
   });
   client.on('error', (e) => log(`bus: ${e.message}`));
-  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  const eventWriter = options.eventWriter === 'inline'
+    ? createInlineEventWriter(options.store)
+    : await startWorkerEventWriter({ dbPath: options.store.db.name, log }).catch(async (e: unknown) => {
+        await client.endAsync(true);
+        await broker?.close();
+        throw e;
+      });
+  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, ...(options.metrics ? { metrics: options.metrics } : {}) });
   // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
   await bridge.subscribed();
   admitDevices();
@@ -73,6 +83,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     broker,
     close: async function closeBus() {
       await bridge.close();
+      await eventWriter.close();
       await client.endAsync();
       await broker?.close();
     },

@@ -1,0 +1,58 @@
+import type { StateMessage } from '../protocol/messages.js';
+import type { DeviceEventRepository, NewDeviceEvent } from '../store/device-events.js';
+import type { DeviceStateRepository } from '../store/device-state.js';
+import type { EventCursor } from './event-cursor.js';
+
+/** What the bridge received in one turn of the event loop, in a form that crosses to a worker thread. */
+export interface IngestBatch {
+  /** When the server received it (ISO 8601). */
+  at: string;
+  events: Array<[deviceId: string, rows: NewDeviceEvent[]]>;
+  states: Array<[deviceId: string, state: StateMessage]>;
+}
+
+/** What one committed batch changed: each device's new ack (highest contiguous seq), and counts. */
+export interface IngestResult {
+  acks: Array<[deviceId: string, upTo: number]>;
+  eventsStored: number;
+  eventsDuplicate: number;
+  statesStored: number;
+}
+
+export interface BatchWriter {
+  events: DeviceEventRepository;
+  states: DeviceStateRepository;
+  cursor: EventCursor;
+  transaction<T>(fn: () => T): T;
+}
+
+/**
+ * Stores one batch in one transaction: events (each (device, seq) once), each device's contiguous
+ * cursor, and device states. After a rollback the cursor forgets what it held in memory, so an ack
+ * never covers an event that was not stored; the error is thrown on.
+ */
+export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
+  const result: IngestResult = { acks: [], eventsStored: 0, eventsDuplicate: 0, statesStored: 0 };
+  const withState = new Set(batch.states.map(([deviceId]) => deviceId));
+  try {
+    return w.transaction(() => {
+      for (const [deviceId, rows] of batch.events) {
+        const fresh = w.events.insert(deviceId, rows, batch.at);
+        result.eventsStored += fresh;
+        result.eventsDuplicate += rows.length - fresh;
+        result.acks.push([deviceId, w.cursor.advance(deviceId, rows.map((r) => r.seq))]);
+        if (!withState.has(deviceId)) w.states.touch(deviceId, batch.at);
+      }
+      for (const [deviceId, state] of batch.states) {
+        if (state.online) w.states.putState(deviceId, state, batch.at);
+        // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.
+        else w.states.markOffline(deviceId, batch.at);
+        result.statesStored += 1;
+      }
+      return result;
+    });
+  } catch (e) {
+    w.cursor.reset();
+    throw e;
+  }
+}

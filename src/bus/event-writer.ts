@@ -1,0 +1,96 @@
+import { createRequire } from 'node:module';
+import { pathToFileURL } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import { createDeviceEventRepository } from '../store/device-events.js';
+import { createDeviceStateRepository } from '../store/device-state.js';
+import type { Store } from '../store/store.js';
+import { createEventCursor } from './event-cursor.js';
+import { writeBatch, type IngestBatch, type IngestResult } from './event-batch.js';
+
+/** Stores the bridge's batches; resolves after the commit, so an ack is only ever sent for stored events. */
+export interface EventWriter {
+  readonly kind: 'worker' | 'inline';
+  write(batch: IngestBatch): Promise<IngestResult>;
+  close(): Promise<void>;
+}
+
+/** Writes on the calling thread, through the store's own connection. */
+export function createInlineEventWriter(store: Pick<Store, 'db' | 'transaction'>): EventWriter {
+  const events = createDeviceEventRepository(store.db);
+  const writer = { events, states: createDeviceStateRepository(store.db), cursor: createEventCursor(events), transaction: store.transaction };
+  return {
+    kind: 'inline',
+    write: async (batch) => writeBatch(writer, batch),
+    close: async () => {},
+  };
+}
+
+/** The worker's module runs as TypeScript through tsx, as the server does; registered in the worker before it is imported. */
+function workerBootstrap(): string {
+  const require = createRequire(import.meta.url);
+  const tsxApi = pathToFileURL(require.resolve('tsx/esm/api').replace(/\.cjs$/, '.mjs')).href;
+  const entry = new URL('./event-writer-worker.ts', import.meta.url).href;
+  return `import(${JSON.stringify(tsxApi)}).then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); });`;
+}
+
+type Reply = { ready: true } | { id: number; ok: true; result: IngestResult } | { id: number; ok: false; error: string };
+
+/**
+ * Writes on a worker thread with its own connection to the database file, so inserting and committing
+ * run beside the event loop that receives, checks and acknowledges. Batches are written one after
+ * another in the order given. If the worker dies, the batches in hand fail (their devices resend them)
+ * and the next write starts a new worker.
+ */
+export async function startWorkerEventWriter(options: { dbPath: string; busyTimeoutMs?: number; log?: (line: string) => void }): Promise<EventWriter> {
+  const log = options.log ?? (() => {});
+  const waiting = new Map<number, { resolve(r: IngestResult): void; reject(e: Error): void }>();
+  let nextId = 1;
+  let closing = false;
+
+  function spawn(): Promise<Worker> {
+    const worker = new Worker(workerBootstrap(), { eval: true, workerData: { dbPath: options.dbPath, busyTimeoutMs: options.busyTimeoutMs ?? 5000 } });
+    return new Promise<Worker>((resolve, reject) => {
+      let ready = false;
+      worker.on('message', (m: Reply) => {
+        if ('ready' in m) return ((ready = true), resolve(worker));
+        const w = waiting.get(m.id);
+        waiting.delete(m.id);
+        if (m.ok) w?.resolve(m.result);
+        else w?.reject(new Error(m.error));
+      });
+      const fail = (e: Error) => {
+        if (!ready) reject(e);
+        for (const w of waiting.values()) w.reject(e);
+        waiting.clear();
+        current = null;
+        if (!closing) log(`bus: event writer stopped (${e.message}); the next batch starts a new one`);
+      };
+      worker.once('error', fail);
+      worker.once('exit', (code) => fail(new Error(`event writer exited with code ${code}`)));
+    });
+  }
+
+  let current: Promise<Worker> | null = spawn();
+  await current;
+
+  return {
+    kind: 'worker',
+    write: async function write(batch) {
+      if (closing) throw new Error('the event writer is closed');
+      const worker = await (current ??= spawn());
+      const id = nextId++;
+      return new Promise<IngestResult>((resolve, reject) => {
+        waiting.set(id, { resolve, reject });
+        worker.postMessage({ id, batch });
+      });
+    },
+    close: async function close() {
+      closing = true;
+      const worker = await current?.catch(() => null);
+      if (!worker) return;
+      const exited = new Promise<void>((resolve) => worker.once('exit', () => resolve()));
+      worker.postMessage({ close: true });
+      await exited;
+    },
+  };
+}
