@@ -19,12 +19,36 @@ function stringEnd(text: string, open: number): number {
 }
 
 /**
+ * One flat JSON object (no nested object or array) and what follows it in the array. Each character
+ * can be matched one way only, so a failed match costs linear time.
+ */
+const FLAT_ELEMENT = /\s*(\{(?:[^"{}[\]]|"(?:[^"\\]|\\.)*")*\})\s*(,|\])/y;
+const CLOSE = /\s*\}\s*$/y;
+
+/** The agents' own envelope, `{"v":N,"events":[` then flat events: read with one sticky regex. */
+function flatEventTexts(text: string, from: number): string[] | null {
+  const out: string[] = [];
+  FLAT_ELEMENT.lastIndex = from;
+  for (;;) {
+    const m = FLAT_ELEMENT.exec(text);
+    if (!m) return null;
+    out.push(m[1]!);
+    if (m[2] === ']') break;
+  }
+  CLOSE.lastIndex = FLAT_ELEMENT.lastIndex;
+  return CLOSE.test(text) ? out : null;
+}
+
+/**
  * The JSON text of each element of the top-level `events` array of a message, exactly as received,
  * so the server can store what the device sent without serialising it again. `text` must already
  * have parsed as JSON; returns null when the elements cannot be told apart plainly (a key written
  * with escapes, say) or their number is not `count`, and the caller serialises instead.
  */
 export function eventTexts(text: string, count: number): string[] | null {
+  const envelope = /^\{"v":\d+,"events":\[/.exec(text);
+  const flat = envelope ? flatEventTexts(text, envelope[0].length) : null;
+  if (flat && flat.length === count) return flat;
   const out: string[] = [];
   let depth = 0;
   let lastString = '';
