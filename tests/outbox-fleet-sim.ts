@@ -3,7 +3,8 @@
  * virtual time, so that delivery under loss, restarts and reconnects is checked without depending on
  * the machine's speed. The broker keeps each publisher's messages in order and holds at most
  * `queueMessages` for the server, dropping what comes on top (as Mosquitto does with QoS 1 messages
- * to a slow subscriber once its queue is full); the server stores `eventsPerMs` and acks each device
+ * to a slow subscriber once its max_queued_messages queue, 1000 by default, is full: from memory);
+ * the server stores `eventsPerMs` and acks each device
  * its highest contiguous seq after every message, as the bridge does.
  */
 import { mkdirSync } from 'node:fs';
