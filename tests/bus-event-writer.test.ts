@@ -12,7 +12,10 @@ const AT = '2025-03-01T08:00:00.000Z';
 function batch(deviceId: string, seqs: number[]): IngestBatch {
   return {
     at: AT,
-    events: [[deviceId, seqs.map((seq) => ({ seq, ts: AT, type: 'motion', json: JSON.stringify({ seq, ts: AT, type: 'motion', moving: seq % 2 === 0 }) }))]],
+    events: [[deviceId, {
+      seqs, tss: seqs.map(() => AT), types: seqs.map(() => 'motion'),
+      jsons: seqs.map((seq) => JSON.stringify({ seq, ts: AT, type: 'motion', moving: seq % 2 === 0 })),
+    }]],
     states: [],
   };
 }

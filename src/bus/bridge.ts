@@ -8,7 +8,7 @@ import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
 import type { SignedRelease } from '../protocol/release.js';
 import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
-import type { NewDeviceEvent } from '../store/device-events.js';
+import type { DeviceEventColumns } from '../store/device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
 import type { IngestBatch, IngestResult } from './event-batch.js';
@@ -56,7 +56,7 @@ export interface Bridge extends ReleasePublisher {
   close(): Promise<void>;
 }
 
-type Pending = { events: Map<string, NewDeviceEvent[]>; states: Map<string, StateMessage> };
+type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, StateMessage> };
 
 /**
  * The server side of the bus: stores every device's state and events and acknowledges events.
@@ -110,9 +110,15 @@ export function createBridge(options: BridgeOptions): Bridge {
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
       // Rows keep each event's JSON as the device sent it: stored without serialising it again.
       const { events: list, texts } = decoded.value;
-      let rows = pending.events.get(where.deviceId);
-      if (!rows) pending.events.set(where.deviceId, (rows = []));
-      for (let i = 0; i < list.length; i++) rows.push({ seq: list[i]!.seq, ts: list[i]!.ts, type: list[i]!.type, json: texts[i]! });
+      let columns = pending.events.get(where.deviceId);
+      if (!columns) pending.events.set(where.deviceId, (columns = { seqs: [], tss: [], types: [], jsons: [] }));
+      for (let i = 0; i < list.length; i++) {
+        const e = list[i]!;
+        columns.seqs.push(e.seq);
+        columns.tss.push(e.ts);
+        columns.types.push(e.type);
+        columns.jsons.push(texts[i]!);
+      }
     }
     scheduled ??= setImmediate(startWrite);
   }

@@ -1,5 +1,5 @@
 import type { StateMessage } from '../protocol/messages.js';
-import type { DeviceEventRepository, NewDeviceEvent } from '../store/device-events.js';
+import type { DeviceEventColumns, DeviceEventRepository } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import type { EventCursor } from './event-cursor.js';
 
@@ -7,7 +7,7 @@ import type { EventCursor } from './event-cursor.js';
 export interface IngestBatch {
   /** When the server received it (ISO 8601). */
   at: string;
-  events: Array<[deviceId: string, rows: NewDeviceEvent[]]>;
+  events: Array<[deviceId: string, events: DeviceEventColumns]>;
   states: Array<[deviceId: string, state: StateMessage]>;
 }
 
@@ -36,11 +36,11 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
   const withState = new Set(batch.states.map(([deviceId]) => deviceId));
   try {
     return w.transaction(() => {
-      for (const [deviceId, rows] of batch.events) {
-        const fresh = w.events.insert(deviceId, rows, batch.at);
+      for (const [deviceId, columns] of batch.events) {
+        const fresh = w.events.insertColumns(deviceId, columns, batch.at);
         result.eventsStored += fresh;
-        result.eventsDuplicate += rows.length - fresh;
-        result.acks.push([deviceId, w.cursor.advance(deviceId, rows.map((r) => r.seq))]);
+        result.eventsDuplicate += columns.seqs.length - fresh;
+        result.acks.push([deviceId, w.cursor.advance(deviceId, columns.seqs)]);
         if (!withState.has(deviceId)) w.states.touch(deviceId, batch.at);
       }
       for (const [deviceId, state] of batch.states) {

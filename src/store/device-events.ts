@@ -20,6 +20,14 @@ export interface NewDeviceEvent {
   json: string;
 }
 
+/** The same events as parallel columns: cheaper to build and to post to a worker thread than one object each. */
+export interface DeviceEventColumns {
+  seqs: number[];
+  tss: string[];
+  types: string[];
+  jsons: string[];
+}
+
 interface Row {
   device_id: string;
   seq: number;
@@ -32,6 +40,8 @@ interface Row {
 export interface DeviceEventRepository {
   /** Inserts events; a (device, seq) already stored is ignored, so a resent batch is harmless. Returns how many were new. Call inside a transaction. */
   insert(deviceId: string, events: readonly NewDeviceEvent[], receivedAt: string): number;
+  /** The same as insert, for events given as columns. */
+  insertColumns(deviceId: string, events: DeviceEventColumns, receivedAt: string): number;
   /** Highest seq n such that every event 1..n of the device is stored (0 when event 1 is missing). */
   contiguousSeq(deviceId: string): number;
   setContiguousSeq(deviceId: string, seq: number): void;
@@ -61,6 +71,11 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
     insert: function insert(deviceId, events, receivedAt) {
       let added = 0;
       for (const e of events) added += insertRow.run(deviceId, e.seq, e.ts, e.type, e.json, receivedAt).changes;
+      return added;
+    },
+    insertColumns: function insertColumns(deviceId, { seqs, tss, types, jsons }, receivedAt) {
+      let added = 0;
+      for (let i = 0; i < seqs.length; i++) added += insertRow.run(deviceId, seqs[i], tss[i], types[i], jsons[i], receivedAt).changes;
       return added;
     },
     contiguousSeq: function contiguousSeq(deviceId) {
