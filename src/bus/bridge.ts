@@ -61,9 +61,10 @@ type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, St
 /**
  * The server side of the bus: stores every device's state and events and acknowledges events.
  * Messages are decoded with size limits and dropped with a counted reason when bad; the device id
- * is taken from the topic, never from the payload. Work is batched per event-loop tick: one
- * transaction for everything received in the tick, then one ack per device, so the server keeps up
- * with thousands of devices resending at once instead of becoming the broker's slow subscriber.
+ * is taken from the topic, never from the payload. Work is batched: one transaction (on the event
+ * writer, a worker thread under startBus) for everything received while the previous one was being
+ * written, then one ack per device once it is committed, so the server keeps up with thousands of
+ * devices resending at once instead of becoming the broker's slow subscriber.
  */
 export function createBridge(options: BridgeOptions): Bridge {
   const { mqttClient: client, store, clock } = options;
