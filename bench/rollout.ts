@@ -6,7 +6,7 @@
 // The rollout is one wave with the telemetry check off (the light agents send no telemetry): it measures the
 // engine's assignment, the bus and the gate, not the waiting a staged rollout does on purpose. Demo data.
 import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -66,6 +66,26 @@ function memoAuthenticate(store: Store) {
     const key = `${hash}\u0000${password}`;
     if (!known.has(key)) known.set(key, verifyPassword(password, hash));
     return known.get(key)!;
+  };
+}
+
+/** CPU time used since the call by this process and by the fleet process (from /proc where there is one; "?" elsewhere). */
+function cpuMeter(childPid: number | undefined): () => { server: string; fleet: string } {
+  const ticksMs = 10; // USER_HZ is 100 on Linux (sysconf(_SC_CLK_TCK)): one tick of utime/stime is 10 ms
+  const childMs = () => {
+    try {
+      const fields = readFileSync(`/proc/${childPid}/stat`, 'utf8').split(') ')[1]!.split(' ');
+      return (Number(fields[11]) + Number(fields[12])) * ticksMs;
+    } catch {
+      return Number.NaN;
+    }
+  };
+  const server0 = process.cpuUsage();
+  const fleet0 = childMs();
+  return () => {
+    const used = process.cpuUsage(server0);
+    const fleet = childMs() - fleet0;
+    return { server: ((used.user + used.system) / 1000).toFixed(0), fleet: Number.isNaN(fleet) ? '?' : fleet.toFixed(0) };
   };
 }
 
@@ -132,7 +152,9 @@ export async function measure(n: number): Promise<BenchFigure> {
     const t0 = performance.now();
     await waitForLine(child, /"phase":"connected"/);
     log(`${n} agents connected in ${((performance.now() - t0) / 1000).toFixed(1)} s`);
+    const floorCpu = cpuMeter(child.pid);
     const floor = await floorMs(raw, ids);
+    const floorCpuMs = floorCpu();
     log(`${n}: bare publish-and-reply ${floor.toFixed(0)} ms`);
 
     const bridge = createBridge({ mqttClient: server, store, clock: { now: () => new Date() } });
@@ -150,6 +172,7 @@ export async function measure(n: number): Promise<BenchFigure> {
       offline: { waitS: 600, then: 'fail' },
     });
     await engine.tick(); // the first pass refreshes calibration and drift: not part of the rollout
+    const rolloutCpu = cpuMeter(child.pid);
     const t1 = performance.now();
     const created = service.create(request, 'bench operator', new Date().toISOString());
     if (!created.ok) throw new Error(`rollout refused: ${created.message}`);
@@ -161,10 +184,12 @@ export async function measure(n: number): Promise<BenchFigure> {
       return status === 'completed';
     }, 'rollout completed', 600_000, 10);
     const value = performance.now() - t1;
+    const rolloutCpuMs = rolloutCpu();
     const running = store.db.prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
     if (running !== n) throw new Error(`${running} of ${n} devices report the release`);
     log(`${n}: rollout to completion ${value.toFixed(0)} ms (${running} devices report the release)`);
     log(`${n}: ${phases(store, created.value.id, release.id, Date.now() - value)}`);
+    log(`${n}: CPU time, server process (broker, bridge, engine) / fleet process: floor ${floorCpuMs.server} / ${floorCpuMs.fleet} ms, rollout ${rolloutCpuMs.server} / ${rolloutCpuMs.fleet} ms`);
     await engine.stop();
     await bridge.close();
     const ratio = value / floor;

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { judgeDevice, waveOutcome, type DeviceFacts, type GateContext } from '../src/fleet/rollout-gate.js';
+import { clockDelaysMs, judgeDevice, judgeSteps, waveOutcome, type DeviceFacts, type GateContext } from '../src/fleet/rollout-gate.js';
 
 // The gate's rules as stated in the rollout settings (common practice for staged rollouts: canary, then
 // widening waves, each held until its devices confirm). Times in ms.
@@ -49,6 +49,24 @@ describe('rollout gate, one device at a time', () => {
     expect(judgeDevice({ ...applied, sinceAppliedMs: 121_000, telemetry: { frames: 40, measuredMsSum: 400, predictedMsSum: 400 } }, ctx)).toMatchObject({
       status: 'failed', reason: expect.stringMatching(/^40 of 100 telemetry frames within 120 s/),
     });
+  });
+
+  it('goes from assigned through applied to passed in one step when the gate waits for no telemetry, and only then', () => {
+    const noTelemetry = { ...ctx, gate: { ...ctx.gate, telemetryFrames: 0 } };
+    expect(judgeSteps({ ...base, applied: true }, noTelemetry)).toEqual({
+      action: 'set', steps: [{ status: 'applied', reason: null }, { status: 'passed', reason: null }],
+    });
+    expect(judgeSteps({ ...base, applied: true }, ctx)).toEqual({ action: 'set', steps: [{ status: 'applied', reason: null }] });
+    expect(judgeSteps({ ...base, status: 'waiting' }, ctx)).toEqual({ action: 'assign' });
+    expect(judgeSteps(base, ctx)).toEqual({ action: 'keep' });
+  });
+
+  it('the clock alone moves an assigned device no sooner than min(applyTimeoutS, waitS), an applied one no sooner than telemetryTimeoutS', () => {
+    expect(clockDelaysMs(ctx)).toEqual({ assignedMs: 30_000, appliedMs: 120_000 });
+    // Just inside each delay the verdict stays 'keep' for a device with nothing new to say.
+    expect(judgeDevice({ ...base, online: false, sinceAssignedMs: 30_000 }, ctx)).toEqual({ action: 'keep' });
+    expect(judgeDevice({ ...base, sinceAssignedMs: 30_000 }, ctx)).toEqual({ action: 'keep' });
+    expect(judgeDevice({ ...base, status: 'applied', sinceAppliedMs: 120_000 }, ctx)).toEqual({ action: 'keep' });
   });
 
   it('a wave passes when every device passed or was skipped, and fails as soon as one failed', () => {

@@ -1,3 +1,4 @@
+import type { Statement } from 'better-sqlite3';
 import { signedReleaseSchema, type SignedRelease } from '../protocol/release.js';
 import type { AssignmentRecord, DeviceRecord } from '../store/devices.js';
 import type { ReleaseRecord } from '../store/releases.js';
@@ -113,16 +114,34 @@ export type ParsedReleases = Map<string, { record: ReleaseRecord; signed: Signed
  */
 export function recordAssignments(store: Store, inputs: readonly AssignInput[], parsed: ParsedReleases = new Map()): RecordedAssignment[] {
   const prepared = inputs.map((input) => prepare(store, input, parsed));
+  const item = savepointsOf(store.db);
   return store.transaction(() =>
     prepared.map((p): RecordedAssignment => {
       if (!p.ok) return p;
+      item.begin.run();
       try {
-        return { ok: true, assignment: store.transaction(() => record(store, p)), release: p.signed, deviceId: p.device.id };
+        const assignment = record(store, p);
+        item.release.run();
+        return { ok: true, assignment, release: p.signed, deviceId: p.device.id };
       } catch (error) {
+        item.rollback.run();
+        item.release.run();
         return { ok: false, code: 'not-recorded', message: error instanceof Error ? error.message : String(error), error };
       }
     }),
   );
+}
+
+/** A batch item's savepoint statements, prepared once per database (cheaper than a nested transaction per item). */
+const itemSavepoints = new WeakMap<Store['db'], { begin: Statement; release: Statement; rollback: Statement }>();
+
+function savepointsOf(db: Store['db']) {
+  let s = itemSavepoints.get(db);
+  if (!s) {
+    s = { begin: db.prepare('SAVEPOINT assign_item'), release: db.prepare('RELEASE assign_item'), rollback: db.prepare('ROLLBACK TO assign_item') };
+    itemSavepoints.set(db, s);
+  }
+  return s;
 }
 
 /** The sending half: every recorded item's release is sent at once (not one after another); outcomes in input order. */

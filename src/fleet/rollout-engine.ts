@@ -7,8 +7,8 @@ import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from './drift.js';
 import { createEventRangeReader } from './event-range.js';
 import { createAssignmentDispatcher } from './rollout-dispatch.js';
 import { createFactsReader } from './rollout-facts.js';
-import { judgeDevice, waveOutcome, type DeviceFacts, type DeviceVerdict, type GateContext } from './rollout-gate.js';
-import { createPassPacer } from './rollout-pacing.js';
+import { clockDelaysMs, judgeSteps, waveOutcome } from './rollout-gate.js';
+import { createPassPacer, type PassRequest } from './rollout-pacing.js';
 import type { RolloutSpec } from './rollout-spec.js';
 
 /** The actor of changes the engine makes on its own (wave starts, gate pauses, completion). */
@@ -49,6 +49,12 @@ export interface RolloutEngine {
   tick(): Promise<void>;
 }
 
+/** Which devices of a wave a pass judges: every open one, those the clock may have moved, or those that reported. */
+type Scope = { kind: 'all' } | { kind: 'due' } | { kind: 'reported'; deviceIds: ReadonlySet<string> };
+
+/** A rollout's state as far as judging its whole wave goes: a new wave, a resume or a pause changes it. */
+const wholeKey = (r: RolloutRecord) => `${r.currentWave}|${r.waveStartedAt}|${r.updatedAt}`;
+
 /**
  * Advances rollouts from the database alone, so a restarted server continues where the last one stopped.
  * Each pass judges the devices of the current wave (src/fleet/rollout-gate.ts) from their stored state and
@@ -79,6 +85,11 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   let factors = new Map<string, number>();
   let lastCalibrationMs = Number.NEGATIVE_INFINITY;
   let unsubscribe: (() => void) | null = null;
+  const reportsWake = deps.onDevicesStored !== undefined;
+  // Per running rollout: its state when a pass last judged its whole wave (see pass()).
+  const judgedWhole = new Map<string, string>();
+  // Per wave ("rollout|wave"): how many devices the last count left open, less those settled since.
+  const openHint = new Map<string, number>();
 
   function releaseOf(id: string): Release {
     let r = releases.get(id);
@@ -99,20 +110,10 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   }
 
   /**
-   * A device's verdict, followed one step further when it just applied: with no telemetry to wait for, the
-   * gate's applied → passed step needs no new fact, so it is taken in the same pass.
+   * One pass over a running rollout's current wave, judging the devices `scope` names: all open ones, those
+   * the clock may have moved, or those that reported. Returns the ms it waited on the bus.
    */
-  function judged(f: DeviceFacts, ctx: GateContext): Array<Extract<DeviceVerdict, { action: 'set' }>> | 'assign' | null {
-    const verdict = judgeDevice(f, ctx);
-    if (verdict.action === 'assign') return 'assign';
-    if (verdict.action !== 'set') return null;
-    if (verdict.status !== 'applied') return [verdict];
-    const next = judgeDevice({ ...f, status: 'applied', sinceAppliedMs: 0 }, ctx);
-    return next.action === 'set' ? [verdict, next] : [verdict];
-  }
-
-  /** One pass over a running rollout's current wave (`only`: just these devices). Returns the ms it waited on the bus. */
-  async function advance(r: RolloutRecord, nowMs: number, only: ReadonlySet<string> | null): Promise<number> {
+  async function advance(r: RolloutRecord, nowMs: number, scope: Scope): Promise<number> {
     const at = new Date(nowMs).toISOString();
     if (r.waveStartedAt === null) {
       repo.startWave(r.id, r.currentWave, at);
@@ -121,26 +122,42 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     }
     const spec = r.spec as RolloutSpec;
     const release = releaseOf(r.releaseId);
-    const ctx = { gate: spec.gate, offline: spec.offline, latencyFactor: latencyFactor(r.deviceClassId) };
+    // The class's calibration reads many events: only a gate that checks latency needs it.
+    const ctx = { gate: spec.gate, offline: spec.offline, latencyFactor: spec.gate.telemetryFrames > 0 ? latencyFactor(r.deviceClassId) : 1 };
     const waveStartMs = Date.parse(r.waveStartedAt!);
+    const waveKey = `${r.id}|${r.currentWave}`;
     const toAssign: RolloutDeviceRecord[] = [];
     let settled = 0;
+    let failed = 0;
     store.transaction(() => {
       const w = { rolloutId: r.id, wave: r.currentWave, release, nowMs, waveStartMs, needTelemetry: spec.gate.telemetryFrames > 0 };
-      for (const { device: d, facts: f } of only ? facts.openDevices(w, only) : facts.openWave(w)) {
-        const steps = judged(f, ctx);
-        if (steps === 'assign') toAssign.push(d);
-        else if (steps) {
-          for (const step of steps) repo.setDeviceStatus(r.id, d.deviceId, step.status, step.reason, at);
-          const last = steps[steps.length - 1]!.status;
-          if (last === 'passed' || last === 'failed' || last === 'skipped') settled += 1;
-        }
+      const delays = clockDelaysMs(ctx);
+      const open =
+        scope.kind === 'reported'
+          ? facts.openDevices(w, scope.deviceIds)
+          : scope.kind === 'due'
+            ? facts.dueDevices(w, { assignedBy: new Date(nowMs - delays.assignedMs).toISOString(), appliedBy: new Date(nowMs - delays.appliedMs).toISOString() })
+            : facts.openWave(w);
+      for (const { device: d, facts: f } of open) {
+        const verdict = judgeSteps(f, ctx);
+        if (verdict.action === 'assign') toAssign.push(d);
+        if (verdict.action !== 'set') continue;
+        for (const step of verdict.steps) repo.setDeviceStatus(r.id, d.deviceId, step.status, step.reason, at);
+        const last = verdict.steps[verdict.steps.length - 1]!.status;
+        if (last === 'failed') failed += 1;
+        else if (last === 'passed' || last === 'skipped') settled += 1;
       }
     });
+    if (scope.kind === 'all') judgedWhole.set(r.id, wholeKey(r));
     const { waitedMs } = await dispatcher.dispatch(r, toAssign, false, at);
-    // A short pass that settled no device cannot have closed the wave.
-    if (only && settled === 0) return waitedMs;
-    const outcome = waveOutcome(repo.waveCounts(r.id, r.currentWave));
+    // The wave's counts are read when it may have closed: always on a timer pass; on a short pass when a device
+    // failed or the devices left open by the last count may all have settled.
+    const hint = openHint.get(waveKey);
+    if (hint !== undefined) openHint.set(waveKey, hint - settled);
+    if (scope.kind === 'reported' && failed === 0 && hint !== undefined && hint - settled > 0) return waitedMs;
+    const counts = repo.waveCounts(r.id, r.currentWave);
+    openHint.set(waveKey, (counts.waiting ?? 0) + (counts.assigned ?? 0) + (counts.applied ?? 0));
+    const outcome = waveOutcome(counts);
     if (outcome === 'open') return waitedMs;
     store.transaction(() => {
       const current = repo.get(r.id);
@@ -192,12 +209,17 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     return waitedMs;
   }
 
-  /** A full pass (`only` null) or a short one over devices that reported; short passes leave rollbacks to full ones. */
-  async function pass(only: ReadonlySet<string> | null): Promise<{ busyMs: number; moving: boolean }> {
+  /**
+   * One pass over every moving rollout. A short pass (devices reported) judges just those devices and leaves
+   * rollbacks to the others. A timer pass judges a rollout's whole wave the first time it sees the rollout in
+   * its current state (just started, resumed, next wave, or a restarted server) and, when reports wake the
+   * engine, afterwards only the devices the clock may have moved. An explicit pass judges everything.
+   */
+  async function pass(request: PassRequest): Promise<{ busyMs: number; moving: boolean }> {
     const begun = performance.now();
     let waitedMs = 0;
     const nowMs = clock.now().getTime();
-    if (only === null && nowMs - lastCalibrationMs >= calibrationEveryMs) {
+    if (request.kind !== 'reported' && nowMs - lastCalibrationMs >= calibrationEveryMs) {
       lastCalibrationMs = nowMs;
       factors = new Map();
       for (const change of drift.check()) {
@@ -205,10 +227,18 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       }
     }
     const moving = repo.moving();
+    if (request.kind !== 'reported') forgetAllBut(moving);
     for (const r of moving) {
       try {
-        if (r.status === 'running') waitedMs += await advance(r, nowMs, only);
-        else if (only === null) waitedMs += await rollBack(r, nowMs);
+        if (r.status === 'running') {
+          const scope: Scope =
+            request.kind === 'reported'
+              ? request
+              : request.kind === 'timer' && reportsWake && judgedWhole.get(r.id) === wholeKey(r)
+                ? { kind: 'due' }
+                : { kind: 'all' };
+          waitedMs += await advance(r, nowMs, scope);
+        } else if (request.kind !== 'reported') waitedMs += await rollBack(r, nowMs);
       } catch (e) {
         log(`rollout ${r.id}: pass failed: ${e instanceof Error ? e.message : String(e)}`);
       }
@@ -216,10 +246,17 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     return { busyMs: Math.max(0, performance.now() - begun - waitedMs), moving: moving.length > 0 };
   }
 
+  /** Drops what the engine remembers of rollouts that stopped moving. */
+  function forgetAllBut(moving: readonly RolloutRecord[]) {
+    const ids = new Set(moving.map((r) => r.id));
+    for (const id of judgedWhole.keys()) if (!ids.has(id)) judgedWhole.delete(id);
+    for (const key of openHint.keys()) if (!ids.has(key.slice(0, key.lastIndexOf('|')))) openHint.delete(key);
+  }
+
   const pacer = createPassPacer({
     tickMs,
     runPass: pass,
-    reportsWake: deps.onDevicesStored !== undefined,
+    reportsWake,
     onError: (e) => log(`rollout engine: pass failed: ${e instanceof Error ? e.message : String(e)}`),
   });
 

@@ -42,6 +42,12 @@ export interface FactsReader {
   openWave(input: WaveInput): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
   /** The same for only the given devices (those of them in the wave and still open): one indexed read each. */
   openDevices(input: WaveInput, deviceIds: Iterable<string>): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
+  /**
+   * The same for the open devices the clock may have moved: every waiting device, assigned ones assigned at or
+   * before `assignedBy` and applied ones applied at or before `appliedBy` (ISO times). The wave's rows are
+   * filtered inside SQLite; state and events are read only for the rows that pass.
+   */
+  dueDevices(input: WaveInput, cutoffs: { assignedBy: string; appliedBy: string }): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
   /** The release a device reports running, and whether it is online (null: never heard from). */
   reported(deviceId: string): { online: boolean; releaseId: string | null } | null;
 }
@@ -61,6 +67,9 @@ export function createFactsReader(db: Database.Database): FactsReader {
       (SELECT e.seq FROM device_events e WHERE e.device_id = rd.device_id ORDER BY e.seq DESC LIMIT 1) AS last_seq
     FROM rollout_devices rd LEFT JOIN device_state ds ON ds.device_id = rd.device_id`;
   const openRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied') ORDER BY rd.position`);
+  // Times are stored as toISOString() writes them (fixed width, UTC), so they order as strings.
+  const dueRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.wave = ? AND (rd.status = 'waiting'
+      OR (rd.status = 'assigned' AND rd.assigned_at <= ?) OR (rd.status = 'applied' AND rd.applied_at <= ?)) ORDER BY rd.position`);
   // One device by the primary key (rollout_id, device_id).
   const openRow = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied')`);
   const eventsAfter = db.prepare(`SELECT type, event FROM device_events WHERE device_id = ? AND seq > ?
@@ -123,6 +132,9 @@ export function createFactsReader(db: Database.Database): FactsReader {
   return {
     openWave: function openWave(w) {
       return (openRows.all(w.rolloutId, w.wave) as Array<DeviceRow & JoinedRow>).map((r) => fromRow(r, w));
+    },
+    dueDevices: function dueDevices(w, cutoffs) {
+      return (dueRows.all(w.rolloutId, w.wave, cutoffs.assignedBy, cutoffs.appliedBy) as Array<DeviceRow & JoinedRow>).map((r) => fromRow(r, w));
     },
     openDevices: function openDevices(w, deviceIds) {
       const out: Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }> = [];

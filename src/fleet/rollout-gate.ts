@@ -105,3 +105,32 @@ export function waveOutcome(counts: Partial<Record<RolloutDeviceStatus, number>>
   if ((counts.failed ?? 0) > 0) return 'failed';
   return (counts.waiting ?? 0) + (counts.assigned ?? 0) + (counts.applied ?? 0) === 0 ? 'passed' : 'open';
 }
+
+/** What a pass does with a device: assign it, move it through one or more statuses, or nothing. */
+export type DeviceSteps = { action: 'assign' } | { action: 'set'; steps: Array<{ status: RolloutDeviceStatus; reason: string | null }> } | { action: 'keep' };
+
+/**
+ * judgeDevice, followed one step further when the device just applied: when the gate waits for no telemetry,
+ * applied → passed needs no new fact, so a device goes from assigned to passed in one pass (applied first, so
+ * its time of applying is kept).
+ */
+export function judgeSteps(facts: DeviceFacts, ctx: GateContext): DeviceSteps {
+  const first = judgeDevice(facts, ctx);
+  if (first.action !== 'set') return first;
+  const steps = [{ status: first.status, reason: first.reason }];
+  if (first.status === 'applied') {
+    const next = judgeDevice({ ...facts, status: 'applied', sinceAppliedMs: 0 }, ctx);
+    if (next.action === 'set') steps.push({ status: next.status, reason: next.reason });
+  }
+  return { action: 'set', steps };
+}
+
+/**
+ * How long facts must stand unchanged before the clock alone can move a device (ms): an assigned device times
+ * out or counts as offline no sooner than the shorter of applyTimeoutS and waitS after its assignment; an
+ * applied one misses its telemetry no sooner than telemetryTimeoutS after applying. A pass that is not woken by
+ * a device's report need look only at devices older than that (and at waiting ones).
+ */
+export function clockDelaysMs(ctx: Pick<GateContext, 'gate' | 'offline'>): { assignedMs: number; appliedMs: number } {
+  return { assignedMs: Math.min(ctx.gate.applyTimeoutS, ctx.offline.waitS) * 1000, appliedMs: ctx.gate.telemetryTimeoutS * 1000 };
+}

@@ -5,14 +5,18 @@
  * loop and leaves the rest to the broker and the bus bridge.
  *
  * Without reports a full pass runs on every tick. With reports, most verdicts (applied, refused, online) come
- * from short passes as soon as the facts are stored; full passes are then needed only for the verdicts the
- * clock makes (apply timeouts, offline waits, telemetry timeouts, all counted in seconds), so a full pass
- * rests FULL_PASS_REST times as long as it took: over a 5,000-device wave it does not compete with the bus.
+ * from short passes as soon as the facts are stored; timer passes are then needed only for the verdicts the
+ * clock makes (apply timeouts, offline waits, telemetry timeouts, all counted in seconds), so the engine makes
+ * them look only at devices the clock may have moved, and a timer pass rests FULL_PASS_REST times as long as
+ * it took: over a 5,000-device wave it does not compete with the bus.
  */
 export const FULL_PASS_REST = 10;
 
-/** One pass: `only` null for a full pass, else the devices that reported. Returns the ms it worked (not waited). */
-export type PassRunner = (only: ReadonlySet<string> | null) => Promise<{ busyMs: number; moving: boolean }>;
+/** Why a pass runs: the timer, an explicit call (look at everything now), or devices that reported. */
+export type PassRequest = { kind: 'timer' } | { kind: 'explicit' } | { kind: 'reported'; deviceIds: ReadonlySet<string> };
+
+/** Runs one pass; returns the ms it worked (not waited on the bus) and whether any rollout is moving. */
+export type PassRunner = (request: PassRequest) => Promise<{ busyMs: number; moving: boolean }>;
 
 export interface PassPacer {
   /** Starts the timer, with a full pass right away. */
@@ -21,7 +25,7 @@ export interface PassPacer {
   stop(): Promise<void>;
   /** Devices whose state or events were just stored: a short pass over them runs soon. */
   reported(deviceIds: readonly string[]): void;
-  /** Runs a full pass now (after the one in progress). */
+  /** Runs an explicit full pass now (after the one in progress). */
   runFull(): Promise<void>;
 }
 
@@ -49,21 +53,28 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
   function runNext() {
     scheduled = null;
     if (busy) return;
-    const only = fullDue ? null : dirty;
-    fullDue = false;
-    dirty = new Set();
-    void enqueue(only);
+    // A timer pass does not look at every reported device (only at those the clock may have moved): the
+    // reported ones wait for the short pass that follows it.
+    if (fullDue) {
+      fullDue = false;
+      void enqueue({ kind: 'timer' });
+    } else {
+      const deviceIds = dirty;
+      dirty = new Set();
+      void enqueue({ kind: 'reported', deviceIds });
+    }
   }
 
-  function enqueue(only: ReadonlySet<string> | null): Promise<void> {
+  function enqueue(request: PassRequest): Promise<void> {
+    const full = request.kind !== 'reported';
     const run = async () => {
       busy = true;
       // A full pass may find a rollout that just started: collect the reports that arrive meanwhile.
-      if (only === null) moving = true;
+      if (full) moving = true;
       const begun = performance.now();
       let busyMs = 0;
       try {
-        const result = await runPass(only);
+        const result = await runPass(request);
         busyMs = result.busyMs;
         moving = result.moving;
       } catch (e) {
@@ -73,7 +84,7 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
         busy = false;
         const end = performance.now();
         restUntil = end + busyMs;
-        if (only === null) nextFullAt = end + (options.reportsWake ? FULL_PASS_REST : 1) * busyMs;
+        if (full) nextFullAt = end + (options.reportsWake ? FULL_PASS_REST : 1) * busyMs;
         kick();
       }
     };
@@ -108,7 +119,7 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
       kick();
     },
     runFull: function runFull() {
-      return enqueue(null);
+      return enqueue({ kind: 'explicit' });
     },
   };
 }

@@ -1,7 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import type { InputIssue } from '../schema/issues.js';
 import type { DeviceRecord } from '../store/devices.js';
-import { createRolloutRepository, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../store/rollouts.js';
+import { createRolloutRepository, HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../store/rollouts.js';
 import type { Store } from '../store/store.js';
 import { createEventRangeReader } from './event-range.js';
 import { planWaves, waveIndexes, type RolloutRequest } from './rollout-spec.js';
@@ -90,6 +90,12 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
   const ranges = createEventRangeReader(store.db);
   const newId = options.newId ?? (() => `ro-${randomBytes(5).toString('hex')}`);
 
+  /** Which of the devices another rollout holds. Usually no rollout holds any: then no device needs a look of its own. */
+  function holders(deviceIds: readonly string[], exceptRolloutId?: string) {
+    const holding = HOLDING_STATUSES.some((status) => repo.list({ status, limit: 2 }).some((r) => r.id !== exceptRolloutId));
+    return holding ? repo.holders(deviceIds, exceptRolloutId) : [];
+  }
+
   function view(id: string): RolloutView | null {
     const r = repo.get(id);
     if (!r) return null;
@@ -134,7 +140,7 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
         const targets = resolveTargets(store, request, release.deviceClassId);
         if (!targets.ok) return targets;
         const ids = targets.value.map((d) => d.id);
-        const held = repo.holders(ids);
+        const held = holders(ids);
         if (held.length > 0) {
           const others = [...new Set(held.map((h) => h.rolloutId))];
           return fail(
@@ -182,7 +188,7 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
     rollback: function rollback(id, actor, at) {
       // A finished rollout no longer holds its devices: refuse when a newer rollout has taken some of them.
       const moved = repo.devices(id).filter((d) => d.assignmentId !== null).map((d) => d.deviceId);
-      const held = repo.holders(moved, id);
+      const held = holders(moved, id);
       if (held.length > 0) {
         return fail(
           'conflict',
