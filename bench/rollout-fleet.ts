@@ -20,6 +20,9 @@ export interface RolloutFleetSettings {
   connectConcurrency: number;
 }
 
+/** The client library's own trace logger, off: 5,000 simulated devices share one process, real ones would not. */
+const quiet = () => {};
+
 const say = (message: Record<string, unknown>) => process.stdout.write(`${JSON.stringify(message)}\n`);
 
 interface LightAgent {
@@ -57,7 +60,7 @@ function check(raw: { release?: { id?: string; version?: number; deviceClassId?:
 }
 
 async function startAgent(id: string, s: RolloutFleetSettings, trust: Trust): Promise<LightAgent> {
-  const client = await mqtt.connectAsync(s.brokerUrl, { clientId: `bench-${id}`, username: id, password: s.password, clean: true, reconnectPeriod: 0, keepalive: 600 });
+  const client = await mqtt.connectAsync(s.brokerUrl, { clientId: `bench-${id}`, username: id, password: s.password, clean: true, reconnectPeriod: 0, keepalive: 600, log: quiet });
   const a: LightAgent = { client, releaseId: null, releaseVersion: null, seq: 0 };
   const publishState = () => client.publish(deviceTopic(id, 'state'), JSON.stringify(state(a)), { qos: 1, retain: true });
   client.on('message', (topic, payload) => {

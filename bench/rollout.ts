@@ -161,7 +161,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     await until(() => bridge.deviceStates.countOnline() === n, 'every device online in the store', 120_000, 20);
     const engine = createRolloutEngine({
       store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener),
-      tickMs: 20, calibrationEveryMs: 3_600_000, assignConcurrency: 500,
+      tickMs: 20, calibrationEveryMs: 3_600_000,
     });
     const service = createRolloutService(store);
     const request = rolloutRequestSchema.parse({

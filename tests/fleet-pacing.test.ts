@@ -21,7 +21,8 @@ afterEach(async () => {
   current = null;
 });
 
-function rig(moving = true): Rig {
+function rig(moving = true, opensWaveOnce = false): Rig {
+  let opensWave = opensWaveOnce;
   const requests: PassRequest[] = [];
   let hold: { started: () => void; gate: Promise<void> } | null = null;
   let running = 0;
@@ -43,7 +44,9 @@ function rig(moving = true): Rig {
         await h.gate;
       }
       running -= 1;
-      return { busyMs: 0, moving };
+      const fullPassNow = opensWave && request.kind === 'reported';
+      if (fullPassNow) opensWave = false;
+      return { busyMs: 0, moving, fullPassNow };
     },
   });
   current = pacer;
@@ -90,6 +93,15 @@ describe('rollout engine pacing', () => {
     await explicit;
     expect(r.requests.at(-1)).toEqual({ kind: 'explicit' });
     expect(r.overlapped()).toBe(false);
+  });
+
+  it('a short pass that opened the next wave is followed by a timer pass at once, not at the timer\'s next turn', async () => {
+    const r = rig(true, true);
+    r.pacer.start();
+    await waitFor(() => r.requests.length === 1, 'the first timer pass');
+    r.pacer.reported(['gh-row-06']);
+    await waitFor(() => r.requests.length === 3, 'the short pass and the timer pass after it');
+    expect(r.requests.map((q) => q.kind)).toEqual(['timer', 'reported', 'timer']);
   });
 
   it('ignores reports while no rollout is moving: the next timer pass looks at every device anyway', async () => {

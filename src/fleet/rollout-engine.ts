@@ -8,7 +8,7 @@ import { createEventRangeReader } from './event-range.js';
 import { createAssignmentDispatcher } from './rollout-dispatch.js';
 import { createFactsReader } from './rollout-facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './rollout-gate.js';
-import { createPassPacer, type PassRequest } from './rollout-pacing.js';
+import { createPassPacer, type PassRequest, type PassResult } from './rollout-pacing.js';
 import type { RolloutSpec } from './rollout-spec.js';
 
 /** The actor of changes the engine makes on its own (wave starts, gate pauses, completion). */
@@ -90,6 +90,8 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const judgedWhole = new Map<string, string>();
   // Per wave ("rollout|wave"): how many devices the last count left open, less those settled since.
   const openHint = new Map<string, number>();
+  // Set by a pass that opened a rollout's next wave.
+  let waveOpened = false;
 
   function releaseOf(id: string): Release {
     let r = releases.get(id);
@@ -172,6 +174,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       } else if (r.currentWave + 1 < r.waveCount) {
         repo.startWave(r.id, r.currentWave + 1, at);
         audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 1, previousWavePassed: r.currentWave });
+        waveOpened = true;
       } else {
         repo.setStatus(r.id, 'completed', at);
         audit(r, 'rollout.complete', at, { waves: r.waveCount });
@@ -215,9 +218,10 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
    * its current state (just started, resumed, next wave, or a restarted server) and, when reports wake the
    * engine, afterwards only the devices the clock may have moved. An explicit pass judges everything.
    */
-  async function pass(request: PassRequest): Promise<{ busyMs: number; moving: boolean }> {
+  async function pass(request: PassRequest): Promise<PassResult> {
     const begun = performance.now();
     let waitedMs = 0;
+    waveOpened = false;
     const nowMs = clock.now().getTime();
     if (request.kind !== 'reported' && nowMs - lastCalibrationMs >= calibrationEveryMs) {
       lastCalibrationMs = nowMs;
@@ -243,7 +247,8 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         log(`rollout ${r.id}: pass failed: ${e instanceof Error ? e.message : String(e)}`);
       }
     }
-    return { busyMs: Math.max(0, performance.now() - begun - waitedMs), moving: moving.length > 0 };
+    // A wave opened by this pass has its devices assigned by a timer pass right after, not at the timer's next turn.
+    return { busyMs: Math.max(0, performance.now() - begun - waitedMs), moving: moving.length > 0, fullPassNow: waveOpened };
   }
 
   /** Drops what the engine remembers of rollouts that stopped moving. */

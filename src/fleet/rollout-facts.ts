@@ -40,7 +40,7 @@ export interface WaveInput {
 export interface FactsReader {
   /** Facts about every device of a wave still on its way through the gate, from one query plus event reads where needed. */
   openWave(input: WaveInput): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
-  /** The same for only the given devices (those of them in the wave and still open): one indexed read each. */
+  /** The same for only the given devices (those of them in the wave and still open): one statement, a key lookup each. */
   openDevices(input: WaveInput, deviceIds: Iterable<string>): Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }>;
   /**
    * The same for the open devices the clock may have moved: every waiting device, assigned ones assigned at or
@@ -70,8 +70,9 @@ export function createFactsReader(db: Database.Database): FactsReader {
   // Times are stored as toISOString() writes them (fixed width, UTC), so they order as strings.
   const dueRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.wave = ? AND (rd.status = 'waiting'
       OR (rd.status = 'assigned' AND rd.assigned_at <= ?) OR (rd.status = 'applied' AND rd.applied_at <= ?)) ORDER BY rd.position`);
-  // One device by the primary key (rollout_id, device_id).
-  const openRow = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id = ? AND rd.wave = ? AND rd.status IN ('waiting', 'assigned', 'applied')`);
+  // Given devices by the primary key (rollout_id, device_id): one statement for a JSON array of ids.
+  const someRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id IN (SELECT value FROM json_each(?)) AND rd.wave = ?
+      AND rd.status IN ('waiting', 'assigned', 'applied')`);
   const eventsAfter = db.prepare(`SELECT type, event FROM device_events WHERE device_id = ? AND seq > ?
       AND type IN ('release-applied', 'release-refused', 'telemetry') ORDER BY seq`);
 
@@ -137,12 +138,7 @@ export function createFactsReader(db: Database.Database): FactsReader {
       return (dueRows.all(w.rolloutId, w.wave, cutoffs.assignedBy, cutoffs.appliedBy) as Array<DeviceRow & JoinedRow>).map((r) => fromRow(r, w));
     },
     openDevices: function openDevices(w, deviceIds) {
-      const out: Array<{ device: RolloutDeviceRecord; facts: DeviceFacts }> = [];
-      for (const id of deviceIds) {
-        const r = openRow.get(w.rolloutId, id, w.wave) as (DeviceRow & JoinedRow) | undefined;
-        if (r) out.push(fromRow(r, w));
-      }
-      return out;
+      return (someRows.all(w.rolloutId, JSON.stringify([...deviceIds]), w.wave) as Array<DeviceRow & JoinedRow>).map((r) => fromRow(r, w));
     },
     reported: function reported(deviceId) {
       const row = stateRow.get(deviceId) as StateRow | undefined;

@@ -15,8 +15,16 @@ export const FULL_PASS_REST = 10;
 /** Why a pass runs: the timer, an explicit call (look at everything now), or devices that reported. */
 export type PassRequest = { kind: 'timer' } | { kind: 'explicit' } | { kind: 'reported'; deviceIds: ReadonlySet<string> };
 
-/** Runs one pass; returns the ms it worked (not waited on the bus) and whether any rollout is moving. */
-export type PassRunner = (request: PassRequest) => Promise<{ busyMs: number; moving: boolean }>;
+export interface PassResult {
+  /** The ms the pass worked (not the time it waited on the bus). */
+  busyMs: number;
+  /** Whether any rollout is moving (reports matter only then). */
+  moving: boolean;
+  /** The pass changed what a full pass would find (e.g. it opened a wave): run one as soon as the rest allows. */
+  fullPassNow: boolean;
+}
+
+export type PassRunner = (request: PassRequest) => Promise<PassResult>;
 
 export interface PassPacer {
   /** Starts the timer, with a full pass right away. */
@@ -77,6 +85,7 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
         const result = await runPass(request);
         busyMs = result.busyMs;
         moving = result.moving;
+        if (result.fullPassNow) fullDue = true;
       } catch (e) {
         busyMs = performance.now() - begun;
         options.onError(e);
