@@ -21,15 +21,17 @@ afterEach(async () => {
   current = null;
 });
 
-function rig(moving = true, opensWaveOnce = false): Rig {
+function rig(moving = true, opensWaveOnce = false, opts: { tickMs?: number; firstBusyMs?: number; changed?: () => boolean } = {}): Rig {
   let opensWave = opensWaveOnce;
+  let firstBusyMs = opts.firstBusyMs ?? 0;
   const requests: PassRequest[] = [];
   let hold: { started: () => void; gate: Promise<void> } | null = null;
   let running = 0;
   let overlapped = false;
   const pacer = createPassPacer({
-    tickMs: HOUR_MS,
+    tickMs: opts.tickMs ?? HOUR_MS,
     reportsWake: true,
+    changed: opts.changed ?? (() => false),
     onError: (e) => {
       throw e;
     },
@@ -46,7 +48,9 @@ function rig(moving = true, opensWaveOnce = false): Rig {
       running -= 1;
       const fullPassNow = opensWave && request.kind === 'reported';
       if (fullPassNow) opensWave = false;
-      return { busyMs: 0, moving, fullPassNow };
+      const busyMs = firstBusyMs;
+      firstBusyMs = 0;
+      return { busyMs, moving, fullPassNow };
     },
   });
   current = pacer;
@@ -102,6 +106,17 @@ describe('rollout engine pacing', () => {
     r.pacer.reported(['gh-row-06']);
     await waitFor(() => r.requests.length === 3, 'the short pass and the timer pass after it');
     expect(r.requests.map((q) => q.kind)).toEqual(['timer', 'reported', 'timer']);
+  });
+
+  it('a rollout that changed gets a timer pass after the usual rest, not the ten-fold rest of timer passes', async () => {
+    // The first pass worked 1 s: the next may come after 1 s of rest; an unchanged timer pass only after 10 s.
+    let changed = false;
+    const r = rig(true, false, { tickMs: 10, firstBusyMs: 1000, changed: () => changed });
+    r.pacer.start();
+    await waitFor(() => r.requests.length === 1, 'the first timer pass');
+    changed = true;
+    await waitFor(() => r.requests.length >= 2, 'a timer pass for the changed rollout', 6_000);
+    expect(r.requests.slice(0, 2).map((q) => q.kind)).toEqual(['timer', 'timer']);
   });
 
   it('ignores reports while no rollout is moving: the next timer pass looks at every device anyway', async () => {

@@ -258,10 +258,16 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     for (const key of openHint.keys()) if (!ids.has(key.slice(0, key.lastIndexOf('|')))) openHint.delete(key);
   }
 
+  /** A moving rollout whose wave no pass has judged whole in its current state (or one rolling back). */
+  function changed(): boolean {
+    return repo.moving().some((r) => r.status !== 'running' || judgedWhole.get(r.id) !== wholeKey(r));
+  }
+
   const pacer = createPassPacer({
     tickMs,
     runPass: pass,
     reportsWake,
+    changed,
     onError: (e) => log(`rollout engine: pass failed: ${e instanceof Error ? e.message : String(e)}`),
   });
 

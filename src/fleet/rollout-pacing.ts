@@ -8,7 +8,8 @@
  * from short passes as soon as the facts are stored; timer passes are then needed only for the verdicts the
  * clock makes (apply timeouts, offline waits, telemetry timeouts, all counted in seconds), so the engine makes
  * them look only at devices the clock may have moved, and a timer pass rests FULL_PASS_REST times as long as
- * it took: over a 5,000-device wave it does not compete with the bus.
+ * it took: over a 5,000-device wave it does not compete with the bus. A rollout that changed (created,
+ * resumed, rolling back, next wave) still gets its timer pass on the next tick: `changed` is asked every tick.
  */
 export const FULL_PASS_REST = 10;
 
@@ -37,7 +38,17 @@ export interface PassPacer {
   runFull(): Promise<void>;
 }
 
-export function createPassPacer(options: { tickMs: number; runPass: PassRunner; reportsWake: boolean; onError: (e: unknown) => void }): PassPacer {
+export interface PacerOptions {
+  tickMs: number;
+  runPass: PassRunner;
+  /** Devices' reports wake the engine (then timer passes over unchanged rollouts rest FULL_PASS_REST times longer). */
+  reportsWake: boolean;
+  /** Checked on every tick: some rollout needs a timer pass now whatever the rest (it started, resumed, opened a wave). */
+  changed: () => boolean;
+  onError: (e: unknown) => void;
+}
+
+export function createPassPacer(options: PacerOptions): PassPacer {
   const { tickMs, runPass } = options;
   let timer: NodeJS.Timeout | null = null;
   let scheduled: NodeJS.Timeout | null = null;
@@ -50,6 +61,15 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
   let dirty = new Set<string>();
   // Until a pass says otherwise, reports may matter (a rollout may be moving).
   let moving = true;
+
+  function safely(check: () => boolean): boolean {
+    try {
+      return check();
+    } catch (e) {
+      options.onError(e);
+      return true;
+    }
+  }
 
   function kick() {
     if (!started || scheduled || busy) return;
@@ -108,7 +128,8 @@ export function createPassPacer(options: { tickMs: number; runPass: PassRunner; 
       fullDue = true;
       kick();
       timer = setInterval(() => {
-        if (performance.now() < nextFullAt) return;
+        if (busy || fullDue) return;
+        if (performance.now() < nextFullAt && !safely(options.changed)) return;
         fullDue = true;
         kick();
       }, tickMs);
