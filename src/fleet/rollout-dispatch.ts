@@ -21,9 +21,10 @@ export interface AssignmentDispatcher {
    * Assigns a rollout's devices batch by batch: each batch's records in one transaction, then its sends,
    * started at once and not awaited; between batches the event loop turns, so the broker delivers the first
    * releases while later ones are recorded. Stops early when the rollout left `running` (or `rolling-back`).
-   * Resolves once everything is recorded and sent off, with the ms it spent waiting rather than working.
+   * Resolves once everything is recorded and sent off, with the ms it spent waiting rather than working and
+   * how many devices failed their gate because they could not be assigned (e.g. no longer enrolled).
    */
-  dispatch(r: RolloutRecord, devices: readonly RolloutDeviceRecord[], rollback: boolean, at: string): Promise<{ waitedMs: number }>;
+  dispatch(r: RolloutRecord, devices: readonly RolloutDeviceRecord[], rollback: boolean, at: string): Promise<{ waitedMs: number; failed: number }>;
   /** Resolves when every send started so far has its outcome (acknowledged by the broker, or failed and logged). */
   settled(): Promise<void>;
 }
@@ -63,12 +64,18 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
     }));
   }
 
-  /** What could not be recorded is settled now: logged, or (for a rollout) the device fails its gate. */
-  function settleUnrecorded(r: RolloutRecord, d: RolloutDeviceRecord, result: Exclude<RecordedAssignment, { ok: true }>, rollback: boolean, at: string) {
+  /** What could not be recorded is settled now: logged, or (for a rollout) the device fails its gate (true). */
+  function settleUnrecorded(r: RolloutRecord, d: RolloutDeviceRecord, result: Exclude<RecordedAssignment, { ok: true }>, rollback: boolean, at: string): boolean {
     if (result.code === 'not-recorded') {
       if (!(result.error instanceof AlreadyDone)) log(`rollout ${r.id}: ${d.deviceId} not assigned: ${result.message}`);
-    } else if (!rollback) repo.setDeviceStatus(r.id, d.deviceId, 'failed', result.message, at);
-    else log(`rollout ${r.id}: cannot restore ${d.deviceId}: ${result.message}`);
+      return false;
+    }
+    if (rollback) {
+      log(`rollout ${r.id}: cannot restore ${d.deviceId}: ${result.message}`);
+      return false;
+    }
+    repo.setDeviceStatus(r.id, d.deviceId, 'failed', result.message, at);
+    return true;
   }
 
   function sendOff(r: RolloutRecord, recorded: RecordedAssignment[]) {
@@ -95,6 +102,7 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
   return {
     dispatch: async function dispatch(r, devices, rollback, at) {
       let waitedMs = 0;
+      let failed = 0;
       if (parsed.size > PARSED_RELEASES_KEPT) parsed.clear();
       for (let i = 0; i < devices.length; i += deps.batchSize) {
         if (i > 0) {
@@ -103,15 +111,18 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
           while (sendsInFlight > deps.maxSendsInFlight && sending.size > 0) await Promise.race(sending);
           waitedMs += performance.now() - waitStart;
           // An operator may have paused or aborted the rollout while the loop turned.
-          if (!stillMoving(r, rollback)) return { waitedMs };
+          if (!stillMoving(r, rollback)) return { waitedMs, failed };
         }
         const batch = devices.slice(i, i + deps.batchSize);
         const recorded = recordAssignments(store, inputsOf(r, batch, rollback, at), parsed);
         const toSend: RecordedAssignment[] = [];
-        recorded.forEach((result, k) => (result.ok ? toSend.push(result) : settleUnrecorded(r, batch[k]!, result, rollback, at)));
+        recorded.forEach((result, k) => {
+          if (result.ok) toSend.push(result);
+          else if (settleUnrecorded(r, batch[k]!, result, rollback, at)) failed += 1;
+        });
         if (toSend.length > 0) sendOff(r, toSend);
       }
-      return { waitedMs };
+      return { waitedMs, failed };
     },
     settled: async function settled() {
       while (sending.size > 0) await Promise.all([...sending]);

@@ -151,7 +151,9 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       }
     });
     if (scope.kind === 'all') judgedWhole.set(r.id, wholeKey(r));
-    const { waitedMs } = await dispatcher.dispatch(r, toAssign, false, at);
+    const sent = await dispatcher.dispatch(r, toAssign, false, at);
+    const waitedMs = sent.waitedMs;
+    failed += sent.failed;
     // The wave's counts are read when it may have closed: always on a timer pass; on a short pass when a device
     // failed or the devices left open by the last count may all have settled.
     const hint = openHint.get(waveKey);
