@@ -128,8 +128,8 @@ export function createPassPacer(options: PacerOptions): PassPacer {
       fullDue = true;
       kick();
       timer = setInterval(() => {
-        if (busy || fullDue) return;
-        if (performance.now() < nextFullAt && !safely(options.changed)) return;
+        if (busy) return;
+        if (!fullDue && performance.now() < nextFullAt && !safely(options.changed)) return;
         fullDue = true;
         kick();
       }, tickMs);
