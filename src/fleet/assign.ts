@@ -124,6 +124,8 @@ export function recordAssignments(store: Store, inputs: readonly AssignInput[], 
         item.release.run();
         return { ok: true, assignment, release: p.signed, deviceId: p.device.id };
       } catch (error) {
+        // An error that made SQLite abandon the whole transaction leaves no savepoint to return to: the batch fails.
+        if (!store.db.inTransaction) throw error;
         item.rollback.run();
         item.release.run();
         return { ok: false, code: 'not-recorded', message: error instanceof Error ? error.message : String(error), error };
