@@ -8,6 +8,11 @@ import { createApp, createSigner } from '../src/api/index.js';
 import { generateSigningKeyPair } from '../src/protocol/signing.js';
 import { createBlobStore, loadOrCreateSigningKey, openStore } from '../src/store/index.js';
 import type { BenchFigure } from './figure.js';
+import { seededRandom } from '../device-agent/sim-driver.js';
+
+function percentile(sorted: number[], p: number): number {
+  return sorted[Math.min(sorted.length - 1, Math.ceil((p / 100) * sorted.length) - 1)]!;
+}
 
 const DEVICES = 1000;
 const EVENTS_PER_DEVICE = 10_000;
@@ -17,22 +22,6 @@ const WARMUP = 30;
 const START_MS = Date.parse('2025-03-01T00:00:00.000Z');
 const STEP_MS = (DAYS * 86_400_000) / EVENTS_PER_DEVICE;
 const TASKS = ['rows', 'leaves', 'fruit', 'dock'];
-
-// mulberry32: a small seeded generator (common practice for reproducible synthetic data).
-function seeded(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
-function percentile(sorted: number[], p: number): number {
-  return sorted[Math.min(sorted.length - 1, Math.ceil((p / 100) * sorted.length) - 1)]!;
-}
 
 /** Writes the synthetic fleet: devices, one release, one assignment each, and EVENTS_PER_DEVICE events each. */
 export function generate(dir: string, log: (line: string) => void): void {
@@ -51,7 +40,7 @@ export function generate(dir: string, log: (line: string) => void): void {
   db.pragma('cache_size = -262144');
   db.exec('DROP INDEX device_events_by_type');
   const insert = db.prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
-  const random = seeded(20250301);
+  const random = seededRandom(20250301);
   const t0 = performance.now();
   for (let d = 0; d < DEVICES; d++) {
     const id = `bench-dev-${String(d).padStart(4, '0')}`;
@@ -89,7 +78,7 @@ export async function run(): Promise<BenchFigure[]> {
     const store = openStore(dir);
     const secret = store.tokens.create({ role: 'viewer', label: 'bench viewer', actor: 'bench', at: new Date().toISOString() }).secret;
     const app = createApp({ store, blobs: createBlobStore(dir), signer: createSigner(loadOrCreateSigningKey(dir, generateSigningKeyPair)) });
-    const random = seeded(7);
+    const random = seededRandom(7);
     const times: number[] = [];
     let intervals = 0;
     for (let i = 0; i < WARMUP + QUERIES; i++) {

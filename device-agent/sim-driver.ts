@@ -37,7 +37,7 @@ export interface SimDriver extends ProfileDriver {
 }
 
 // mulberry32: a small seeded generator (common practice for reproducible simulations).
-function seededRandom(seed: number): () => number {
+export function seededRandom(seed: number): () => number {
   let a = seed >>> 0;
   return () => {
     a = (a + 0x6d2b79f5) >>> 0;
