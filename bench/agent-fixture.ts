@@ -2,23 +2,10 @@
 import { createHash } from 'node:crypto';
 import type { ReleaseTask } from '../src/protocol/index.js';
 import type { DeviceClass } from '../src/schema/device-class.js';
+import { demoDeviceClass } from '../tests/agent-fixtures.js';
 
-export const benchDeviceClass: DeviceClass = {
-  id: 'bench-rowcam',
-  name: 'Bench row camera (demo data)',
-  demoData: true,
-  lens: { focalLengthMm: 6, fNumberStops: [1.8, 2.8, 4, 5.6, 8], nearestFocusM: 0.1, focusSettleMsPerDioptre: 4, apertureStepMs: 10 },
-  sensor: {
-    widthPx: 1920, heightPx: 1080, pixelPitchUm: 3, quantumEfficiency: 0.6, fullWellE: 10000, darkNoiseE: 3,
-    gainDnPerE: 0.4, bitDepth: 10, maxAnalogGain: 16, readoutMsPerFrame: 8, readoutEnergyPjPerPixel: 50, designWavelengthNm: 550,
-  },
-  isp: { latencyMsPerFrame: 2, energyPjPerPixel: 20 },
-  accelerator: {
-    macUnits: 1024, clockMhz: 800, precision: 'int8', sramKib: 2048, dramBandwidthGbPerS: 12,
-    energyPjPerMac: 0.3, energyPjPerSramByte: 1, energyPjPerDramByte: 40, staticPowerMw: 300, flashReadMbPerS: 100,
-  },
-  platform: { powerBudgetW: 10 },
-};
+/** The agent tests' demo camera under its own id, so bench devices never mix with test ones. */
+export const benchDeviceClass: DeviceClass = { ...demoDeviceClass, id: 'bench-rowcam', name: 'Bench row camera (demo data)' };
 
 /** A task whose weights (64 KiB of deterministic bytes) are registered in `files` under its download path. */
 export function benchTask(modelId: string, files: Map<string, Buffer>, focusDistanceM: number, fNumber: number): ReleaseTask {

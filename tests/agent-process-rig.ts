@@ -14,28 +14,37 @@ export interface AgentProcess {
 
 const ROOT = new URL('..', import.meta.url).pathname;
 
-export function spawnAgent(args: string[]): AgentProcess {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'device-agent/main.ts', ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+/**
+ * Starts a TypeScript entry as a process and collects its output lines; `label` names it in errors. Used for
+ * the agent itself and for the fault tests' agent host.
+ */
+export function spawnTsProcess(entry: string, args: string[], label: string, env: NodeJS.ProcessEnv = process.env): AgentProcess {
+  const child = spawn(process.execPath, ['--import', 'tsx', entry, ...args], { cwd: ROOT, env, stdio: ['ignore', 'pipe', 'pipe'] });
   const output: string[] = [];
   child.stdout!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
   child.stderr!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
   const exited = new Promise<number | null>((resolve) => child.once('exit', (code) => resolve(code)));
+  const running = () => child.exitCode === null && child.signalCode === null;
   return {
     child,
     output,
     waitForOutput: async (pattern, what, timeoutMs = 30_000) => {
-      await waitFor(() => output.some((l) => pattern.test(l)) || child.exitCode !== null, what, timeoutMs);
-      if (!output.some((l) => pattern.test(l))) throw new Error(`agent exited before ${what}:\n${output.join('\n')}`);
+      await waitFor(() => output.some((l) => pattern.test(l)) || !running(), what, timeoutMs);
+      if (!output.some((l) => pattern.test(l))) throw new Error(`${label} exited before ${what}:\n${output.join('\n')}`);
     },
     kill: async () => {
-      if (child.exitCode === null) child.kill('SIGKILL');
+      if (running()) child.kill('SIGKILL');
       await exited;
     },
     stop: async () => {
-      if (child.exitCode === null) child.kill('SIGTERM');
+      if (running()) child.kill('SIGTERM');
       return exited;
     },
   };
+}
+
+export function spawnAgent(args: string[]): AgentProcess {
+  return spawnTsProcess('device-agent/main.ts', args, 'agent');
 }
 
 /** Runs `ocellus-agent <args>` to completion and returns its exit code and output. */

@@ -13,7 +13,7 @@ import { createApiClient, type ApiClient } from '../src/client/api-client.js';
 import { createClassRelease, loadScenario } from '../src/demo/load-scenario.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../src/demo/scenario.js';
 import { waitFor } from './agent-fixtures.js';
-import { spawnAgent, type AgentProcess } from './agent-process-rig.js';
+import { spawnAgent, spawnTsProcess, type AgentProcess } from './agent-process-rig.js';
 
 export const ROOT = new URL('..', import.meta.url).pathname;
 export const ADMIN_TOKEN = 'fault-test-admin-token-demo-data-0001';
@@ -44,31 +44,7 @@ export interface ServerProcess {
 
 /** Starts the fault tests' agent host (tests/fault-agent-host.ts) as a process, its hardware kept in `hardwareFile`. */
 export function startAgentHost(args: string[], hardwareFile: string): AgentProcess {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'tests/fault-agent-host.ts', ...args], {
-    cwd: ROOT,
-    env: { ...process.env, FAULT_HARDWARE_FILE: hardwareFile },
-    stdio: ['ignore', 'pipe', 'pipe'],
-  });
-  const output: string[] = [];
-  child.stdout!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
-  child.stderr!.on('data', (c: Buffer) => output.push(...c.toString('utf8').split('\n').filter(Boolean)));
-  const exited = new Promise<number | null>((resolve) => child.once('exit', (code) => resolve(code)));
-  return {
-    child,
-    output,
-    waitForOutput: async (pattern, what, timeoutMs = 30_000) => {
-      await waitFor(() => output.some((l) => pattern.test(l)) || child.exitCode !== null, what, timeoutMs);
-      if (!output.some((l) => pattern.test(l))) throw new Error(`agent host exited before ${what}:\n${output.join('\n')}`);
-    },
-    kill: async () => {
-      if (child.exitCode === null && child.signalCode === null) child.kill('SIGKILL');
-      await exited;
-    },
-    stop: async () => {
-      if (child.exitCode === null && child.signalCode === null) child.kill('SIGTERM');
-      return exited;
-    },
-  };
+  return spawnTsProcess('tests/fault-agent-host.ts', args, 'agent host', { ...process.env, FAULT_HARDWARE_FILE: hardwareFile });
 }
 
 /** Starts `ocellus serve` as a process and waits until it prints its URL. */
