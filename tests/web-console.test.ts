@@ -192,7 +192,8 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await until(() => (robot.agent.state().releaseId === releaseId ? true : undefined), `${robot.deviceId} to apply ${releaseId}`);
     const card = page.locator(`article[data-rollout="${rolloutId}"]`);
     await expect.poll(() => card.locator('.rollout-head').textContent(), { timeout: 30_000 }).toContain('completed');
-    expect(await card.locator(`[data-rollout-device="${robot.deviceId}"]`).getAttribute('data-status')).toBe('passed');
+    // The card's head comes from the rollout list and its devices from the rollout's own view, loaded just after.
+    await expect.poll(() => card.locator(`[data-rollout-device="${robot.deviceId}"]`).getAttribute('data-status'), { timeout: 10_000 }).toBe('passed');
     await rig.screenshot(page, 'rollouts');
     await page.context().close();
   });
