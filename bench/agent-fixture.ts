@@ -2,7 +2,7 @@
 import { createHash } from 'node:crypto';
 import type { ReleaseTask } from '../src/protocol/index.js';
 import type { DeviceClass } from '../src/schema/device-class.js';
-import { demoDeviceClass } from '../tests/agent-fixtures.js';
+import { demoDeviceClass } from '../tests/support/agent-fixtures.js';
 
 /** The agent tests' demo camera under its own id, so bench devices never mix with test ones. */
 export const benchDeviceClass: DeviceClass = { ...demoDeviceClass, id: 'bench-rowcam', name: 'Bench row camera (demo data)' };

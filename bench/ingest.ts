@@ -7,7 +7,7 @@ import { fileURLToPath } from 'node:url';
 import { startBus } from '../src/bus/start-bus.js';
 import { createDeviceEventRepository, type NewDeviceEvent } from '../src/store/device-events.js';
 import { openStore } from '../src/store/index.js';
-import { startServer } from '../src/runtime/start-server.js';
+import { startServer } from '../src/server/start-server.js';
 import { median, type BenchFigure } from './figure.js';
 import type { IngestFleetSettings } from './ingest-fleet.js';
 

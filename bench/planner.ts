@@ -1,5 +1,5 @@
 import { fileURLToPath } from 'node:url';
-import { findDocument, loadCatalog } from '../src/catalog/index.js';
+import { findDocument, loadCatalog } from '../src/document-files/index.js';
 import { plan } from '../src/plan/index.js';
 import { median } from './figure.js';
 import type { BenchFigure } from './figure.js';

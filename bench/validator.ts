@@ -1,5 +1,5 @@
 import { fileURLToPath } from 'node:url';
-import { loadCatalog, profilesOf, resolveProfile } from '../src/catalog/index.js';
+import { loadCatalog, profilesOf, resolveProfile } from '../src/document-files/index.js';
 import { validate } from '../src/validate/index.js';
 import { median } from './figure.js';
 import type { BenchFigure } from './figure.js';

@@ -3,21 +3,21 @@ import { createMetricsRegistry, PROMETHEUS_CONTENT_TYPE } from '../metrics/regis
 import { createChangeFeed } from './change-feed.js';
 import type { AppDeps, AppEnv, ResolvedDeps } from './context.js';
 import { DEFAULT_LIMITS } from './context.js';
-import { registerCalibrationRoutes } from './calibration-routes.js';
-import { registerDeviceRoutes } from './devices-routes.js';
-import { registerDocumentRoutes } from './documents-routes.js';
+import { registerCalibrationRoutes } from './routes/calibration.js';
+import { registerDeviceRoutes } from './routes/devices.js';
+import { registerDocumentRoutes } from './routes/documents.js';
 import { createErrorHandler, type ErrorBody } from './errors.js';
 import { createHttpMetrics } from './http-metrics.js';
 import { openApiDocument } from './openapi.js';
-import { registerPlanRoutes } from './plan-routes.js';
-import { registerHistoryRoutes } from './history-routes.js';
-import { registerProfileRoutes } from './profiles-routes.js';
-import { registerRolloutRoutes } from './rollouts-routes.js';
-import { registerReleaseRoutes } from './releases-routes.js';
+import { registerPlanRoutes } from './routes/plan.js';
+import { registerHistoryRoutes } from './routes/history.js';
+import { registerProfileRoutes } from './routes/profiles.js';
+import { registerRolloutRoutes } from './routes/rollouts.js';
+import { registerReleaseRoutes } from './routes/releases.js';
 import { createRouter } from './routing.js';
-import { registerTokenAndAuditRoutes } from './tokens-routes.js';
-import { registerWebRoutes } from './web-routes.js';
-import { registerWeightsRoutes } from './weights-routes.js';
+import { registerTokenAndAuditRoutes } from './routes/tokens.js';
+import { registerWebRoutes } from './routes/web.js';
+import { registerWeightsRoutes } from './routes/weights.js';
 
 function reportToStderr(error: unknown): void {
   process.stderr.write(`ocellus: internal error: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`);

@@ -1,11 +1,11 @@
 import type { MetricsRegistry } from '../metrics/registry.js';
 import type { ChangeFeed } from './change-feed.js';
-import type { ReleasePublisher } from '../fleet/assign.js';
+import type { ReleasePublisher } from '../fleet/rollout/assign.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
 import type { TokenRecord } from '../store/tokens.js';
 import type { ErrorReporter } from './errors.js';
-import type { Signer } from './signer.js';
+import type { Signer } from '../release/signer.js';
 
 export interface Clock {
   now(): Date;

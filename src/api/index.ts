@@ -1,13 +1,13 @@
 export { createApp } from './app.js';
-export { createSigner } from './signer.js';
+export { createSigner } from '../release/signer.js';
 export { HttpError } from './errors.js';
 export { ROUTES, API_BASE, routeSpec } from './route-table.js';
 export { openApiDocument } from './openapi.js';
-export { ASSIGN_CAUTION } from './devices-routes.js';
+export { ASSIGN_CAUTION } from './routes/devices.js';
 export { DEFAULT_LIMITS } from './context.js';
 export { createChangeFeed } from './change-feed.js';
 export type { ChangeFeed, FleetChange } from './change-feed.js';
 export type { AppDeps, ApiLimits, AppEnv, Clock, Principal } from './context.js';
-export type { Signer } from './signer.js';
+export type { Signer } from '../release/signer.js';
 export type { RouteSpec } from './route-table.js';
 export type { ErrorBody } from './errors.js';

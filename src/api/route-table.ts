@@ -1,13 +1,13 @@
 import type { z } from 'zod';
 import { driftQuerySchema, historyQuerySchema, reportQuerySchema, rolloutQuerySchema } from '../fleet/queries.js';
-import { rolloutRequestSchema } from '../fleet/rollout-spec.js';
+import { rolloutRequestSchema } from '../fleet/rollout/spec.js';
 import { deviceClassSchema } from '../schema/device-class.js';
 import { modelSchema } from '../schema/model.js';
 import { networkSchema } from '../schema/network.js';
 import { profileSchema } from '../schema/profile.js';
 import { taskSchema } from '../schema/task.js';
-import { deviceEventsQuerySchema } from './device-events-query.js';
-import { planRequestSchema } from './plan-request.js';
+import { deviceEventsQuerySchema } from './routes/device-events-query.js';
+import { planRequestSchema } from './routes/plan-request.js';
 import type { Access } from './roles.js';
 import {
   assignRequestSchema,

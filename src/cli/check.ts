@@ -1,7 +1,7 @@
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
-import { loadCatalog, mergeCatalogs, profilesOf, resolveProfile } from '../catalog/index.js';
-import type { CatalogIssue } from '../catalog/index.js';
+import { loadCatalog, mergeCatalogs, profilesOf, resolveProfile } from '../document-files/index.js';
+import type { CatalogIssue } from '../document-files/index.js';
 import type { Check, CheckStatus } from '../schema/index.js';
 import { formatReport, validate } from '../validate/index.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';

@@ -1,5 +1,5 @@
 import { relative, resolve } from 'node:path';
-import { readDocumentFile } from '../catalog/index.js';
+import { readDocumentFile } from '../document-files/index.js';
 import { acceleratorCost } from '../physics/accelerator.js';
 import { analyzeNetwork } from '../physics/network-cost.js';
 import { BYTES_PER_ELEMENT, InputError, precisionSchema } from '../schema/index.js';

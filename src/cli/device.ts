@@ -1,7 +1,7 @@
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { ApiError } from '../client/api-client.js';
+import { ApiError } from '../api-client/api-client.js';
 import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus device enrol ID --class D [--tag T]... [--server URL] [--token T] [--json]

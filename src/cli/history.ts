@@ -1,9 +1,9 @@
-import { INTERVAL_COLUMNS, toCsv } from '../fleet/csv.js';
-import type { HistoryInterval } from '../fleet/history.js';
+import { INTERVAL_COLUMNS, toCsv } from '../fleet/history/csv.js';
+import type { HistoryInterval } from '../fleet/history/intervals.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { ApiError } from '../client/api-client.js';
+import { ApiError } from '../api-client/api-client.js';
 import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus history DEVICE [--from ISO-TIME] [--to ISO-TIME] [--csv | --json] [--server URL] [--token T]

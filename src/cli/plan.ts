@@ -1,8 +1,8 @@
 import { existsSync } from 'node:fs';
 import { writeFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
-import { findDocument, loadCatalog } from '../catalog/index.js';
-import type { Catalog } from '../catalog/index.js';
+import { findDocument, loadCatalog } from '../document-files/index.js';
+import type { Catalog } from '../document-files/index.js';
 import { idSchema } from '../schema/index.js';
 import { candidateToProfile, plan } from '../plan/index.js';
 import type { Candidate, ModelCandidate, PlanOptions, PlanResult } from '../plan/index.js';

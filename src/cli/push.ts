@@ -1,7 +1,7 @@
 import { join, resolve } from 'node:path';
-import { loadCatalog } from '../catalog/index.js';
-import { ApiError } from '../client/api-client.js';
-import { inDependencyOrder, pushDocument, uploadWeightsFile, type PushOutcome } from '../client/push-documents.js';
+import { loadCatalog } from '../document-files/index.js';
+import { ApiError } from '../api-client/api-client.js';
+import { inDependencyOrder, pushDocument, uploadWeightsFile, type PushOutcome } from '../api-client/push-documents.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';

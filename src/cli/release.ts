@@ -2,7 +2,7 @@ import type { SignedRelease } from '../protocol/release.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { ApiError } from '../client/api-client.js';
+import { ApiError } from '../api-client/api-client.js';
 import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus release create --device-class D --task name=profileId[@revision]... [--default-task T]

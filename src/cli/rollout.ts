@@ -1,9 +1,9 @@
-import type { RolloutView } from '../fleet/rollout-service.js';
-import type { RolloutRequestInput, WaveSize } from '../fleet/rollout-spec.js';
+import type { RolloutView } from '../fleet/rollout/service.js';
+import type { RolloutRequestInput, WaveSize } from '../fleet/rollout/spec.js';
 import { guard, parseFlags, printJson, toNumber, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
-import { ApiError, type ApiClient } from '../client/api-client.js';
+import { ApiError, type ApiClient } from '../api-client/api-client.js';
 import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-client.js';
 
 export const usage = `usage: ocellus rollout create --release R (--device ID ... | [--class C] [--tag T ...]) [--waves 1,10%]

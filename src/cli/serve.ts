@@ -1,6 +1,6 @@
 import { resolve } from 'node:path';
 import { busForServer } from '../bus/start-bus.js';
-import { startServer } from '../runtime/start-server.js';
+import { startServer } from '../server/start-server.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';

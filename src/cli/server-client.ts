@@ -1,4 +1,4 @@
-import { ApiError, createApiClient, type ApiClient } from '../client/api-client.js';
+import { ApiError, createApiClient, type ApiClient } from '../api-client/api-client.js';
 import { UsageError } from './args.js';
 import type { CliIo } from './io.js';
 

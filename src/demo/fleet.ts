@@ -4,7 +4,7 @@ import { createAgent, type Agent } from '../../device-agent/agent.js';
 import { agentSettingsSchema } from '../../device-agent/config.js';
 import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
 import { systemClock } from '../../device-agent/clock.js';
-import { ApiError, type ApiClient } from '../client/api-client.js';
+import { ApiError, type ApiClient } from '../api-client/api-client.js';
 import { DEMO_CLASSES, type DemoClass } from './scenario.js';
 
 export interface DemoRobotSpec {

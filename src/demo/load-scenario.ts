@@ -1,7 +1,7 @@
 import { join } from 'node:path';
-import { loadCatalog } from '../catalog/index.js';
-import type { ApiClient } from '../client/api-client.js';
-import { inDependencyOrder, pushDocument, uploadWeightsFile } from '../client/push-documents.js';
+import { loadCatalog } from '../document-files/index.js';
+import type { ApiClient } from '../api-client/api-client.js';
+import { inDependencyOrder, pushDocument, uploadWeightsFile } from '../api-client/push-documents.js';
 import { canonicalJson } from '../protocol/canonical-json.js';
 import type { SignedRelease } from '../protocol/release.js';
 import type { Profile } from '../schema/profile.js';

@@ -3,7 +3,7 @@
  * between, and the revised profile that part of the fleet receives in a staged rollout.
  */
 import { fileURLToPath } from 'node:url';
-import type { RolloutRequestInput } from '../fleet/rollout-spec.js';
+import type { RolloutRequestInput } from '../fleet/rollout/spec.js';
 
 /** The example documents, models and stand-in weights. */
 export const DEMO_CATALOG_DIR = fileURLToPath(new URL('../../profiles/greenhouse-demo', import.meta.url));

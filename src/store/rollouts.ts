@@ -13,12 +13,12 @@ export interface RolloutRecord {
   releaseId: string;
   deviceClassId: string;
   status: RolloutStatus;
-  /** The rollout's settings as created (src/fleet/rollout-spec.ts), parsed from storage. */
+  /** The rollout's settings as created (src/fleet/rollout/spec.ts), parsed from storage. */
   spec: unknown;
   waveCount: number;
   currentWave: number;
   waveStartedAt: string | null;
-  /** Why the rollout stopped: the gate's failures (src/fleet/rollout-gate.ts), parsed from storage. */
+  /** Why the rollout stopped: the gate's failures (src/fleet/rollout/gate.ts), parsed from storage. */
   pauseReason: unknown;
   /** Who asked for the rollback (the actor of its re-assignments), once asked. */
   rollbackBy: string | null;

@@ -36,7 +36,7 @@ function Badge({ status, table }: { status: string; table: Record<string, { icon
   );
 }
 
-/** Why a rollout stopped: an operator's pause, or the devices that failed a wave's gate (src/fleet/rollout-engine.ts). */
+/** Why a rollout stopped: an operator's pause, or the devices that failed a wave's gate (src/fleet/rollout/engine.ts). */
 function pauseText(reason: unknown): string | null {
   if (reason === null || reason === undefined || typeof reason !== 'object') return reason ? String(reason) : null;
   const r = reason as { kind?: string; by?: string; wave?: number; failures?: Array<{ deviceId: string; reason: string }> };

@@ -1,0 +1,72 @@
+import { Readable } from 'node:stream';
+import type { Model } from '../../schema/model.js';
+import { actorOf } from '../auth.js';
+import { recordChange } from '../audit-log.js';
+import { readQuery, streamChunks } from '../body.js';
+import type { ResolvedDeps } from '../context.js';
+import { HttpError, notFound } from '../errors.js';
+import { decideRange, etagMatches } from '../http-range.js';
+import { weightsQuerySchema } from '../request-schemas.js';
+import type { Router } from '../routing.js';
+
+/** Streamed, hash-checked upload and resumable, cache-validated download of model weights. */
+export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
+  const { store, blobs } = deps;
+
+  route('models.weights.upload', async (c) => {
+    const id = c.req.param('id') ?? '';
+    const model = store.documents.latest<Model>('model', id);
+    if (!model) throw notFound(`model '${id}'`);
+    const { sha256, sizeBytes } = model.document;
+    const max = deps.limits.maxWeightsBytes;
+    const declared = Number(c.req.header('content-length'));
+    if (Number.isFinite(declared) && declared > max) {
+      throw new HttpError(413, `weights are larger than the ${max}-byte limit`, { issues: [{ path: 'body', message: `${declared} bytes` }] });
+    }
+    const result = await blobs.put(streamChunks(c.req.raw.body), { sha256, sizeBytes, maxBytes: max });
+    if (!result.ok) {
+      const status = result.reason === 'too-large' ? 413 : 400;
+      throw new HttpError(status, `weights refused for model '${id}' version ${model.version}`, { issues: [{ path: 'body', message: result.detail }] });
+    }
+    const at = deps.clock.now().toISOString();
+    store.transaction(() =>
+      recordChange(store, { at, actor: actorOf(c), action: 'model.weights.upload', target: `model/${id}`, detail: { version: model.version, sha256, sizeBytes: result.sizeBytes } }),
+    );
+    return c.json({ modelId: id, version: model.version, sha256, sizeBytes: result.sizeBytes }, 201);
+  });
+
+  route('models.weights.download', (c) => {
+    const id = c.req.param('id') ?? '';
+    const query = readQuery(c, weightsQuerySchema);
+    const history = store.documents.history<Model>('model', id);
+    if (history.length === 0) throw notFound(`model '${id}'`);
+    // Without ?sha256 the latest version's weights; with it, those of any version of this model (older releases).
+    const sha256 = query.sha256 ?? history[history.length - 1]!.document.sha256;
+    if (!history.some((v) => v.document.sha256 === sha256)) throw notFound(`weights ${sha256} of model '${id}'`);
+    const size = blobs.sizeOf(sha256);
+    if (size === null) throw notFound(`weights of model '${id}' (${sha256}) — not uploaded yet`);
+
+    const etag = `"${sha256}"`;
+    const common = { ETag: etag, 'Accept-Ranges': 'bytes', 'Cache-Control': 'no-cache' };
+    if (etagMatches(c.req.header('if-none-match'), etag)) return c.body(null, 304, common);
+
+    // If-Range (RFC 9110 §13.1.5): resume only when the client's copy is of these same bytes.
+    const ifRange = c.req.header('if-range');
+    const rangeHeader = ifRange !== undefined && ifRange.trim() !== etag ? undefined : c.req.header('range');
+    const decision = decideRange(rangeHeader, size);
+    if (decision.kind === 'unsatisfiable') {
+      throw new HttpError(416, `range not satisfiable: the weights are ${size} bytes`, {
+        issues: [{ path: 'headers.range', message: String(rangeHeader) }],
+        headers: { 'Content-Range': `bytes */${size}` },
+      });
+    }
+    const head = c.req.method === 'HEAD';
+    const range = decision.kind === 'partial' ? { start: decision.start, end: decision.end } : undefined;
+    const length = range ? range.end - range.start + 1 : size;
+    const body = head || length === 0 ? null : (Readable.toWeb(blobs.read(sha256, range)) as unknown as ReadableStream<Uint8Array>);
+    const headers: Record<string, string> = { ...common, 'Content-Type': 'application/octet-stream', 'Content-Length': String(length) };
+    if (range) headers['Content-Range'] = `bytes ${range.start}-${range.end}/${size}`;
+    const status = range ? 206 : 200;
+    return body === null ? c.body(null, status, headers) : c.body(body, status, headers);
+  });
+}

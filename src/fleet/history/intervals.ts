@@ -1,0 +1,125 @@
+import type { AssignmentRecord } from '../../store/devices.js';
+import type { Store } from '../../store/store.js';
+import { createEventRangeReader, type EventRangeReader, type RangeEvent } from './event-range.js';
+
+/** The server-side change that put an interval's release on the device. */
+export interface IntervalCause {
+  releaseId: string;
+  /** The rollout that assigned it (also set when a rollout's rollback restored it). */
+  rolloutId?: string;
+  /** Who made the assignment (a token's label#id, or the rollout's creator). */
+  actor?: string;
+  /** "manual", "rollout:<id>", "rollback:<id>": the assignment's recorded cause. */
+  assignment?: string;
+  assignedAt?: string;
+}
+
+/** One stretch of time during which a device ran one task profile. */
+export interface HistoryInterval {
+  deviceId: string;
+  task: string;
+  profileId: string;
+  profileRevision: number;
+  releaseId: string;
+  start: string;
+  /** null: still running (no later switch, and the window reaches the present). */
+  end: string | null;
+  /** Why the device switched into it (task-switched reason: local, command, release, startup, restore). */
+  reason: string;
+  /** Seq of the task-switched event that started it. */
+  seq: number;
+  cause: IntervalCause;
+}
+
+export interface HistoryWindow {
+  fromMs: number;
+  toMs: number;
+  /** The present, to tell "still running" from "ran past the window's end". */
+  nowMs: number;
+}
+
+/** Reads of a device's switch history; built once per store so prepared statements are reused. */
+export interface HistoryReader {
+  device(deviceId: string, window: HistoryWindow): HistoryInterval[];
+  /** Every device's intervals of one task (filter on the task name). */
+  task(task: string, window: HistoryWindow): HistoryInterval[];
+  /** Every device's intervals running one release. */
+  release(releaseId: string, window: HistoryWindow): HistoryInterval[];
+}
+
+/** Parses an assignment cause into the rollout it names, if any. */
+export function rolloutOfCause(cause: string): string | undefined {
+  const m = /^(?:rollout|rollback):(.+)$/.exec(cause);
+  return m ? m[1] : undefined;
+}
+
+function causeOf(releaseId: string, startMs: number, assignments: readonly AssignmentRecord[]): IntervalCause {
+  // The latest assignment of this release made before the switch; else the earliest one at all (device clock ahead).
+  let chosen: AssignmentRecord | undefined;
+  for (const a of assignments) {
+    if (a.releaseId !== releaseId) continue;
+    if (Date.parse(a.createdAt) <= startMs) chosen = a;
+    else if (!chosen) {
+      chosen = a;
+      break;
+    }
+  }
+  if (!chosen) return { releaseId };
+  const rolloutId = rolloutOfCause(chosen.cause);
+  return {
+    releaseId,
+    ...(rolloutId !== undefined ? { rolloutId } : {}),
+    actor: chosen.actor,
+    assignment: chosen.cause,
+    assignedAt: chosen.createdAt,
+  };
+}
+
+function intervalOf(deviceId: string, e: RangeEvent, start: string, end: string | null, assignments: readonly AssignmentRecord[]): HistoryInterval {
+  const body = e.event as { toTask: string; profileId: string; profileRevision: number; releaseId: string; reason: string };
+  return {
+    deviceId,
+    task: body.toTask,
+    profileId: body.profileId,
+    profileRevision: body.profileRevision,
+    releaseId: body.releaseId,
+    start,
+    end,
+    reason: body.reason,
+    seq: e.seq,
+    cause: causeOf(body.releaseId, Date.parse(start), assignments),
+  };
+}
+
+/**
+ * Intervals from task-switched events: one runs from a switch to the next, so they are contiguous and never
+ * overlap. Clipped to [from, to): the interval running at `from` starts at `from`, one running past `to`
+ * ends at `to`, and the latest one has end null while the window reaches the present.
+ */
+export function deviceHistory(reader: EventRangeReader, assignments: readonly AssignmentRecord[], deviceId: string, w: HistoryWindow): HistoryInterval[] {
+  const fromIso = new Date(w.fromMs).toISOString();
+  const toIso = new Date(w.toMs).toISOString();
+  const range = reader.seqRange(deviceId, w.fromMs, w.toMs);
+  const switches = reader.ofType(deviceId, 'task-switched', range);
+  const before = reader.lastBefore(deviceId, 'task-switched', range.loSeq);
+  const starts: Array<{ e: RangeEvent; start: string }> = [];
+  // A switch exactly at `from` starts the window itself; the one before it then ran for no time inside it.
+  if (before && (switches.length === 0 || Date.parse(switches[0]!.ts) > w.fromMs)) starts.push({ e: before, start: fromIso });
+  for (const e of switches) starts.push({ e, start: e.ts });
+  if (starts.length === 0) return [];
+  const after = reader.firstFrom(deviceId, 'task-switched', range.hiSeq);
+  const openEnd = after ? toIso : w.toMs >= w.nowMs ? null : toIso;
+  return starts.map((s, i) => intervalOf(deviceId, s.e, s.start, i + 1 < starts.length ? starts[i + 1]!.start : openEnd, assignments));
+}
+
+export function createHistoryReader(store: Pick<Store, 'db' | 'devices'>): HistoryReader {
+  const reader = createEventRangeReader(store.db);
+  const one = (deviceId: string, w: HistoryWindow) => deviceHistory(reader, store.devices.assignments(deviceId), deviceId, w);
+  const everyDevice = (w: HistoryWindow, keep: (i: HistoryInterval) => boolean) =>
+    store.devices.list().flatMap((d) => one(d.id, w).filter(keep));
+  return {
+    device: one,
+    task: (task, w) => everyDevice(w, (i) => i.task === task),
+    release: (releaseId, w) => everyDevice(w, (i) => i.releaseId === releaseId),
+  };
+}

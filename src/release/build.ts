@@ -1,0 +1,137 @@
+import { createHash } from 'node:crypto';
+import { z } from 'zod';
+import { RELEASE_FORMAT, releaseSchema, type Release, type ReleaseTask } from '../protocol/release.js';
+import type { DeviceClass } from '../schema/device-class.js';
+import type { InputIssue } from '../schema/issues.js';
+import type { Model } from '../schema/model.js';
+import type { Profile } from '../schema/profile.js';
+import type { Check } from '../schema/report.js';
+import type { Task } from '../schema/task.js';
+import type { BlobStore } from '../store/blobs.js';
+import type { Store } from '../store/store.js';
+import { badRequest, conflict, HttpError } from '../api/errors.js';
+import type { ReleaseRequest } from '../api/request-schemas.js';
+
+/** The figures of a validation report a release ships as the prediction for each task. */
+const predictionFiguresSchema = z.object({
+  latency: z.object({ inferenceMs: z.number().nonnegative(), totalMs: z.number().nonnegative() }),
+  energy: z.object({ inferenceMj: z.number().nonnegative(), totalMj: z.number().nonnegative() }),
+});
+
+/** Release ids: readable, and within the 64 characters of an id even for long device class ids. */
+export function releaseIdFor(deviceClassId: string, version: number): string {
+  const suffix = `-v${version}`;
+  if (deviceClassId.length + suffix.length <= 64) return `${deviceClassId}${suffix}`;
+  const tag = createHash('sha256').update(deviceClassId).digest('hex').slice(0, 8);
+  return `${deviceClassId.slice(0, 64 - suffix.length - tag.length - 1)}-${tag}${suffix}`;
+}
+
+export interface BuildContext {
+  store: Store;
+  blobs: BlobStore;
+  actor: string;
+  at: string;
+}
+
+/**
+ * Builds the release a request asks for from stored, immutable profile revisions. Refuses (as HttpError):
+ * unknown references (400), revisions for another device class or validated against an older version of it,
+ * weights not uploaded (409), and revisions whose checks failed (422, listing them) unless an override
+ * reason is given, which the release then carries. Call inside the transaction that stores the release,
+ * so the version number cannot be taken twice.
+ */
+export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Release {
+  const { store, blobs } = ctx;
+  const deviceClass = store.documents.latest<DeviceClass>('device-class', request.deviceClassId);
+  if (!deviceClass) {
+    throw badRequest('unknown device class', [{ path: 'deviceClassId', message: `no device class '${request.deviceClassId}' is stored` }]);
+  }
+  const missing: InputIssue[] = [];
+  const mismatched: InputIssue[] = [];
+  const failing: Record<string, Check[]> = {};
+  const tasks: Record<string, ReleaseTask> = {};
+
+  for (const [name, ref] of Object.entries(request.tasks)) {
+    const path = `tasks.${name}`;
+    const rev = store.profiles.revision<Profile>(ref.profileId, ref.revision);
+    if (!rev) {
+      const exists = store.profiles.latest(ref.profileId) !== null;
+      missing.push(
+        exists
+          ? { path: `${path}.revision`, message: `profile '${ref.profileId}' has no revision ${ref.revision}` }
+          : { path: `${path}.profileId`, message: `no profile '${ref.profileId}' is stored` },
+      );
+      continue;
+    }
+    if (rev.profile.deviceClassId !== request.deviceClassId) {
+      mismatched.push({ path, message: `profile '${ref.profileId}' revision ${ref.revision} is for device class '${rev.profile.deviceClassId}', not '${request.deviceClassId}'` });
+      continue;
+    }
+    if (rev.refs.deviceClass.version !== deviceClass.version) {
+      mismatched.push({
+        path,
+        message: `profile '${ref.profileId}' revision ${ref.revision} was validated against version ${rev.refs.deviceClass.version} of the device class; it is now at version ${deviceClass.version}: save a new revision`,
+      });
+      continue;
+    }
+    if (rev.status === 'fail') failing[name] = rev.report.checks.filter((ch) => ch.status === 'fail');
+    const model = store.documents.version<Model>('model', rev.refs.model.id, rev.refs.model.version)!;
+    const task = store.documents.version<Task>('task', rev.refs.task.id, rev.refs.task.version)!;
+    if (blobs.sizeOf(model.document.sha256) === null) {
+      mismatched.push({ path, message: `weights of model '${model.id}' version ${model.version} (${model.document.sha256}) are not uploaded` });
+      continue;
+    }
+    const figures = predictionFiguresSchema.safeParse(rev.report.figures);
+    if (!figures.success) {
+      mismatched.push({ path, message: `the report of profile '${ref.profileId}' revision ${ref.revision} has no latency and energy estimate to ship` });
+      continue;
+    }
+    tasks[name] = {
+      profileId: ref.profileId,
+      revision: ref.revision,
+      camera: rev.profile.camera,
+      memory: rev.profile.memory,
+      model: {
+        id: model.id,
+        version: model.document.version,
+        sha256: model.document.sha256,
+        sizeBytes: model.document.sizeBytes,
+        weightsPath: `/api/v1/models/${model.id}/weights`,
+      },
+      frameRateHz: task.document.frameRateHz,
+      predicted: {
+        inferenceMs: figures.data.latency.inferenceMs,
+        inferenceMj: figures.data.energy.inferenceMj,
+        frameLatencyMs: figures.data.latency.totalMs,
+        frameEnergyMj: figures.data.energy.totalMj,
+      },
+    };
+  }
+  if (missing.length > 0) throw badRequest('the release refers to profile revisions that are not stored', missing);
+  if (mismatched.length > 0) throw conflict('some profile revisions cannot go into this release', mismatched);
+  const failingNames = Object.keys(failing);
+  if (failingNames.length > 0 && !request.override) {
+    const issues = failingNames.flatMap((name) => failing[name]!.map((ch) => ({ path: `tasks.${name}`, message: `${ch.code}: ${ch.message}` })));
+    throw new HttpError(422, 'some profile revisions fail their checks; fix them, or give override.reason to release anyway', {
+      issues,
+      extra: { failingChecks: failing },
+    });
+  }
+
+  const version = store.releases.nextVersion(request.deviceClassId);
+  const release: Release = {
+    format: RELEASE_FORMAT,
+    id: releaseIdFor(request.deviceClassId, version),
+    version,
+    deviceClassId: request.deviceClassId,
+    deviceClass: deviceClass.document,
+    createdAt: ctx.at,
+    createdBy: ctx.actor,
+    applyPolicy: request.applyPolicy,
+    defaultTask: request.defaultTask,
+    tasks,
+    ...(failingNames.length > 0 && request.override ? { override: { reason: request.override.reason, by: ctx.actor } } : {}),
+  };
+  // The protocol schema is the contract with devices: a release that does not fit it is a fault here, not input.
+  return releaseSchema.parse(release);
+}

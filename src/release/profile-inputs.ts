@@ -1,0 +1,59 @@
+import type { DeviceClass } from '../schema/device-class.js';
+import type { InputIssue } from '../schema/issues.js';
+import type { Model } from '../schema/model.js';
+import type { Network } from '../schema/network.js';
+import { physicalLimitIssues, type Profile } from '../schema/profile.js';
+import type { Report } from '../schema/report.js';
+import type { Task } from '../schema/task.js';
+import type { RevisionRefs } from '../store/profiles.js';
+import type { Store } from '../store/store.js';
+import { validate } from '../validate/index.js';
+import { badRequest } from '../api/errors.js';
+
+export interface CheckedProfile {
+  report: Report;
+  refs: RevisionRefs;
+}
+
+/**
+ * Looks up the latest task, device class, model and its network a profile refers to, refuses settings
+ * the hardware cannot take, and validates the rest. Missing references and impossible settings are 400s
+ * naming the field; a profile that fails checks is not an input error: its report says so.
+ */
+export function checkProfile(store: Store, profile: Profile): CheckedProfile {
+  const task = store.documents.latest<Task>('task', profile.taskId);
+  const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
+  const model = store.documents.latest<Model>('model', profile.modelId);
+  const missing: InputIssue[] = [];
+  if (!task) missing.push({ path: 'taskId', message: `no task '${profile.taskId}' is stored` });
+  if (!deviceClass) missing.push({ path: 'deviceClassId', message: `no device class '${profile.deviceClassId}' is stored` });
+  if (!model) missing.push({ path: 'modelId', message: `no model '${profile.modelId}' is stored` });
+  const network = model ? store.documents.latest<Network>('network', model.document.networkId) : null;
+  if (model && !network) {
+    missing.push({ path: 'modelId', message: `model '${profile.modelId}' refers to network '${model.document.networkId}', which is not stored` });
+  }
+  if (missing.length > 0 || !task || !deviceClass || !model || !network) {
+    throw badRequest('the profile refers to documents that are not stored', missing);
+  }
+  const impossible = physicalLimitIssues(profile, deviceClass.document);
+  if (impossible.length > 0) {
+    throw badRequest(`settings device class '${deviceClass.id}' cannot physically take`, impossible);
+  }
+  const report = validate({
+    profile,
+    task: task.document,
+    deviceClass: deviceClass.document,
+    model: model.document,
+    network: network.document,
+  });
+  return {
+    // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
+    report: JSON.parse(JSON.stringify(report)) as Report,
+    refs: {
+      task: { id: task.id, version: task.version },
+      deviceClass: { id: deviceClass.id, version: deviceClass.version },
+      model: { id: model.id, version: model.version },
+      network: { id: network.id, version: network.version },
+    },
+  };
+}

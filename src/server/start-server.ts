@@ -1,0 +1,160 @@
+import type { AddressInfo } from 'node:net';
+import { serve, type ServerType } from '@hono/node-server';
+import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
+import type { ReleasePublisher } from '../fleet/rollout/assign.js';
+import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
+import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
+import { generateSigningKeyPair } from '../protocol/signing.js';
+import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
+import { seedAdminToken, type AdminSeed } from './admin-seed.js';
+
+/** What the bus hook is handed: the open store and the metrics registry, both shared with the HTTP API. */
+export interface BusContext {
+  store: Store;
+  metrics: MetricsRegistry;
+  log: (line: string) => void;
+}
+
+/** What a started bus gives back: the publisher assignments use, a description for the log, and how to stop it. */
+export interface BusAttachment {
+  publisher: ReleasePublisher;
+  /** e.g. the broker URL devices connect to; logged and returned by startServer. */
+  description?: string;
+  /** Calls the listener with the devices whose state or events the bus just stored; feeds the console's live updates. */
+  onDevicesStored?(listener: (deviceIds: string[]) => void): () => void;
+  close(): Promise<void>;
+}
+
+export interface StartServerOptions {
+  /** Folder of the database, the weights and the signing key; created when missing. */
+  dataDir: string;
+  /** Loopback by default: the server is meant for one site's network. */
+  host?: string;
+  /** 8080 by default; 0 picks a free port. */
+  port?: number;
+  /** Largest model weights upload, in bytes. */
+  maxWeightsBytes?: number;
+  /** Seeds an admin token with this secret when the store has no tokens yet (first start). */
+  adminToken?: string;
+  clock?: Clock;
+  log?: (line: string) => void;
+  /**
+   * Starts the MQTT side (embedded broker or a connection to an external one, and the bridge) once the store
+   * is open and before HTTP listens. Its publisher is handed to the API's release assignments; it is closed
+   * first on shutdown. Without it the server records assignments but cannot send them.
+   */
+  bus?: (context: BusContext) => Promise<BusAttachment>;
+  /** The rollout engine's timing (tick, calibration refresh, drift tolerance); tests shorten them. */
+  fleet?: Omit<RolloutEngineOptions, 'log'>;
+  /** The built web console served on `/` (default: dist/console, built by npm install). */
+  consoleDir?: string;
+}
+
+export interface RunningServer {
+  url: string;
+  host: string;
+  port: number;
+  dataDir: string;
+  store: Store;
+  metrics: MetricsRegistry;
+  /** Whether OCELLUS_ADMIN_TOKEN (adminToken) was stored on this start, or why not. */
+  adminSeed: AdminSeed;
+  /** The bus's description (e.g. broker URL), or null without a bus. */
+  bus: string | null;
+  /** Stops the bus, the HTTP server (open connections included) and the database, in that order. */
+  close(): Promise<void>;
+}
+
+function listen(server: ServerType): Promise<AddressInfo> {
+  return new Promise((resolve, reject) => {
+    const onError = (e: Error) => reject(e);
+    server.once('error', onError);
+    server.once('listening', () => {
+      server.off('error', onError);
+      resolve(server.address() as AddressInfo);
+    });
+  });
+}
+
+/** Composes the store, blob store, signing key, bus and HTTP API, and starts listening. */
+export async function startServer(options: StartServerOptions): Promise<RunningServer> {
+  const log = options.log ?? (() => {});
+  const host = options.host ?? '127.0.0.1';
+  const store = openStore(options.dataDir);
+  let bus: BusAttachment | null = null;
+  let stopEngine: () => Promise<void> = async () => {};
+  try {
+    const blobs = createBlobStore(options.dataDir);
+    const key = loadOrCreateSigningKey(options.dataDir, generateSigningKeyPair);
+    const signer = createSigner(key);
+    const metrics = createMetricsRegistry();
+    const adminSeed = seedAdminToken(store, options.adminToken, (options.clock?.now() ?? new Date()).toISOString());
+
+    // The bus starts here, before HTTP, so the first assignment already has a publisher.
+    if (options.bus) bus = await options.bus({ store, metrics, log });
+
+    const changes = createChangeFeed();
+    bus?.onDevicesStored?.((deviceIds) => changes.publish({ kind: 'devices', deviceIds }));
+    const app = createApp({
+      store,
+      changes,
+      ...(options.consoleDir !== undefined ? { consoleDir: options.consoleDir } : {}),
+      blobs,
+      signer,
+      metrics,
+      ...(options.clock ? { clock: options.clock } : {}),
+      ...(bus ? { publisher: bus.publisher } : {}),
+      ...(options.maxWeightsBytes !== undefined ? { limits: { maxWeightsBytes: options.maxWeightsBytes } } : {}),
+    });
+    // Rollouts carry on from the database: one left running by an earlier process continues here. Devices'
+    // reports wake the engine, so a gate is judged as soon as its facts are stored.
+    const reports = bus?.onDevicesStored?.bind(bus);
+    const engine = createRolloutEngine({
+      store,
+      publisher: bus?.publisher,
+      clock: options.clock ?? { now: () => new Date() },
+      log,
+      ...(reports ? { onDevicesStored: reports } : {}),
+      ...options.fleet,
+    });
+    engine.start();
+    stopEngine = () => engine.stop();
+    const server = serve({ fetch: app.fetch, port: options.port ?? 8080, hostname: host });
+    const address = await listen(server);
+    const urlHost = address.family === 'IPv6' ? `[${address.address}]` : address.address;
+    const url = `http://${urlHost}:${address.port}`;
+    log(`ocellus: serving ${url} (data ${options.dataDir}, signing key ${signer.keyId})`);
+    if (bus?.description) log(`ocellus: bus ${bus.description}`);
+
+    let closing: Promise<void> | null = null;
+    const attached = bus;
+    return {
+      url,
+      host: address.address,
+      port: address.port,
+      dataDir: options.dataDir,
+      store,
+      metrics,
+      adminSeed,
+      bus: attached?.description ?? null,
+      close: function close() {
+        closing ??= (async () => {
+          await stopEngine();
+          await attached?.close();
+          await new Promise<void>((resolve) => {
+            server.close(() => resolve());
+            // Keep-alive connections would hold close() open; end them.
+            if ('closeAllConnections' in server) server.closeAllConnections();
+          });
+          store.close();
+        })();
+        return closing;
+      },
+    };
+  } catch (e) {
+    await stopEngine().catch(() => undefined);
+    await bus?.close().catch(() => undefined);
+    store.close();
+    throw e;
+  }
+}

@@ -1,0 +1,116 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { demoRelease, demoTask, demoWeights, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
+import { agentConfig, startBusRig, startWeightsServer, writeProcessConfig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
+import { runAgentCommand, spawnAgent, type AgentProcess } from '../support/agent-process-rig.js';
+import { callControl } from '../../device-agent/control-client.js';
+import type { ControlEndpoint } from '../../device-agent/control-server.js';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+
+const rows = demoWeights('rows-net p');
+const leaves = demoWeights('leaf-net p');
+const tasks = { rows: demoTask('rows-net', rows, 0.5, 4), leaves: demoTask('leaf-net', leaves, 0.25, 2.8) };
+
+let bus: BusRig;
+let web: WeightsServer;
+const cleanups: Array<() => unknown> = [];
+
+beforeAll(async () => {
+  bus = await startBusRig();
+  web = await startWeightsServer();
+  web.files.set('/api/v1/models/rows-net/weights', rows.bytes);
+  web.files.set('/api/v1/models/leaf-net/weights', leaves.bytes);
+});
+afterAll(async () => {
+  for (const c of cleanups.reverse()) await c();
+  await web.close();
+  await bus.close();
+});
+
+function events(id: string): Array<Record<string, unknown>> {
+  return (bus.store.db.prepare('SELECT event FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[]).map((e) => JSON.parse(e));
+}
+
+function setUp(label: string) {
+  const id = uniqueDeviceId(label);
+  const dir = tempDir(label);
+  const config = agentConfig(id, bus.enrol(id), bus.brokerUrl, web.url, join(dir.path, 'data'));
+  const configPath = writeProcessConfig(dir.path, config);
+  const procs: AgentProcess[] = [];
+  cleanups.push(async () => {
+    for (const p of procs) await p.kill();
+    dir.remove();
+  });
+  return {
+    id,
+    dataDir: config.dataDir,
+    start: async () => {
+      const p = spawnAgent(['--config', configPath]);
+      procs.push(p);
+      await p.waitForOutput(/agent: connected to/, 'agent connected');
+      await p.waitForOutput(/agent: control endpoint/, 'control endpoint open');
+      return p;
+    },
+    endpoint: () => JSON.parse(readFileSync(join(config.dataDir, 'control.json'), 'utf8')) as ControlEndpoint,
+  };
+}
+
+describe('agent as a process (embedded broker)', () => {
+  it('switches task with the broker gone, then delivers the events once the broker is back', async () => {
+    const s = setUp('offline');
+    await s.start();
+    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-p1', 1, tasks)));
+    await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
+    await bus.stopBroker();
+    const r = await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir]);
+    expect(r.code).toBe(0);
+    expect(JSON.parse(r.stdout)).toMatchObject({ ok: true, task: 'leaves' });
+    const state = await callControl(s.endpoint(), 'GET', '/state');
+    expect(state.body).toMatchObject({ online: false, activeTask: 'leaves', releaseId: 'rel-p1' });
+    await bus.startBroker();
+    await waitFor(() => events(s.id).some((e) => e.type === 'task-switched' && e.toTask === 'leaves'), 'the offline switch reaches the server');
+    const switched = events(s.id).find((e) => e.type === 'task-switched' && e.toTask === 'leaves')!;
+    expect(switched).toMatchObject({ fromTask: 'rows', reason: 'local', releaseId: 'rel-p1' });
+    await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'leaves', 'state after reconnect');
+  });
+
+  it('converges on a release assigned while it was off, after re-applying its last task on restart', async () => {
+    const s = setUp('restart');
+    const first = await s.start();
+    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-q1', 1, tasks)));
+    await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
+    expect((await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir])).code).toBe(0);
+    await waitFor(() => events(s.id).some((e) => e.type === 'task-switched' && e.toTask === 'leaves'), 'switch stored');
+    await first.kill();
+    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-q2', 2, tasks)));
+    await s.start();
+    await waitFor(() => bus.bridge.deviceStates.get(s.id)?.releaseId === 'rel-q2', 'rel-q2 applied after restart');
+    const all = events(s.id);
+    const afterRestart = all.slice(all.map((e) => e.type).lastIndexOf('agent-started'));
+    expect(afterRestart.map((e) => e.type)).toEqual(['agent-started', 'task-switched', 'release-applied', 'task-switched']);
+    expect(afterRestart[1]).toMatchObject({ reason: 'startup', toTask: 'leaves', releaseId: 'rel-q1', fromTask: null });
+    expect(afterRestart[3]).toMatchObject({ reason: 'release', toTask: 'leaves', releaseId: 'rel-q2' });
+    expect(bus.bridge.deviceStates.get(s.id)).toMatchObject({ online: true, activeTask: 'leaves' });
+  });
+
+  it('loses no event and stores none twice when the broker restarts mid-stream', async () => {
+    const s = setUp('stream');
+    await s.start();
+    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-s1', 1, tasks)));
+    await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
+    let moving = false;
+    for (let round = 0; round < 3; round++) {
+      for (let i = 0; i < 150; i++) {
+        moving = !moving;
+        await callControl(s.endpoint(), 'POST', '/motion', { moving });
+      }
+      await bus.restartBroker();
+    }
+    const state = (await callControl(s.endpoint(), 'GET', '/state')).body as { lastSeq: number };
+    expect(state.lastSeq).toBeGreaterThanOrEqual(450);
+    await waitFor(() => bus.store.db.prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get(s.id) === state.lastSeq, 'every event acked', 30_000);
+    const seqs = bus.store.db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(s.id) as number[];
+    expect(seqs).toEqual(Array.from({ length: state.lastSeq }, (_v, i) => i + 1));
+    expect(events(s.id).filter((e) => e.type === 'motion')).toHaveLength(450);
+  });
+});

@@ -1,0 +1,56 @@
+import { existsSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { busForServer } from '../../src/bus/start-bus.js';
+import { createApiClient, type ApiClient } from '../../src/api-client/api-client.js';
+import { createClassRelease, loadScenario } from '../../src/demo/load-scenario.js';
+import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../../src/demo/scenario.js';
+import { startServer, type RunningServer } from '../../src/server/start-server.js';
+import { createDeviceStateRepository } from '../../src/store/device-state.js';
+import { releaseWeights } from '../../device-agent/weights-cache.js';
+import { tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
+import { spawnAgent, type AgentProcess } from '../support/agent-process-rig.js';
+
+// The whole path with the real server: weights pushed through the API, a release signed by the server,
+// assigned through the API, fetched by an agent process over HTTP Basic with Range support (demo data).
+describe('agent process against the real server (HTTP API, signed release, embedded broker)', () => {
+  const dir = tempDir('agent-server');
+  let server: RunningServer;
+  let api: ApiClient;
+  const procs: AgentProcess[] = [];
+  const adminToken = 'agent-server-test-admin-token-0123456789';
+
+  beforeAll(async () => {
+    server = await startServer({ dataDir: join(dir.path, 'server'), port: 0, adminToken, log: () => {}, bus: busForServer({ embedded: { port: 0 } }) });
+    api = createApiClient(server.url, adminToken);
+    await loadScenario(api, DEMO_CATALOG_DIR);
+  });
+  afterAll(async () => {
+    for (const p of procs) await p.kill();
+    await server?.close();
+    dir.remove();
+  });
+
+  it('applies a server-signed release with weights downloaded from the server', async () => {
+    const demoClass = DEMO_CLASSES[0]!;
+    const signed = await createClassRelease(api, demoClass);
+    const { publicKeyPem } = await api.json<{ publicKeyPem: string }>('GET', '/api/v1/signing-key');
+    const id = uniqueDeviceId('srv');
+    const enrolled = await api.json<{ mqtt: { password: string } }>('POST', '/api/v1/devices', { id, deviceClassId: demoClass.deviceClassId, tags: ['test'] });
+    const brokerUrl = /mqtt:\/\/[^\s]+/.exec(server.bus ?? '')![0];
+    const keyPath = join(dir.path, 'server.pem');
+    writeFileSync(keyPath, publicKeyPem);
+    const dataDir = join(dir.path, 'agent');
+    const agent = spawnAgent([
+      '--device-id', id, '--device-class-id', demoClass.deviceClassId, '--broker-url', brokerUrl, '--password', enrolled.mqtt.password,
+      '--server-url', server.url, '--public-key-path', keyPath, '--data-dir', dataDir, '--control-port', '0', '--sim-time-scale', '0',
+    ]);
+    procs.push(agent);
+    await agent.waitForOutput(/agent: connected to/, 'agent connected');
+    await api.json('POST', `/api/v1/devices/${id}/assign`, { releaseId: signed.release.id });
+    const states = createDeviceStateRepository(server.store.db);
+    await waitFor(() => states.get(id)?.releaseId === signed.release.id, 'the release applied on the device', 30_000);
+    expect(states.get(id)).toMatchObject({ online: true, activeTask: signed.release.defaultTask });
+    for (const model of releaseWeights(signed.release)) expect(existsSync(join(dataDir, 'weights', model.sha256))).toBe(true);
+  });
+});

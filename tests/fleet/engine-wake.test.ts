@@ -1,0 +1,91 @@
+/**
+ * The rollout engine woken by devices' reports (the bridge's onStored) rather than by its timer, and its timer
+ * passes left with the clock's verdicts only. Real SQLite, the embedded broker, the bus bridge and real agents
+ * (demo data: greenhouse row cameras).
+ */
+import mqtt from 'mqtt';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { createRolloutEngine } from '../../src/fleet/rollout/engine.js';
+import { createRolloutService } from '../../src/fleet/rollout/service.js';
+import { rolloutRequestSchema } from '../../src/fleet/rollout/spec.js';
+import { PROTOCOL_VERSION, deviceTopic, type StateMessage } from '../../src/protocol/index.js';
+import { waitFor } from '../support/agent-fixtures.js';
+import { startFleetRig, type FleetRig } from '../support/fleet-rig.js';
+
+const HOUR_MS = 3_600_000;
+const ids = ['gh-wake-01', 'gh-wake-02', 'gh-wake-03'];
+let rig: FleetRig;
+
+const rolloutOf = async (id: string) => (await rig.call('GET', `/api/v1/rollouts/${id}`)).body;
+
+beforeAll(async () => {
+  // The rig's own engine gets an hour-long tick: after its first pass it moves only when told to or woken.
+  rig = await startFleetRig({ tickMs: HOUR_MS, calibrationEveryMs: HOUR_MS });
+  rig.storeRelease('gh-wake-rel-1', 1);
+  for (const id of ids) {
+    rig.enrol(id, ['wake']);
+    await rig.startAgent(id);
+  }
+  await waitFor(() => ids.every((id) => rig.bridge.deviceStates.get(id)?.online), 'every agent online in the store', 30_000);
+}, 60_000);
+
+afterAll(async () => {
+  await rig?.close();
+});
+
+describe('rollout engine woken by device reports', () => {
+  it('after one pass assigns the wave, the devices\' reports alone carry it through the gate to completion', async () => {
+    const created = await rig.call('POST', '/api/v1/rollouts', {
+      releaseId: 'gh-wake-rel-1',
+      target: { deviceIds: ids },
+      waves: ['100%'],
+      gate: { telemetryFrames: 0 },
+    });
+    expect(created.status).toBe(201);
+    await rig.engine.tick();
+    const assigned = await rolloutOf(created.body.id);
+    expect(assigned.devices.map((d: { status: string }) => d.status)).not.toContain('waiting');
+    // No timer pass comes within the hour: completion can only come from passes the reports woke.
+    const done = await waitFor(async () => {
+      const r = await rolloutOf(created.body.id);
+      return r.status === 'completed' ? r : null;
+    }, 'rollout completed by reports', 30_000);
+    expect(done.devices.every((d: { status: string; appliedAt: string | null }) => d.status === 'passed' && d.appliedAt !== null)).toBe(true);
+  });
+
+  it('a device that never applies fails its apply timeout on a timer pass, by the engine\'s clock', async () => {
+    // A second engine with a clock the test moves; the rig's engine stays idle (hour-long tick, nothing moving).
+    let nowMs = Date.now();
+    const clock = { now: () => new Date(nowMs) };
+    const engine = createRolloutEngine({ store: rig.store, publisher: rig.bridge, clock, onDevicesStored: (l) => rig.bridge.onStored(l), tickMs: 20, calibrationEveryMs: HOUR_MS });
+    // A device that says it is online and then ignores every release (a bare MQTT client, no agent).
+    const mute = 'gh-wake-mute';
+    const password = rig.enrol(mute, ['mute']);
+    const client = await mqtt.connectAsync(rig.broker.url, { username: mute, password, clientId: mute, reconnectPeriod: 0 });
+    const state: StateMessage = {
+      v: PROTOCOL_VERSION, online: true, agentVersion: 'test-mute-0', ts: new Date().toISOString(), releaseId: null, releaseVersion: null,
+      activeTask: null, profileId: null, profileRevision: null, moving: false, pending: null, refused: null, lastSeq: 0,
+    };
+    await client.publishAsync(deviceTopic(mute, 'state'), JSON.stringify(state), { qos: 1, retain: true });
+    await waitFor(() => rig.bridge.deviceStates.get(mute)?.online, 'the mute device online in the store');
+    try {
+      const service = createRolloutService(rig.store);
+      const request = rolloutRequestSchema.parse({ releaseId: 'gh-wake-rel-1', target: { deviceIds: [mute] }, waves: ['100%'], gate: { applyTimeoutS: 30, telemetryFrames: 0 } });
+      const created = service.create(request, 'test operator', clock.now().toISOString());
+      if (!created.ok) throw new Error(created.message);
+      engine.start();
+      await waitFor(() => service.view(created.value.id)?.devices[0]?.status === 'assigned', 'the mute device assigned');
+      expect(service.view(created.value.id)!.status).toBe('running');
+      // 31 s later by the engine's clock (rule: fail after applyTimeoutS; the gate's settings, common practice).
+      nowMs += 31_000;
+      const paused = await waitFor(() => {
+        const v = service.view(created.value.id)!;
+        return v.status === 'paused' ? v : null;
+      }, 'rollout paused by the apply timeout');
+      expect(paused.devices[0]).toMatchObject({ deviceId: mute, status: 'failed', reason: 'not applied within 30 s' });
+    } finally {
+      await engine.stop();
+      await client.endAsync(true);
+    }
+  });
+});

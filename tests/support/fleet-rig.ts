@@ -1,0 +1,135 @@
+/**
+ * A rig for the fleet tests: a real SQLite store in a temporary folder, the embedded MQTT broker, the bus
+ * bridge, the real HTTP API in-process, the rollout engine on a short tick, a real HTTP server for weights,
+ * and in-process agents built with the agent's factory and the simulated driver (demo data throughout).
+ */
+import mqtt, { type MqttClient } from 'mqtt';
+import { createApp, createSigner } from '../../src/api/index.js';
+import { createBridge, type Bridge } from '../../src/bus/bridge.js';
+import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.js';
+import { createRolloutEngine, type RolloutEngine, type RolloutEngineOptions } from '../../src/fleet/rollout/engine.js';
+import { generateSigningKeyPair } from '../../src/protocol/signing.js';
+import type { SignedRelease } from '../../src/protocol/release.js';
+import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../../src/store/index.js';
+import { createAgent, type Agent } from '../../device-agent/agent.js';
+import type { AgentConfig } from '../../device-agent/config.js';
+import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
+import { systemClock } from '../../device-agent/clock.js';
+import { demoDeviceClass, demoRelease, demoTask, demoWeights, sign, tempDir } from './agent-fixtures.js';
+import { agentConfig, startWeightsServer, type WeightsServer } from './agent-rig.js';
+
+/** Demo data: two tasks of a greenhouse row camera, with the weights the weights server hands out. */
+export const rowsWeights = demoWeights('fleet rows-net');
+export const leavesWeights = demoWeights('fleet leaf-net');
+export const demoTasks = { rows: demoTask('rows-net', rowsWeights, 0.5, 4), leaves: demoTask('leaf-net', leavesWeights, 0.25, 2.8) };
+
+export interface FleetAgent {
+  id: string;
+  agent: Agent;
+  driver: SimDriver;
+  config: AgentConfig;
+}
+
+export interface FleetRig {
+  store: Store;
+  bridge: Bridge;
+  broker: EmbeddedBroker;
+  engine: RolloutEngine;
+  web: WeightsServer;
+  operatorToken: string;
+  /** JSON request to the in-process API as the operator. */
+  call(method: string, path: string, body?: unknown): Promise<{ status: number; body: any }>;
+  /** Stores a release signed with the test key (demo data). */
+  storeRelease(id: string, version: number): SignedRelease;
+  enrol(deviceId: string, tags?: string[]): string;
+  /**
+   * Starts an in-process agent; `publicKeyPem` overrides the key it trusts. `simSpeedup` runs the simulated
+   * driver's clock that many times faster, so a short real telemetry interval covers many simulated frames.
+   */
+  startAgent(deviceId: string, extra?: Partial<AgentConfig>, simSpeedup?: number): Promise<FleetAgent>;
+  close(): Promise<void>;
+}
+
+const SERVER_USER = { username: 'fleet-test-server', password: 'fleet-test-server-secret' };
+
+export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): Promise<FleetRig> {
+  const dir = tempDir('fleet');
+  const store = openStore(dir.path);
+  const passwords = new Map<string, string>();
+  const agentDirs: Array<{ remove(): void }> = [];
+  const agents = new Set<FleetAgent>();
+  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: (id, pw) => store.verifyDeviceCredentials(id, pw) });
+  const client: MqttClient = await mqtt.connectAsync(broker.url, { ...SERVER_USER, reconnectPeriod: 200, clean: true });
+  const bridge = createBridge({ mqttClient: client, store, clock: { now: () => new Date() } });
+  const web = await startWeightsServer();
+  web.files.set('/api/v1/models/rows-net/weights', rowsWeights.bytes);
+  web.files.set('/api/v1/models/leaf-net/weights', leavesWeights.bytes);
+  // Wired as the server wires it: devices' reports wake the engine.
+  const engine = createRolloutEngine({
+    store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener), tickMs: 50, ...engineOptions,
+  });
+  engine.start();
+  const key = loadOrCreateSigningKey(dir.path, generateSigningKeyPair);
+  const app = createApp({ store, blobs: createBlobStore(dir.path), signer: createSigner(key), publisher: bridge, onError: (e) => { throw e; } });
+  const operatorToken = store.tokens.create({ role: 'operator', label: 'fleet test operator', actor: 'test set-up', at: new Date().toISOString() }).secret;
+
+  function enrol(deviceId: string, tags: string[] = []): string {
+    if (!passwords.has(deviceId)) {
+      const r = store.devices.enrol({ id: deviceId, deviceClassId: demoDeviceClass.id, tags, actor: 'test', at: new Date().toISOString() });
+      passwords.set(deviceId, r!.password);
+    }
+    return passwords.get(deviceId)!;
+  }
+
+  return {
+    store,
+    bridge,
+    broker,
+    engine,
+    web,
+    operatorToken,
+    async call(method, path, body) {
+      const res = await app.request(path, {
+        method,
+        headers: { authorization: `Bearer ${operatorToken}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
+        ...(body === undefined ? {} : { body: JSON.stringify(body) }),
+      });
+      const text = await res.text();
+      return { status: res.status, body: text && res.headers.get('content-type')?.includes('json') ? JSON.parse(text) : text };
+    },
+    storeRelease(id, version) {
+      const signed = sign(demoRelease(id, version, demoTasks));
+      store.releases.insert({ id, deviceClassId: demoDeviceClass.id, version, createdAt: new Date().toISOString(), createdBy: 'test (demo data)', signed });
+      return signed;
+    },
+    enrol,
+    async startAgent(deviceId, extra = {}, simSpeedup = 1) {
+      const d = tempDir(`agent-${deviceId}`);
+      agentDirs.push(d);
+      const config = agentConfig(deviceId, enrol(deviceId), broker.url, web.url, extra.dataDir ?? d.path, { telemetryIntervalS: 0.2, ...extra });
+      const simClock = { now: () => systemClock.now(), monotonicMs: () => systemClock.monotonicMs() * simSpeedup };
+      const driver = createSimDriver({ clock: simClock, timeScale: 0, seed: config.simSeed, efficiency: config.simEfficiency });
+      const agent = createAgent({ config, driver });
+      await agent.start();
+      const a = { id: deviceId, agent, driver, config };
+      agents.add(a);
+      const stop = agent.stop.bind(agent);
+      agent.stop = async () => {
+        agents.delete(a);
+        await stop();
+      };
+      return a;
+    },
+    async close() {
+      await engine.stop();
+      for (const a of [...agents]) await a.agent.stop();
+      await bridge.close();
+      await client.endAsync(true);
+      await broker.close();
+      await web.close();
+      store.close();
+      for (const d of agentDirs) d.remove();
+      dir.remove();
+    },
+  };
+}
