@@ -5,7 +5,7 @@
  */
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { recordAssignments, type ParsedReleases } from '../../src/fleet/rollout/assign.js';
-import { createEventRangeReader } from '../../src/fleet/history/event-range.js';
+import { createEventRangeReader } from '../../src/store/event-ranges.js';
 import { createAssignmentDispatcher } from '../../src/fleet/rollout/dispatch.js';
 import type { SignedRelease } from '../../src/protocol/release.js';
 import { createRolloutRepository } from '../../src/store/rollouts.js';

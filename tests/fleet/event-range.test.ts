@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createEventRangeReader } from '../../src/fleet/history/event-range.js';
+import { createEventRangeReader } from '../../src/store/event-ranges.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { tempDir } from '../support/agent-fixtures.js';
 

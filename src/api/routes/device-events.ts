@@ -1,4 +1,4 @@
-import { createEventRangeReader, type EventRangeReader } from '../../fleet/history/event-range.js';
+import { createEventRangeReader, type EventRangeReader } from '../../store/event-ranges.js';
 import { resolveWindow } from '../../fleet/queries.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from '../../store/device-events.js';
 import { readQuery } from '../body.js';

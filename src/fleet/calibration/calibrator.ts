@@ -2,7 +2,7 @@ import { releaseSchema, type Release } from '../../protocol/release.js';
 import type { Store } from '../../store/store.js';
 import type { Calibration } from '../../validate/input.js';
 import { CALIBRATION_MINIMUM, RECENT_WINDOWS_PER_DEVICE, fitThroughOrigin, isEnough, type RatioFit, type RatioSample, type SampleCounts } from './fit.js';
-import { createEventRangeReader } from '../history/event-range.js';
+import { createEventRangeReader } from '../../store/event-ranges.js';
 
 /** A fitted calibration: measured ÷ predicted inference latency and energy, with what it rests on. */
 export interface CalibrationFit extends SampleCounts {

@@ -1,6 +1,6 @@
 import type { AssignmentRecord } from '../../store/devices.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader, type EventRangeReader, type RangeEvent } from './event-range.js';
+import { createEventRangeReader, type EventRangeReader, type RangeEvent } from '../../store/event-ranges.js';
 
 /** The server-side change that put an interval's release on the device. */
 export interface IntervalCause {

@@ -1,5 +1,5 @@
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader, type EventRangeReader } from './event-range.js';
+import { createEventRangeReader, type EventRangeReader } from '../../store/event-ranges.js';
 
 /** Time, frames and energy one device spent on one task in one UTC day, summed from its telemetry. */
 export interface UsageRow {

@@ -4,7 +4,7 @@ import type { Store } from '../../store/store.js';
 import type { ReleasePublisher } from './assign.js';
 import { createCalibrator } from '../calibration/calibrator.js';
 import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from '../calibration/drift.js';
-import { createEventRangeReader } from '../history/event-range.js';
+import { createEventRangeReader } from '../../store/event-ranges.js';
 import { createAssignmentDispatcher } from './dispatch.js';
 import { createFactsReader } from './facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './gate.js';

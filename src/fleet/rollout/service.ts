@@ -3,7 +3,7 @@ import type { InputIssue } from '../../schema/issues.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { createRolloutRepository, HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader } from '../history/event-range.js';
+import { createEventRangeReader } from '../../store/event-ranges.js';
 import { planWaves, waveIndexes, type RolloutRequest } from './spec.js';
 
 /** Shown with every rollout: it changes what robots see. */
