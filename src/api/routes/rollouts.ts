@@ -1,21 +1,13 @@
-import { createRolloutService, ROLLOUT_CAUTION, type ServiceError, type ServiceResult } from '../../fleet/rollout/service.js';
+import { createRolloutService, ROLLOUT_CAUTION } from '../../fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../../fleet/rollout/spec.js';
 import { rolloutQuerySchema } from '../../fleet/queries.js';
 import { actorOf } from '../auth.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError } from '../errors.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
 
-function toHttp(e: ServiceError): HttpError {
-  const status = e.code === 'not-found' ? 404 : e.code === 'conflict' ? 409 : 400;
-  return new HttpError(status, e.message, { issues: e.issues, ...(e.detail ? { extra: e.detail } : {}) });
-}
-
-function unwrap<T>(r: ServiceResult<T>): T {
-  if (!r.ok) throw toHttp(r);
-  return r.value;
-}
 
 /**
  * Rollouts: a release sent to a set of devices in waves, each wave passing its gate before the next starts.
