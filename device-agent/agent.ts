@@ -134,6 +134,8 @@ export function createAgent(deps: AgentDeps): Agent {
 
   return {
     start: async function start() {
+      // The hardware is read first: a camera that cannot be reached stops the start with its reason.
+      await driver.start?.();
       mkdirSync(config.dataDir, { recursive: true });
       events = openEventLog(config.dataDir, clock, { log });
       const username = config.username ?? config.deviceId;

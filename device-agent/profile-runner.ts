@@ -155,6 +155,8 @@ export function createProfileRunner(deps: RunnerDeps) {
       if (!saved) return;
       const verdict = verifyRelease(saved.signed, deps.publicKeyPem, deps.deviceClassId);
       if (!verdict.ok) return refuse(verdict.releaseId, `the release stored on this device no longer verifies (${verdict.reason}: ${verdict.detail})`);
+      const unfit = driver.checkRelease?.(verdict.release);
+      if (unfit) return refuse(verdict.release.id, `the release stored on this device does not fit its hardware (${driver.name}): ${unfit}`);
       applied = { release: verdict.release, raw: saved.signed };
       const taskName = saved.activeTask !== null && verdict.release.tasks[saved.activeTask] ? saved.activeTask : verdict.release.defaultTask;
       activeTask = taskName;
@@ -193,6 +195,8 @@ export function createProfileRunner(deps: RunnerDeps) {
       if (!release.tasks[release.defaultTask]) {
         return refuse(release.id, `defaultTask ${release.defaultTask} is not one of the release's tasks`, contentKey);
       }
+      const unfit = driver.checkRelease?.(release);
+      if (unfit) return refuse(release.id, `this device cannot run it (${driver.name}): ${unfit}`, contentKey);
       if (applied?.release.id === release.id && running) {
         if (pending) (pending = null), deps.changed();
         return;
@@ -228,7 +232,7 @@ export function createProfileRunner(deps: RunnerDeps) {
         switched(fromTask, to, reason, overheadMs, outcome.actuationMs);
         deps.releases.saveTask(applied.release.id, task);
         deps.changed();
-        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs } };
+        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs, toolMs: outcome.toolMs } };
       });
     },
 

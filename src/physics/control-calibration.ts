@@ -1,0 +1,42 @@
+/**
+ * From a physical camera setting to the integer code a module's control takes, through the module's
+ * measured calibration table. Pure; no extrapolation beyond the measured points.
+ */
+import type { CalibrationPoint, FocusCalibration } from '../schema/camera-controls.js';
+import { mToDioptres } from './units.js';
+
+export type CodeResult = { ok: true; code: number } | { ok: false; reason: string };
+
+/** Piecewise-linear interpolation between measured points, rounded to the nearest code (common practice for lookup tables). */
+export function interpolateCode(points: readonly CalibrationPoint[], at: number, what: string): CodeResult {
+  const sorted = [...points].sort((a, b) => a.at - b.at);
+  const lo = sorted[0]!;
+  const hi = sorted[sorted.length - 1]!;
+  if (!Number.isFinite(at) || at < lo.at - 1e-9 || at > hi.at + 1e-9) {
+    return { ok: false, reason: `${what} ${at} is outside the calibrated range ${lo.at} to ${hi.at}` };
+  }
+  for (let k = 1; k < sorted.length; k++) {
+    const a = sorted[k - 1]!;
+    const b = sorted[k]!;
+    if (at <= b.at + 1e-9) {
+      const t = Math.min(1, Math.max(0, (at - a.at) / (b.at - a.at)));
+      return { ok: true, code: Math.round(a.code + t * (b.code - a.code)) };
+    }
+  }
+  return { ok: true, code: hi.code };
+}
+
+/**
+ * Focus code for a focus distance. Interpolated in dioptres: by the thin-lens equation the lens's
+ * extension beyond f is f²/(d − f) ≈ f²·(1/d) for d ≫ f (Hecht, Optics, 5th ed., §5.2), so a voice-coil or
+ * stepper focus code is close to linear in 1/d.
+ */
+export function focusCodeFor(calibration: FocusCalibration, focusDistanceM: number): CodeResult {
+  if (calibration.unit === 'dioptre') return interpolateCode(calibration.points, mToDioptres(focusDistanceM), `focus ${focusDistanceM} m =`);
+  // Points in metres: convert both sides to dioptres so interpolation stays linear in 1/d.
+  const points = calibration.points.map((p) => ({ at: mToDioptres(p.at), code: p.code }));
+  const r = interpolateCode(points, mToDioptres(focusDistanceM), 'focus (dioptres)');
+  if (r.ok) return r;
+  const ms = calibration.points.map((p) => p.at);
+  return { ok: false, reason: `focus ${focusDistanceM} m is outside the calibrated range ${Math.min(...ms)} m to ${Math.max(...ms)} m` };
+}
