@@ -208,13 +208,14 @@ export function createProfileRunner(deps: RunnerDeps) {
       await prepare(pending);
     },
 
-    setTask: function setTask(task: string, reason: 'local' | 'command'): Promise<TaskResult> {
+    /** `report`: an unknown task name also becomes a switch-failed event (commands and robot topics have no reply to carry it). */
+    setTask: function setTask(task: string, reason: 'local' | 'command', report = reason === 'command'): Promise<TaskResult> {
       return exclusive(async (): Promise<TaskResult> => {
         const t0 = clock.monotonicMs();
         if (!applied) return { status: 409, body: { ok: false, error: 'no release is applied yet, so there is no task to switch to' } };
         if (!applied.release.tasks[task]) {
           const error = `task ${task} is not in release ${applied.release.id}; it has: ${Object.keys(applied.release.tasks).join(', ')}`;
-          if (reason === 'command') deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
+          if (report) deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
           return { status: 404, body: { ok: false, error } };
         }
         if (task === activeTask && running?.taskName === task) return { status: 200, body: { ok: true, task, unchanged: true, overheadMs: 0, actuationMs: 0 } };
