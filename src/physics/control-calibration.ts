@@ -32,11 +32,12 @@ export function interpolateCode(points: readonly CalibrationPoint[], at: number,
  * stepper focus code is close to linear in 1/d.
  */
 export function focusCodeFor(calibration: FocusCalibration, focusDistanceM: number): CodeResult {
-  if (calibration.unit === 'dioptre') return interpolateCode(calibration.points, mToDioptres(focusDistanceM), `focus ${focusDistanceM} m =`);
-  // Points in metres: convert both sides to dioptres so interpolation stays linear in 1/d.
-  const points = calibration.points.map((p) => ({ at: mToDioptres(p.at), code: p.code }));
-  const r = interpolateCode(points, mToDioptres(focusDistanceM), 'focus (dioptres)');
+  const dioptres = mToDioptres(focusDistanceM);
+  // Points in metres are turned into dioptres too, so interpolation stays linear in 1/d.
+  const points = calibration.unit === 'dioptre' ? calibration.points : calibration.points.map((p) => ({ at: mToDioptres(p.at), code: p.code }));
+  const r = interpolateCode(points, dioptres, 'focus');
   if (r.ok) return r;
-  const ms = calibration.points.map((p) => p.at);
-  return { ok: false, reason: `focus ${focusDistanceM} m is outside the calibrated range ${Math.min(...ms)} m to ${Math.max(...ms)} m` };
+  const at = calibration.points.map((p) => p.at);
+  const range = calibration.unit === 'dioptre' ? `${Math.min(...at)} to ${Math.max(...at)} dioptres` : `${Math.min(...at)} m to ${Math.max(...at)} m`;
+  return { ok: false, reason: `focus ${focusDistanceM} m (${Number(dioptres.toFixed(3))} dioptres) is outside the calibrated range ${range}` };
 }
