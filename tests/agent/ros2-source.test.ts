@@ -1,4 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { signedReleaseText } from '../../src/protocol/release.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
 import { systemClock } from '../../device-agent/clock.js';
 import { createSimDriver } from '../../device-agent/sim-driver.js';
@@ -29,7 +31,7 @@ afterAll(async () => {
 });
 
 const stored = (id: string, type: string) =>
-  (bus.store.db.prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e) as Record<string, unknown>);
+  (sqliteHandle(bus.store).prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e) as Record<string, unknown>);
 
 /** An agent (simulated driver) with a release applied, and its ROS 2 source on a rosbridge of the test's own. */
 async function robot(label: string, withMotion = false) {
@@ -61,7 +63,7 @@ async function robot(label: string, withMotion = false) {
   await agent.start();
   source.start();
   await waitFor(() => agent.connected() && source!.connected(), 'agent on the broker and the rosbridge');
-  await bus.bridge.publishRelease(id, sign(demoRelease(`rel-${label}`, 1, tasks)));
+  await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease(`rel-${label}`, 1, tasks))));
   await waitFor(() => agent.state().activeTask === 'rows', 'release applied on its default task');
   const statuses = () => bridge.published('/ocellus/status').map((m) => JSON.parse((m as { data: string }).data) as Record<string, unknown>);
   return { id, agent, source, bridge, logs, statuses };
