@@ -3,6 +3,7 @@
 import Database from 'better-sqlite3';
 import { parentPort, workerData } from 'node:worker_threads';
 import { createDeviceEventRepository } from '../store/device-events.js';
+import { createDeviceConnectionRepository } from '../store/device-connections.js';
 import { createDeviceStateRepository } from '../store/device-state.js';
 import { createEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch } from './event-batch.js';
@@ -11,7 +12,7 @@ import { openWriterConnection } from './event-writer-connection.js';
 const { dbPath, busyTimeoutMs } = workerData as { dbPath: string; busyTimeoutMs: number };
 const db: Database.Database = openWriterConnection(dbPath, busyTimeoutMs);
 const events = createDeviceEventRepository(db);
-const writer = { events, states: createDeviceStateRepository(db), cursor: createEventCursor(events), transaction: <T>(fn: () => T): T => db.transaction(fn)() };
+const writer = { events, states: createDeviceStateRepository(db), connections: createDeviceConnectionRepository(db), cursor: createEventCursor(events), transaction: <T>(fn: () => T): T => db.transaction(fn)() };
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {

@@ -2,6 +2,7 @@ import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { createDeviceEventRepository } from '../store/device-events.js';
+import { createDeviceConnectionRepository } from '../store/device-connections.js';
 import { createDeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
 import { createEventCursor } from './event-cursor.js';
@@ -17,7 +18,7 @@ export interface EventWriter {
 /** Writes on the calling thread, through the store's own connection. */
 export function createInlineEventWriter(store: Pick<Store, 'db' | 'transaction'>): EventWriter {
   const events = createDeviceEventRepository(store.db);
-  const writer = { events, states: createDeviceStateRepository(store.db), cursor: createEventCursor(events), transaction: store.transaction };
+  const writer = { events, states: createDeviceStateRepository(store.db), connections: createDeviceConnectionRepository(store.db), cursor: createEventCursor(events), transaction: store.transaction };
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),

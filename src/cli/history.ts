@@ -8,15 +8,30 @@ import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-cl
 
 export const usage = `usage: ocellus history DEVICE [--from ISO-TIME] [--to ISO-TIME] [--csv | --json] [--server URL] [--token T]
   Which task profile a device ran when: one line per interval, from one task switch to the next, with the
-  release and the change that brought it (a person's assignment or a rollout). The window is [from, to);
-  'to' defaults to now and 'from' to one day before 'to'. An interval still running has no end.
+  release and the change that brought it (a person's assignment or a rollout). While the server had no
+  connection to the device the line says 'offline' (task unknown, with the task and release it last
+  reported); what the device's own events, delivered after it came back, show it ran is marked
+  'reported after the fact'. The window is [from, to); 'to' defaults to now and 'from' to one day before
+  'to'. An interval still going has no end ('running' or 'still offline').
   --csv prints RFC 4180 CSV (the same columns as the API's export); --json the API's answer.
 `;
 
+const OFFLINE_CAUSES: Record<string, string> = {
+  'last-will': 'connection lost',
+  'clean-disconnect': 'agent shut down',
+  'keepalive-missed': 'keep-alive missed',
+  'found-offline': 'found offline after a server restart',
+};
+
 function line(i: HistoryInterval): string {
-  const cause = i.cause.rolloutId ? `rollout ${i.cause.rolloutId}` : (i.cause.assignment ?? 'unknown');
-  const who = i.cause.actor ? ` by ${i.cause.actor}` : '';
-  return `${i.start}  ${i.end ?? 'running'.padEnd(24)}  ${i.task}  ${i.profileId}@${i.profileRevision}  ${i.releaseId}  (${i.reason}; ${cause}${who})\n`;
+  if (i.kind === 'offline') {
+    const last = `last known task ${i.lastKnownTask ?? 'none'}, release ${i.releaseId ?? 'none'}`;
+    return `${i.start}  ${i.end ?? 'still offline'.padEnd(24)}  offline  (task unknown; ${OFFLINE_CAUSES[i.reason] ?? i.reason}; ${last})\n`;
+  }
+  const cause = i.cause?.rolloutId ? `rollout ${i.cause.rolloutId}` : (i.cause?.assignment ?? 'unknown');
+  const who = i.cause?.actor ? ` by ${i.cause.actor}` : '';
+  const late = i.reported === 'after-the-fact' ? '  [reported after the fact, device clock]' : '';
+  return `${i.start}  ${i.end ?? 'running'.padEnd(24)}  ${i.task}  ${i.profileId}@${i.profileRevision}  ${i.releaseId}  (${i.reason}; ${cause}${who})${late}\n`;
 }
 
 export async function run(args: string[], io: CliIo): Promise<number> {
