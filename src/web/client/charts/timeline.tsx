@@ -213,7 +213,7 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
               data-end={iv.end ?? ''}
               {...(iv.seq !== null ? { 'data-seq': iv.seq } : {})}
               data-item={k}
-              tabIndex={k === current ? 0 : -1}
+              tabindex={k === current ? 0 : -1}
               role="img"
               aria-label={text.join('; ')}
               class={`interval${late ? ' interval-late' : ''}${offline ? ' interval-offline' : ''}`}
@@ -241,7 +241,7 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
             return (
               <g
                 data-item={k}
-                tabIndex={k === current ? 0 : -1}
+                tabindex={k === current ? 0 : -1}
                 role="img"
                 aria-label={text.join(', ')}
                 class="mark"

@@ -32,7 +32,8 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
   };
   const device = useLoad(() => api.get<DeviceDetail>(`/devices/${encodeURIComponent(deviceId)}`), [deviceId]);
   const history = useLoad(
-    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: new Date(win.toMs).toISOString() }),
+    // A window that ends at the present asks without 'to': the server's now, so what still runs (or is still offline) has no end.
+    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: win.toMs >= Date.now() - 5_000 ? undefined : new Date(win.toMs).toISOString() }),
     [deviceId, win.fromMs, win.toMs],
   );
   const events = useLoad(
