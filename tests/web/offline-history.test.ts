@@ -3,7 +3,8 @@
  * `ocellus history` and the device page's timeline (Chromium through playwright-core). The robot is a real
  * agent over MQTT to the server's embedded broker, through a relay that can go silent. Demo data throughout.
  */
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { McapIndexedReader, TempBuffer } from '@mcap/core';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
@@ -116,6 +117,53 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
     await page.locator('[data-reported="after-the-fact"]').first().focus();
     expect(await page.getByRole('tooltip').textContent()).toContain('reported after the fact');
     await page.context().close();
+  });
+
+  it('ocellus history --mcap writes the same history as an MCAP recording that @mcap/core reads back, channel by channel', async () => {
+    const from = new Date(Date.now() - 3_600_000).toISOString();
+    const to = new Date(Date.now() + 1).toISOString();
+    const io = captureIo(dir.path, { OCELLUS_SERVER: rig.server.url, OCELLUS_TOKEN: rig.adminToken });
+    expect(await history([ROBOT, '--from', from, '--to', to, '--mcap', 'robot.mcap'], io)).toBe(0);
+    expect(io.out()).toMatch(/^wrote \d+ bytes of MCAP to robot.mcap/);
+    const bytes = readFileSync(join(dir.path, 'robot.mcap'));
+    const reader = await McapIndexedReader.Initialize({ readable: new TempBuffer(bytes) });
+    const topics = [...reader.channelsById.values()].map((c) => c.topic).sort();
+    expect(topics).toEqual(['/ocellus/device/connection', '/ocellus/device/task_switched', '/ocellus/device/telemetry', '/ocellus/history/interval']);
+    const byTopic = new Map<string, unknown[]>();
+    for await (const m of reader.readMessages()) {
+      const topic = reader.channelsById.get(m.channelId)!.topic;
+      byTopic.set(topic, [...(byTopic.get(topic) ?? []), JSON.parse(new TextDecoder().decode(m.data))]);
+      // log_time in nanoseconds since the epoch (MCAP specification, Message record).
+      expect(m.logTime).toBeGreaterThan(BigInt(Date.parse(from)) * 1_000_000n);
+    }
+    const api = await rig.api.json<{ intervals: HistoryInterval[] }>('GET', `/api/v1/devices/${ROBOT}/history?from=${encodeURIComponent(from)}&to=${encodeURIComponent(to)}`);
+    expect(byTopic.get('/ocellus/history/interval')).toEqual(api.intervals);
+    const stored = await rig.api.json<{ events: Array<{ type: string; seq: number }> }>('GET', `/api/v1/devices/${ROBOT}/events?type=task-switched&from=${encodeURIComponent(from)}&to=${encodeURIComponent(to)}`);
+    expect((byTopic.get('/ocellus/device/task_switched') as Array<{ seq: number }>).map((e) => e.seq)).toEqual(stored.events.map((e) => e.seq));
+    expect((byTopic.get('/ocellus/device/connection') as Array<{ cause: string }>).map((c) => c.cause)).toEqual(['connected', 'keepalive-missed', 'reconnected']);
+    expect((byTopic.get('/ocellus/device/telemetry') ?? []).length).toBeGreaterThan(0);
+    const meta = [];
+    for await (const m of reader.readMetadata({ name: 'ocellus.history' })) meta.push(m);
+    expect(meta[0]!.metadata.get('deviceId')).toBe(ROBOT);
+
+    // The API gives the same bytes' content.
+    const res = await fetch(`${rig.server.url}/api/v1/devices/${ROBOT}/history?format=mcap&from=${encodeURIComponent(from)}&to=${encodeURIComponent(to)}`, { headers: { authorization: `Bearer ${rig.adminToken}` } });
+    expect(res.status).toBe(200);
+    expect(res.headers.get('content-disposition')).toContain(`${ROBOT}-history.mcap`);
+    const again = await McapIndexedReader.Initialize({ readable: new TempBuffer(new Uint8Array(await res.arrayBuffer())) });
+    expect(again.statistics?.messageCount).toBe(reader.statistics?.messageCount);
+  });
+
+  it('ocellus history --mcap keeps an existing file and refuses a second output format', async () => {
+    writeFileSync(join(dir.path, 'kept.mcap'), 'an earlier recording');
+    const io = captureIo(dir.path, { OCELLUS_SERVER: rig.server.url, OCELLUS_TOKEN: rig.adminToken });
+    expect(await history([ROBOT, '--mcap', 'kept.mcap'], io)).toBe(2);
+    expect(io.err()).toContain('--mcap kept.mcap: already exists');
+    expect(readFileSync(join(dir.path, 'kept.mcap'), 'utf8')).toBe('an earlier recording');
+    const both = captureIo(dir.path, { OCELLUS_SERVER: rig.server.url, OCELLUS_TOKEN: rig.adminToken });
+    expect(await history([ROBOT, '--csv', '--mcap', 'other.mcap'], both)).toBe(2);
+    expect(both.err()).toContain('give one of --csv, --json and --mcap');
+    expect(existsSync(join(dir.path, 'other.mcap'))).toBe(false);
   });
 
   it('the device page opens on a window fitted to the robot’s short life, not the last day', async () => {
