@@ -1,7 +1,8 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { assignRelease } from '../../src/fleet/rollout/assign.js';
 import type { HistoryInterval } from '../../src/fleet/history/intervals.js';
-import { createDeviceConnectionRepository, type ConnectionChange } from '../../src/store/device-connections.js';
+import type { ConnectionChange } from '../../src/store/device-connections.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { tempDir, waitFor } from '../support/agent-fixtures.js';
 import { startFleetRig, type FleetAgent, type FleetRig } from '../support/fleet-rig.js';
 import { startFreezeProxy, type FreezeProxy } from '../support/freeze-proxy.js';
@@ -14,13 +15,13 @@ let unit: FleetAgent;
 const agentDir = tempDir('offline-agent');
 const link = () => ({ brokerUrl: proxy.url, keepaliveS: 1, reconnectMs: 200, dataDir: agentDir.path });
 
-const changes = (): ConnectionChange[] => createDeviceConnectionRepository(rig.store.db).between(DEVICE, '1970-01-01T00:00:00.000Z', '9999-01-01T00:00:00.000Z');
+const changes = (): ConnectionChange[] => rig.store.deviceConnections.between(DEVICE, '1970-01-01T00:00:00.000Z', '9999-01-01T00:00:00.000Z');
 const history = async (): Promise<HistoryInterval[]> => {
   const res = await rig.call('GET', `/api/v1/devices/${DEVICE}/history?from=${encodeURIComponent(new Date(Date.now() - 600_000).toISOString())}`);
   expect(res.status).toBe(200);
   return res.body.intervals as HistoryInterval[];
 };
-const switchesStored = () => rig.store.db.prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'task-switched'").get(DEVICE) as { n: number };
+const switchesStored = () => sqliteHandle(rig.store).prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'task-switched'").get(DEVICE) as { n: number };
 const pause = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 beforeAll(async () => {

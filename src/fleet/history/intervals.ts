@@ -1,7 +1,7 @@
-import { createDeviceConnectionRepository, type DeviceConnectionRepository } from '../../store/device-connections.js';
+import type { DeviceConnectionRepository } from '../../store/device-connections.js';
 import type { AssignmentRecord } from '../../store/devices.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader, type EventRangeReader, type RangeEvent } from './event-range.js';
+import type { EventRangeReader, RangeEvent } from '../../store/event-ranges.js';
 import { offlinePeriods, reportedRuns, withOffline } from './offline.js';
 
 /** The server-side change that put an interval's release on the device. */
@@ -151,9 +151,9 @@ export function deviceHistoryWithOffline(
   return withOffline(deviceId, profile, periods.map((period) => ({ period, runs: reportedRuns(reader, deviceId, period) })), w);
 }
 
-export function createHistoryReader(store: Pick<Store, 'db' | 'devices'>): HistoryReader {
-  const reader = createEventRangeReader(store.db);
-  const connections = createDeviceConnectionRepository(store.db);
+export function createHistoryReader(store: Pick<Store, 'eventRanges' | 'devices' | 'deviceConnections'>): HistoryReader {
+  const reader = store.eventRanges;
+  const connections = store.deviceConnections;
   const one = (deviceId: string, w: HistoryWindow) => deviceHistoryWithOffline(reader, connections, store.devices.assignments(deviceId), deviceId, w);
   const everyDevice = (w: HistoryWindow, keep: (i: HistoryInterval) => boolean) =>
     store.devices.list().flatMap((d) => one(d.id, w).filter(keep));

@@ -1,6 +1,6 @@
 import { McapWriter, TempBuffer } from '@mcap/core';
 import type { ConnectionChange } from '../../store/device-connections.js';
-import type { RangeEvent } from './event-range.js';
+import type { RangeEvent } from '../../store/event-ranges.js';
 import type { HistoryInterval } from './intervals.js';
 
 /** The channels of a device's history recording: JSON messages, each described by a JSON Schema (MCAP's well-known json / jsonschema encodings). */

@@ -1,5 +1,5 @@
 import type { ConnectionCause, ConnectionChange } from '../../store/device-connections.js';
-import type { EventRangeReader } from './event-range.js';
+import type { EventRangeReader } from '../../store/event-ranges.js';
 import type { HistoryInterval } from './intervals.js';
 
 /** A stretch during which the server had no connection to the device: from going offline to coming back (or null: still away). */

@@ -1,14 +1,12 @@
-import { createDeviceConnectionRepository } from '../../store/device-connections.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader } from './event-range.js';
 import { createHistoryReader, type HistoryWindow } from './intervals.js';
 import { historyRecording } from './mcap.js';
 
 /** Builds a device's history recording (MCAP) for a window, from the same reads as the history API. */
-export function createRecordingReader(store: Pick<Store, 'db' | 'devices'>, producer: string) {
+export function createRecordingReader(store: Pick<Store, 'eventRanges' | 'devices' | 'deviceConnections'>, producer: string) {
   const history = createHistoryReader(store);
-  const events = createEventRangeReader(store.db);
-  const connections = createDeviceConnectionRepository(store.db);
+  const events = store.eventRanges;
+  const connections = store.deviceConnections;
   return function deviceRecording(deviceId: string, w: HistoryWindow): Promise<Uint8Array> {
     const fromIso = new Date(w.fromMs).toISOString();
     const toIso = new Date(w.toMs).toISOString();
