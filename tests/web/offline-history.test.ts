@@ -120,8 +120,10 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
   });
 
   it('ocellus history --mcap writes the same history as an MCAP recording that @mcap/core reads back, channel by channel', async () => {
+    // A window that ended a moment ago, with everything the robot sent before then stored: later telemetry cannot change it between reads.
     const from = new Date(Date.now() - 3_600_000).toISOString();
-    const to = new Date(Date.now() + 1).toISOString();
+    const to = new Date(Date.now() - 500).toISOString();
+    await until(() => (agent.unackedEvents() === 0 ? true : undefined), 'the robot’s events to be stored');
     const io = captureIo(dir.path, { OCELLUS_SERVER: rig.server.url, OCELLUS_TOKEN: rig.adminToken });
     expect(await history([ROBOT, '--from', from, '--to', to, '--mcap', 'robot.mcap'], io)).toBe(0);
     expect(io.out()).toMatch(/^wrote \d+ bytes of MCAP to robot.mcap/);
