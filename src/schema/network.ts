@@ -90,6 +90,8 @@ export const ACTIVATION_FUNCTIONS = [
   'gelu',
   'softmax',
   'clip',
+  /** x·a + b with scalar constants a, b (exported graphs spell hard-swish and normalisation this way). */
+  'affine',
 ] as const;
 /** A pointwise function: no multiply-accumulates, no parameters, listed so the graph stays whole. */
 export const activationLayerSchema = z.strictObject({ ...base, op: z.literal('activation'), fn: z.enum(ACTIVATION_FUNCTIONS) });
