@@ -4,7 +4,7 @@
  * and elementwise arithmetic over constants). Returns undefined when the node is not one of these or
  * its inputs are not known, so the caller can say which node could not be computed.
  */
-import { onnx } from 'onnx-proto';
+import type { onnx } from 'onnx-proto';
 import { attributesOf, elementCount, intAttr, intsAttr, MAX_FOLDED_ELEMENTS, type KnownTensor } from './onnx-tensors.js';
 
 /** Anything whose dimensions are known: a constant, or a computed activation. */

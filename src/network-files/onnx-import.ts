@@ -5,11 +5,12 @@
  * initializers or Constant nodes, size the weights; the small integer graphs that exported files use to
  * compute shapes (Shape → Slice → Concat → Reshape) are folded. Anything else is an error naming the node.
  */
-import { onnx } from 'onnx-proto';
+import type { onnx } from 'onnx-proto';
 import { analyzeNetwork } from '../physics/network-cost.js';
 import { InputError } from '../schema/issues.js';
 import { networkSchema, type NetworkInput } from '../schema/network.js';
 import { foldNode } from './onnx-fold.js';
+import { onnxProto } from './onnx-proto.js';
 import { chw, mapNode, NodeProblem, reshapeTo, resolveReshape, type LayerDraft, type Operand } from './onnx-layers.js';
 import { attributesOf, constantNodeValue, elementCount, intsAttr, readTensor, toInt, type KnownTensor } from './onnx-tensors.js';
 
@@ -40,7 +41,7 @@ const INPUT = '\u0000input';
 function decode(bytes: Uint8Array, source: string): onnx.ModelProto {
   let model: onnx.ModelProto;
   try {
-    model = onnx.ModelProto.decode(bytes);
+    model = onnxProto.ModelProto.decode(bytes);
   } catch (e) {
     const reason = e instanceof Error ? e.message : String(e);
     throw new InputError(`${source} is not a readable ONNX file: ${reason}`, [{ path: '(file)', message: `protobuf decoding failed: ${reason}` }], source);

@@ -122,10 +122,10 @@ export function chw(dims: readonly number[]): [number, number, number] {
 export function reshapeTo(x: Operand, outDims: number[]): Mapped {
   if (outDims[0] !== x.dims[0]) throw new NodeProblem(`a reshape that changes the batch dimension (${x.dims[0]} → ${outDims[0]}) is not supported`);
   if (elementCount(outDims) !== elementCount(x.dims)) throw new NodeProblem(`reshape to [${outDims.join(', ')}] changes the element count of [${x.dims.join(', ')}]`);
+  if (outDims.length === 2 && x.dims.length !== 2) return { layer: { op: 'flatten' }, outDims };
   const from = chw(x.dims);
   const to = chw(outDims);
   if (from[0] === to[0] && from[1] === to[1] && from[2] === to[2]) return { outDims };
-  if (to[1] === 1 && to[2] === 1) return { layer: { op: 'flatten' }, outDims };
   return { layer: { op: 'reshape', shape: to }, outDims };
 }
 

@@ -3,7 +3,7 @@
  * dimensions always, values only of small integer or float tensors (shapes, axes, pads, scales), which
  * the shape inference folds. Weights are sized from their dimensions, never read element by element.
  */
-import { onnx } from 'onnx-proto';
+import type { onnx } from 'onnx-proto';
 
 type Int = number | { toNumber(): number };
 export const toInt = (v: Int): number => (typeof v === 'number' ? v : v.toNumber());
