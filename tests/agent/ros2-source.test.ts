@@ -124,6 +124,8 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
     // And the next change after the outage arrives as usual.
     r.bridge.robotPublish('/robot/task', { data: 'rows' });
     await waitFor(() => r.agent.state().activeTask === 'rows', 'change after the outage');
+    // The switch is stored once the agent's event batch reaches the server: wait for it, within the deadline.
+    await waitFor(() => stored(r.id, 'task-switched').length >= 3, 'the three switches stored');
     expect(stored(r.id, 'task-switched').map((e) => e.toTask)).toEqual(['rows', 'leaves', 'rows']);
   });
 
