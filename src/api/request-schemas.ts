@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { idSchema } from '../schema/common.js';
+import { idSchema, isoTimeSchema } from '../schema/common.js';
 import { isValidDeviceId } from '../protocol/topics.js';
 import { ROLES } from '../store/tokens.js';
 
@@ -20,14 +20,12 @@ export const tokenRequestSchema = z.strictObject({
   label: z.string().trim().min(1).max(200).optional(),
 });
 
-const isoTime = z.iso.datetime({ offset: true });
-
 export const auditQuerySchema = z.strictObject({
   actor: z.string().max(300).optional(),
   action: z.string().max(100).optional(),
   target: z.string().max(300).optional(),
-  from: isoTime.optional(),
-  to: isoTime.optional(),
+  from: isoTimeSchema.optional(),
+  to: isoTimeSchema.optional(),
   limit: z.coerce.number().int().min(1).max(1000).optional(),
 });
 

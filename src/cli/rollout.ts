@@ -1,5 +1,6 @@
 import type { RolloutView } from '../fleet/rollout/service.js';
 import type { RolloutRequestInput, WaveSize } from '../fleet/rollout/spec.js';
+import { parseWaveList } from '../fleet/rollout/wave-text.js';
 import { guard, parseFlags, printJson, toNumber, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
@@ -24,11 +25,9 @@ export const usage = `usage: ocellus rollout create --release R (--device ID ...
 `;
 
 function waveSizes(raw: string): WaveSize[] {
-  return raw.split(',').map((part) => {
-    const p = part.trim();
-    if (/^\d+(\.\d+)?%$/.test(p)) return p;
-    return toNumber('waves', p, { integer: true });
-  });
+  const r = parseWaveList(raw);
+  if (!r.ok) throw new UsageError(`--waves: ${r.message}`);
+  return r.waves;
 }
 
 function describe(r: RolloutView): string {

@@ -1,12 +1,11 @@
 import { z } from 'zod';
+import { isoTimeSchema } from '../schema/common.js';
 import { ROLLOUT_STATUSES } from '../store/rollouts.js';
-
-const isoTime = z.iso.datetime({ offset: true });
 
 /** A history or usage window: ISO times; `to` defaults to now and `from` to one day before `to`. */
 export const historyQuerySchema = z.strictObject({
-  from: isoTime.optional(),
-  to: isoTime.optional(),
+  from: isoTimeSchema.optional(),
+  to: isoTimeSchema.optional(),
   format: z.enum(['json', 'csv']).optional(),
 });
 export type HistoryQuery = z.infer<typeof historyQuerySchema>;

@@ -4,6 +4,8 @@
  * sensor's gain range or the SRAM, and models of the wrong precision or network are skipped before the
  * search, so 'physical-limit', 'memory-fits-sram', 'model-network' and 'model-precision' have no bit.
  */
+import type { CheckCode } from '../schema/report.js';
+
 export const FAIL_CODES = [
   'pixels-on-feature',
   'blur-over-range',
@@ -15,7 +17,7 @@ export const FAIL_CODES = [
   'energy-per-frame',
   'average-power',
   'accuracy',
-] as const;
+] as const satisfies readonly CheckCode[];
 
 export type FailCode = (typeof FAIL_CODES)[number];
 

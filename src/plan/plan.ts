@@ -4,7 +4,7 @@
  */
 import { analyzeNetwork } from '../physics/network-cost.js';
 import { InputError, deviceClassSchema, modelSchema, networkSchema, parseWith, taskSchema } from '../schema/index.js';
-import type { DeviceClass, InputIssue, Task } from '../schema/index.js';
+import type { CheckCode, DeviceClass, InputIssue, Task } from '../schema/index.js';
 import { candidateAt, confirmCandidate } from './candidate.js';
 import { FAIL_CODES, MASK_COUNT } from './codes.js';
 import { candidateCount } from './evaluator.js';
@@ -43,13 +43,16 @@ function parseInput(input: PlanInput): { task: Task; deviceClass: DeviceClass; c
   return { task: task.value, deviceClass: deviceClass.value, candidates };
 }
 
+/** Why a model is left out of the search: the validator's check it would fail, or listed twice. */
+type SkipCode = Extract<CheckCode, 'model-task' | 'model-precision' | 'model-network' | 'network-cost'> | 'duplicate-model';
+
 /** Models the search can use: measured for the task, of the accelerator's precision, costable; the rest are skipped with the validator's reason. */
-function plannedModels(task: Task, deviceClass: DeviceClass, candidates: ModelCandidate[]): { models: PlannedModel[]; skipped: (SkippedModel & { code: string })[] } {
+function plannedModels(task: Task, deviceClass: DeviceClass, candidates: ModelCandidate[]): { models: PlannedModel[]; skipped: (SkippedModel & { code: SkipCode })[] } {
   const models: PlannedModel[] = [];
-  const skipped: (SkippedModel & { code: string })[] = [];
+  const skipped: (SkippedModel & { code: SkipCode })[] = [];
   const precision = deviceClass.accelerator.precision;
   for (const { model, network } of candidates) {
-    const skip = (code: string, reason: string) => skipped.push({ modelId: model.id, code, reason });
+    const skip = (code: SkipCode, reason: string) => skipped.push({ modelId: model.id, code, reason });
     if (models.some((m) => m.model.id === model.id)) {
       skip('duplicate-model', `model ${model.id} is listed more than once; the first is used`);
     } else if (model.measuredForTaskIds && !model.measuredForTaskIds.includes(task.id)) {

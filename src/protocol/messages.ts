@@ -1,8 +1,8 @@
 import { z } from 'zod';
+import { isoTimeSchema } from '../schema/common.js';
 
 export const PROTOCOL_VERSION = 1;
 const v = z.literal(PROTOCOL_VERSION);
-const isoTime = z.string().datetime({ offset: true });
 const taskName = z.string().min(1).max(64);
 const count = z.number().int().nonnegative();
 const measure = z.number().nonnegative().refine(Number.isFinite, 'must be finite');
@@ -12,7 +12,7 @@ export const stateMessageSchema = z.strictObject({
   v,
   online: z.boolean(),
   agentVersion: z.string().max(64),
-  ts: isoTime,
+  ts: isoTimeSchema,
   releaseId: z.string().max(64).nullable(),
   releaseVersion: z.number().int().positive().nullable(),
   activeTask: taskName.nullable(),
@@ -76,7 +76,7 @@ export const eventBodySchema = z.discriminatedUnion('type', [
 export type EventBody = z.infer<typeof eventBodySchema>;
 export type EventType = EventBody['type'];
 
-const eventHead = { seq: z.number().int().positive(), ts: isoTime };
+const eventHead = { seq: z.number().int().positive(), ts: isoTimeSchema };
 export type DeviceEvent = { seq: number; ts: string } & EventBody;
 
 /**

@@ -18,3 +18,6 @@ export type Precision = z.infer<typeof precisionSchema>;
 
 /** Bytes per stored element for each accelerator precision. */
 export const BYTES_PER_ELEMENT: Record<Precision, number> = { int8: 1, fp16: 2 };
+
+/** An ISO 8601 / RFC 3339 date-time with an offset (Z or ±hh:mm), as every message, query and record carries times. */
+export const isoTimeSchema = z.iso.datetime({ offset: true });

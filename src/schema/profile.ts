@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { idSchema, nonNegative, positive } from './common.js';
 import type { DeviceClass } from './device-class.js';
+import type { InputIssue } from './issues.js';
 
 export const cameraSettingsSchema = z.strictObject({
   focusDistanceM: positive(),
@@ -31,17 +32,12 @@ export type Profile = z.infer<typeof profileSchema>;
 export type CameraSettings = z.infer<typeof cameraSettingsSchema>;
 export type MemoryPartition = z.infer<typeof memoryPartitionSchema>;
 
-export interface FieldIssue {
-  path: string;
-  message: string;
-}
-
 /**
  * Settings a device class cannot physically take. These are input errors, not validation findings:
  * a lens cannot open wider than its widest stop or focus nearer than its mechanics allow.
  */
-export function physicalLimitIssues(profile: Profile, deviceClass: DeviceClass): FieldIssue[] {
-  const issues: FieldIssue[] = [];
+export function physicalLimitIssues(profile: Profile, deviceClass: DeviceClass): InputIssue[] {
+  const issues: InputIssue[] = [];
   const { lens, sensor, accelerator } = deviceClass;
   const widest = lens.fNumberStops[0]!;
   const narrowest = lens.fNumberStops[lens.fNumberStops.length - 1]!;

@@ -3,9 +3,31 @@ import { z } from 'zod';
 export const checkStatusSchema = z.enum(['pass', 'warn', 'fail']);
 export type CheckStatus = z.infer<typeof checkStatusSchema>;
 
+/** Every check the validator makes, by its stable code (the planner, the console and the CLI refer to these). */
+export const CHECK_CODES = [
+  'physical-limit',
+  'pixels-on-feature',
+  'blur-over-range',
+  'motion-blur',
+  'rolling-shutter-skew',
+  'snr-dark',
+  'clipping-bright',
+  'exposure-fits-frame',
+  'latency',
+  'energy-per-frame',
+  'average-power',
+  'memory-fits-sram',
+  'network-cost',
+  'model-network',
+  'model-precision',
+  'model-task',
+  'accuracy',
+] as const;
+export type CheckCode = (typeof CHECK_CODES)[number];
+
 /** One finding of the validator: data, never an exception. Every figure carries its unit. */
 export const checkSchema = z.object({
-  code: z.string(),
+  code: z.enum(CHECK_CODES),
   status: checkStatusSchema,
   actual: z.number().nullable(),
   limit: z.number().nullable(),

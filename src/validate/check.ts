@@ -1,8 +1,8 @@
-import type { Check, CheckStatus } from '../schema/index.js';
+import type { Check, CheckCode, CheckStatus } from '../schema/report.js';
 
 /** Build one check; every figure carries its unit. */
 export function makeCheck(
-  code: string,
+  code: CheckCode,
   status: CheckStatus,
   actual: number | null,
   limit: number | null,

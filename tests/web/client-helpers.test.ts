@@ -4,7 +4,8 @@ import { OKABE_ITO, linearScale, logScale } from '../../src/web/client/charts/sc
 import { MIN_SPAN_MS, timeTicks, zoomWindow } from '../../src/web/client/charts/time-axis.js';
 import { num, unitText } from '../../src/web/client/format.js';
 import { parseSseChunk } from '../../src/web/client/live.js';
-import { parseWaves } from '../../src/web/client/waves.js';
+import { parseWaveList } from '../../src/fleet/rollout/wave-text.js';
+import { waveSizeSchema } from '../../src/fleet/rollout/spec.js';
 
 describe('server-sent event parsing (WHATWG HTML Living Standard, §9.2 "Server-sent events", event stream interpretation)', () => {
   it('splits blocks at blank lines, joins multi-line data with newlines, and keeps an unfinished block for later', () => {
@@ -25,14 +26,16 @@ describe('server-sent event parsing (WHATWG HTML Living Standard, §9.2 "Server-
   });
 });
 
-describe('wave sizes typed in the rollout form', () => {
-  it('reads robot counts and percentages, as the rollout API takes them (src/fleet/rollout/spec.ts)', () => {
-    expect(parseWaves('1, 10%, 50%')).toEqual([1, '10%', '50%']);
-    expect(parseWaves(' 2 ,12.5% ')).toEqual([2, '12.5%']);
+describe('wave sizes typed in the rollout form or after --waves', () => {
+  it('reads robot counts and percentages, each of which the rollout API takes as it is', () => {
+    expect(parseWaveList('1, 10%, 50%')).toEqual({ ok: true, waves: [1, '10%', '50%'] });
+    expect(parseWaveList(' 2 ,12.5% ')).toEqual({ ok: true, waves: [2, '12.5%'] });
+    for (const w of [1, '10%', '12.5%', '100%']) expect(waveSizeSchema.safeParse(w).success, String(w)).toBe(true);
   });
 
-  it('refuses zero, negatives, fractions of a robot, more than 100 % and empty input', () => {
-    for (const bad of ['0', '-1', '1.5', '101%', '', ' , ', 'ten']) expect(parseWaves(bad), bad).toBeNull();
+  it('refuses zero, negatives, fractions of a robot, more than 100 % and empty input, naming the part', () => {
+    for (const bad of ['0', '-1', '1.5', '101%', '100.5%', '', ' , ', 'ten', '1,,2']) expect(parseWaveList(bad).ok, bad).toBe(false);
+    expect(parseWaveList('1, 10%, lots')).toMatchObject({ ok: false, part: 'lots' });
   });
 });
 

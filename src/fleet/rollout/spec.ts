@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { isValidDeviceId } from '../../protocol/topics.js';
 import { idSchema } from '../../schema/common.js';
+import { WAVE_PERCENT_PATTERN } from './wave-text.js';
 
 const deviceIdSchema = z.string().refine(isValidDeviceId, { message: 'not a valid device id' });
 const tagSchema = z.string().regex(/^[A-Za-z0-9][A-Za-z0-9._:-]{0,63}$/, 'tags are 1-64 characters of letters, digits, ".", "_", ":" or "-"');
@@ -8,7 +9,7 @@ const tagSchema = z.string().regex(/^[A-Za-z0-9][A-Za-z0-9._:-]{0,63}$/, 'tags a
 /** A wave's size: a number of devices, or a percentage ("10%") of all the rollout's devices. */
 export const waveSizeSchema = z.union([
   z.number().int().positive(),
-  z.string().regex(/^(100|[1-9]?[0-9](\.[0-9]+)?)%$/, 'a percentage is written like "10%" (0-100)'),
+  z.string().regex(WAVE_PERCENT_PATTERN, 'a percentage is written like "10%" (0-100)'),
 ]);
 export type WaveSize = z.infer<typeof waveSizeSchema>;
 

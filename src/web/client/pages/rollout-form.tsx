@@ -2,7 +2,7 @@ import { useEffect, useState } from 'preact/hooks';
 import { useLoad, useSession } from '../context.js';
 import type { DeviceListItem, ReleaseSummary } from '../../../api-client/response-types.js';
 import { ErrorNote } from '../ui/status.js';
-import { parseWaves } from '../waves.js';
+import { parseWaveList } from '../../../fleet/rollout/wave-text.js';
 
 type TargetKind = 'class' | 'tags' | 'devices';
 
@@ -28,7 +28,8 @@ export function RolloutForm({ releases, onStarted }: { releases: ReleaseSummary[
   }, [releases]);
   const release = releases.find((r) => r.id === releaseId);
   const ofClass = (devices.data ?? []).filter((d) => d.deviceClassId === release?.deviceClassId);
-  const parsedWaves = parseWaves(waves);
+  const waveList = parseWaveList(waves);
+  const parsedWaves = waveList.ok ? waveList.waves : null;
   const tagList = tags.split(',').map((t) => t.trim()).filter(Boolean);
   const ready = release !== undefined && parsedWaves !== null && (kind !== 'devices' || chosen.length > 0) && (kind !== 'tags' || tagList.length > 0);
 
