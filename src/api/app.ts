@@ -40,7 +40,7 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
   app.onError(createErrorHandler(deps.onError ?? reportToStderr));
   app.notFound((c) => c.json({ error: `no route ${c.req.method} ${c.req.path}`, issues: [] } satisfies ErrorBody, 404));
 
-  const route = createRouter(app, resolved.store);
+  const route = createRouter(app, resolved.store, resolved.limits.maxJsonBytes);
   // First: its middleware announces every successful change made through the routes registered after it.
   registerWebRoutes(app, route, resolved, deps.consoleDir);
   registerDocumentRoutes(route, resolved, 'device-classes');

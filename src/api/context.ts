@@ -62,5 +62,7 @@ export interface AppEnv {
     principal: Principal | undefined;
     /** The route pattern that matched, for metrics labels. */
     route: string | undefined;
+    /** The JSON body and the query, parsed by the router with the route table's schemas (requestBody, requestQuery). */
+    request: { body?: unknown; bodySchema?: unknown; query?: unknown; querySchema?: unknown } | undefined;
   };
 }

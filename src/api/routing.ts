@@ -1,6 +1,8 @@
 import type { Context, Hono } from 'hono';
+import type { z } from 'zod';
 import type { Store } from '../store/store.js';
 import { authorize } from './auth.js';
+import { readJson, readQuery } from './body.js';
 import type { AppEnv } from './context.js';
 import { ROUTES, routeSpec } from './route-table.js';
 
@@ -13,7 +15,12 @@ export interface Router {
   missing(): string[];
 }
 
-export function createRouter(app: Hono<AppEnv>, store: Store): Router {
+/**
+ * Registers the table's routes: the access rule is enforced first, then the JSON body and the query are parsed
+ * with the schemas the table declares for the route (400 naming each bad field), then the handler runs and
+ * reads them with requestBody / requestQuery.
+ */
+export function createRouter(app: Hono<AppEnv>, store: Store, maxJsonBytes: number): Router {
   const registered = new Set<string>();
   const route = function route(key: string, handler: RouteHandler) {
     const spec = routeSpec(key);
@@ -22,6 +29,10 @@ export function createRouter(app: Hono<AppEnv>, store: Store): Router {
     app.on(spec.method.toUpperCase(), spec.path, async function handleRoute(c) {
       c.set('route', spec.path);
       c.set('principal', authorize(c, spec.access, store));
+      const request: NonNullable<AppEnv['Variables']['request']> = {};
+      if (spec.query) Object.assign(request, { query: readQuery(c, spec.query), querySchema: spec.query });
+      if (spec.body && !spec.binaryBody) Object.assign(request, { body: await readJson(c, spec.body, maxJsonBytes), bodySchema: spec.body });
+      c.set('request', request);
       return handler(c);
     });
   } as Router;
@@ -29,4 +40,18 @@ export function createRouter(app: Hono<AppEnv>, store: Store): Router {
     return ROUTES.filter((r) => !registered.has(r.key)).map((r) => r.key);
   };
   return route;
+}
+
+/** The route's JSON body as the router parsed it; `schema` must be the one the route table declares (checked). */
+export function requestBody<S extends z.ZodType>(c: Context<AppEnv>, schema: S): z.infer<S> {
+  const r = c.get('request');
+  if (r?.bodySchema !== schema) throw new Error(`route ${c.get('route')}: the handler reads a body the route table does not declare with this schema`);
+  return r.body as z.infer<S>;
+}
+
+/** The route's query as the router parsed it; `schema` must be the one the route table declares (checked). */
+export function requestQuery<S extends z.ZodType>(c: Context<AppEnv>, schema: S): z.infer<S> {
+  const r = c.get('request');
+  if (r?.querySchema !== schema) throw new Error(`route ${c.get('route')}: the handler reads a query the route table does not declare with this schema`);
+  return r.query as z.infer<S>;
 }

@@ -3,11 +3,10 @@ import { CALIBRATION_MINIMUM, RECENT_WINDOWS_PER_DEVICE } from '../../fleet/cali
 import { createCalibrator } from '../../fleet/calibration/calibrator.js';
 import { DEFAULT_DRIFT_TOLERANCE } from '../../fleet/calibration/drift.js';
 import { driftQuerySchema, reportQuerySchema } from '../../fleet/queries.js';
-import { readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { notFound } from '../errors.js';
 import { refusalError } from '../refusals.js';
-import type { Router } from '../routing.js';
+import { requestQuery, type Router } from '../routing.js';
 
 /** What every calibration answer states: how it is fitted and when it is used. */
 const METHOD = {
@@ -43,14 +42,14 @@ export function registerCalibrationRoutes(route: Router, deps: ResolvedDeps): vo
 
   route('calibration.report', (c) => {
     const id = c.req.param('id') ?? '';
-    const { revision } = readQuery(c, reportQuerySchema);
+    const { revision } = requestQuery(c, reportQuerySchema);
     const result = calibratedReport(store, id, revision);
     if (!result.ok) throw refusalError(result);
     return c.json(result);
   });
 
   route('drift.list', (c) => {
-    const q = readQuery(c, driftQuerySchema);
+    const q = requestQuery(c, driftQuerySchema);
     return c.json(
       drift.list({
         ...(q.device !== undefined ? { deviceId: q.device } : {}),

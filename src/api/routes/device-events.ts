@@ -1,9 +1,8 @@
 import { resolveWindow } from '../../fleet/queries.js';
-import { readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { deviceEventsQuerySchema } from './device-events-query.js';
 import { badRequest, notFound } from '../errors.js';
-import type { Router } from '../routing.js';
+import { requestQuery, type Router } from '../routing.js';
 
 const DEFAULT_LIMIT = 2000;
 
@@ -16,7 +15,7 @@ export function registerDeviceEventsRoute(route: Router, deps: ResolvedDeps): vo
 
   route('devices.events', (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, deviceEventsQuerySchema);
+    const q = requestQuery(c, deviceEventsQuerySchema);
     if (!store.devices.get(id)) throw notFound(`device '${id}'`);
     const w = resolveWindow(q, deps.clock.now().getTime());
     if (!w.ok) throw badRequest('invalid event window', [{ path: w.path, message: w.message }]);

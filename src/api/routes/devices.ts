@@ -2,12 +2,11 @@ import { assignRelease } from '../../fleet/rollout/assign.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
-import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { badRequest, conflict, notFound } from '../errors.js';
 import { assignRequestSchema, deviceQuerySchema, enrolRequestSchema } from '../request-schemas.js';
 import { refusalError } from '../refusals.js';
-import type { Router } from '../routing.js';
+import { requestBody, requestQuery, type Router } from '../routing.js';
 
 /** Shown with every assignment: the API sends settings to a robot, so the caution travels with the answer. */
 export const ASSIGN_CAUTION =
@@ -26,7 +25,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
   }
 
   route('devices.enrol', async (c) => {
-    const body = await readJson(c, enrolRequestSchema, deps.limits.maxJsonBytes);
+    const body = requestBody(c, enrolRequestSchema);
     if (!store.documents.latest('device-class', body.deviceClassId)) {
       throw badRequest('unknown device class', [{ path: 'deviceClassId', message: `no device class '${body.deviceClassId}' is stored` }]);
     }
@@ -43,7 +42,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
   });
 
   route('devices.list', (c) => {
-    const q = readQuery(c, deviceQuerySchema);
+    const q = requestQuery(c, deviceQuerySchema);
     const filter = { ...(q.class !== undefined ? { deviceClassId: q.class } : {}), ...(q.tag !== undefined ? { tag: q.tag } : {}) };
     let list = store.devices.list(filter).map(view);
     if (q.online !== undefined) list = list.filter((d) => d.online === (q.online === 'true'));
@@ -67,7 +66,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('devices.assign', async (c) => {
     const id = c.req.param('id') ?? '';
-    const body = await readJson(c, assignRequestSchema, deps.limits.maxJsonBytes);
+    const body = requestBody(c, assignRequestSchema);
     const result = await assignRelease(store, deps.publisher, {
       deviceId: id,
       releaseId: body.releaseId,

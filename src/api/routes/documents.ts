@@ -2,12 +2,11 @@ import type { Context } from 'hono';
 import type { DocumentRecord } from '../../store/documents.js';
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
-import { readJson } from '../body.js';
 import type { AppEnv, ResolvedDeps } from '../context.js';
 import { badRequest, conflict, notFound } from '../errors.js';
 import { diffJson } from '../json-diff.js';
 import { DOCUMENT_COLLECTIONS, type DocumentCollection } from '../route-table.js';
-import type { Router } from '../routing.js';
+import { requestBody, type Router } from '../routing.js';
 
 type Doc = Record<string, unknown> & { id?: string };
 
@@ -46,7 +45,7 @@ export function registerDocumentRoutes(route: Router, deps: ResolvedDeps, collec
   const { store } = deps;
 
   async function readDocument(c: Context<AppEnv>, pathId?: string): Promise<Doc & { id: string }> {
-    const doc = (await readJson(c, schema, deps.limits.maxJsonBytes)) as Doc;
+    const doc = requestBody(c, schema) as Doc;
     return withId(doc, pathId, noun);
   }
 

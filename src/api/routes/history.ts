@@ -4,10 +4,9 @@ import { createHistoryReader, type HistoryInterval, type HistoryWindow } from '.
 import { deviceHistoryQuerySchema, historyQuerySchema, resolveWindow, type HistoryQuery } from '../../fleet/queries.js';
 import { createRecordingReader } from '../../fleet/history/recording.js';
 import { createUsageReader } from '../../fleet/history/usage.js';
-import { readQuery } from '../body.js';
 import type { AppEnv, ResolvedDeps } from '../context.js';
 import { badRequest, notFound } from '../errors.js';
-import type { Router } from '../routing.js';
+import { requestQuery, type Router } from '../routing.js';
 
 function wantsCsv(c: Context<AppEnv>, q: HistoryQuery): boolean {
   if (q.format !== undefined) return q.format === 'csv';
@@ -39,7 +38,7 @@ export function registerHistoryRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('devices.history', async (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, deviceHistoryQuerySchema);
+    const q = requestQuery(c, deviceHistoryQuerySchema);
     if (!deps.store.devices.get(id)) throw notFound(`device '${id}'`);
     const w = windowOf(q);
     if (q.format === 'mcap') {
@@ -54,14 +53,14 @@ export function registerHistoryRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('history.task', (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, historyQuerySchema);
+    const q = requestQuery(c, historyQuerySchema);
     const w = windowOf(q);
     return answer(c, q, w, history.task(id, w), id);
   });
 
   route('history.release', (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, historyQuerySchema);
+    const q = requestQuery(c, historyQuerySchema);
     if (!deps.store.releases.get(id)) throw notFound(`release '${id}'`);
     const w = windowOf(q);
     return answer(c, q, w, history.release(id, w), id);
@@ -69,7 +68,7 @@ export function registerHistoryRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('devices.usage', (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, historyQuerySchema);
+    const q = requestQuery(c, historyQuerySchema);
     if (!deps.store.devices.get(id)) throw notFound(`device '${id}'`);
     const w = windowOf(q);
     const rows = usage.device(id, w.fromMs, w.toMs);

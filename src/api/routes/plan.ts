@@ -8,11 +8,10 @@ import type { Network } from '../../schema/network.js';
 import type { Task } from '../../schema/task.js';
 import type { DocumentRecord } from '../../store/documents.js';
 import type { Store } from '../../store/store.js';
-import { readJson } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { badRequest } from '../errors.js';
 import { planRequestSchema, type PlanRequest } from './plan-request.js';
-import type { Router } from '../routing.js';
+import { requestBody, type Router } from '../routing.js';
 
 /** A guard against a runaway grid on a shared server: well above what the console's options can ask for. */
 export const API_MAX_PLAN_CANDIDATES = 20_000_000;
@@ -69,7 +68,7 @@ function planDocuments(store: Store, body: PlanRequest): PlanDocuments {
 export function registerPlanRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
   route('plan', async (c) => {
-    const body = await readJson(c, planRequestSchema, deps.limits.maxJsonBytes);
+    const body = requestBody(c, planRequestSchema);
     const docs = planDocuments(store, body);
     const calibration = createCalibrator(store).forValidator(docs.deviceClass.id);
     const options: PlanOptions = {

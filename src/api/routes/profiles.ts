@@ -3,14 +3,13 @@ import { profileSchema, type Profile } from '../../schema/profile.js';
 import type { ProfileRevision } from '../../store/profiles.js';
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
-import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { badRequest, conflict, notFound } from '../errors.js';
 import { diffJson } from '../json-diff.js';
 import { checkProfile, type CheckedProfile } from '../../release/profile-inputs.js';
 import { diffQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
-import type { Router } from '../routing.js';
+import { requestBody, requestQuery, type Router } from '../routing.js';
 
 function summary(r: ProfileRevision<Profile>) {
   const { report: _report, ...rest } = r;
@@ -37,7 +36,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   route('profiles.list', (c) => c.json(store.profiles.list<Profile>().map(summary)));
 
   route('profiles.create', async (c) => {
-    const profile = await readJson(c, profileSchema, deps.limits.maxJsonBytes);
+    const profile = requestBody(c, profileSchema);
     if (store.profiles.latest(profile.id)) throw conflict(`profile '${profile.id}' already exists; use PUT to save a new revision`);
     const { report, refs } = checked(profile, 'save');
     const at = deps.clock.now().toISOString();
@@ -53,7 +52,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('profiles.update', async (c) => {
     const id = c.req.param('id') ?? '';
-    const profile = await readJson(c, profileSchema, deps.limits.maxJsonBytes);
+    const profile = requestBody(c, profileSchema);
     if (profile.id !== id) throw badRequest("the body's id does not match the path", [{ path: 'id', message: `is '${profile.id}', the path names '${id}'` }]);
     if (!store.profiles.latest(id)) throw notFound(`profile '${id}' (use POST to create it)`);
     const { report, refs } = checked(profile, 'save');
@@ -90,7 +89,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('profiles.diff', (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, diffQuerySchema);
+    const q = requestQuery(c, diffQuerySchema);
     const from = store.profiles.revision(id, q.from);
     const to = store.profiles.revision(id, q.to);
     if (!from) throw notFound(`revision ${q.from} of profile '${id}'`);
@@ -105,7 +104,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   });
 
   route('validate', async (c) => {
-    const profile = await readJson(c, profileSchema, deps.limits.maxJsonBytes);
+    const profile = requestBody(c, profileSchema);
     const { report, refs } = checked(profile, 'check');
     return c.json({ report, refs });
   });

@@ -1,12 +1,11 @@
 import { actorOf } from '../auth.js';
-import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { conflict, notFound } from '../errors.js';
 import { createRelease } from '../../release/create.js';
 import { releaseRequestSchema } from '../../release/request.js';
 import { releaseQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
-import type { Router } from '../routing.js';
+import { requestBody, requestQuery, type Router } from '../routing.js';
 
 const JSON_TYPE = 'application/json';
 
@@ -15,13 +14,13 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
   const { store, signer } = deps;
 
   route('releases.create', async (c) => {
-    const request = await readJson(c, releaseRequestSchema, deps.limits.maxJsonBytes);
+    const request = requestBody(c, releaseRequestSchema);
     const stored = unwrap(createRelease(request, { store, blobs: deps.blobs, signer, actor: actorOf(c), at: deps.clock.now().toISOString() }));
     return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 
   route('releases.list', (c) => {
-    const q = readQuery(c, releaseQuerySchema);
+    const q = requestQuery(c, releaseQuerySchema);
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
     return c.json(
       list.map((r) => {

@@ -2,11 +2,10 @@ import { createRolloutService, ROLLOUT_CAUTION } from '../../fleet/rollout/servi
 import { rolloutRequestSchema } from '../../fleet/rollout/spec.js';
 import { rolloutQuerySchema } from '../../fleet/queries.js';
 import { actorOf } from '../auth.js';
-import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError } from '../errors.js';
 import { unwrap } from '../refusals.js';
-import type { Router } from '../routing.js';
+import { requestBody, requestQuery, type Router } from '../routing.js';
 
 
 /**
@@ -18,13 +17,13 @@ export function registerRolloutRoutes(route: Router, deps: ResolvedDeps): void {
   const now = () => deps.clock.now().toISOString();
 
   route('rollouts.create', async (c) => {
-    const request = await readJson(c, rolloutRequestSchema, deps.limits.maxJsonBytes);
+    const request = requestBody(c, rolloutRequestSchema);
     const rollout = unwrap(service.create(request, actorOf(c), now()));
     return c.json({ ...rollout, caution: ROLLOUT_CAUTION }, 201);
   });
 
   route('rollouts.list', (c) => {
-    const q = readQuery(c, rolloutQuerySchema);
+    const q = requestQuery(c, rolloutQuerySchema);
     return c.json(service.list({ ...(q.status ? { status: q.status } : {}), ...(q.limit ? { limit: q.limit } : {}) }));
   });
 

@@ -1,17 +1,16 @@
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
-import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { badRequest, notFound } from '../errors.js';
 import { auditQuerySchema, tokenRequestSchema } from '../request-schemas.js';
-import type { Router } from '../routing.js';
+import { requestBody, requestQuery, type Router } from '../routing.js';
 
 /** API tokens (admin) and the audit log. */
 export function registerTokenAndAuditRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
 
   route('tokens.create', async (c) => {
-    const body = await readJson(c, tokenRequestSchema, deps.limits.maxJsonBytes);
+    const body = requestBody(c, tokenRequestSchema);
     const at = deps.clock.now().toISOString();
     const actor = actorOf(c);
     const created = store.transaction(() => {
@@ -43,7 +42,7 @@ export function registerTokenAndAuditRoutes(route: Router, deps: ResolvedDeps): 
   });
 
   route('audit', (c) => {
-    const q = readQuery(c, auditQuerySchema);
+    const q = requestQuery(c, auditQuerySchema);
     // Stored times are UTC ISO strings, so the bounds are normalised to the same form before comparing.
     const iso = (t: string | undefined) => (t === undefined ? undefined : new Date(t).toISOString());
     const filter = Object.fromEntries(

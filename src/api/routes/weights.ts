@@ -2,12 +2,12 @@ import { Readable } from 'node:stream';
 import type { Model } from '../../schema/model.js';
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
-import { readQuery, streamChunks } from '../body.js';
+import { streamChunks } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError, notFound } from '../errors.js';
 import { decideRange, etagMatches } from '../http-range.js';
 import { weightsQuerySchema } from '../request-schemas.js';
-import type { Router } from '../routing.js';
+import { requestQuery, type Router } from '../routing.js';
 
 /** Streamed, hash-checked upload and resumable, cache-validated download of model weights. */
 export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
@@ -37,7 +37,7 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('models.weights.download', (c) => {
     const id = c.req.param('id') ?? '';
-    const query = readQuery(c, weightsQuerySchema);
+    const query = requestQuery(c, weightsQuerySchema);
     const history = store.documents.history<Model>('model', id);
     if (history.length === 0) throw notFound(`model '${id}'`);
     // Without ?sha256 the latest version's weights; with it, those of any version of this model (older releases).
