@@ -6,6 +6,7 @@ import type { Store } from '../store/store.js';
 import type { TokenRecord } from '../store/tokens.js';
 import type { ErrorReporter } from './errors.js';
 import type { Signer } from '../release/signer.js';
+import { mibToBytes } from '../physics/units.js';
 
 export interface Clock {
   now(): Date;
@@ -19,8 +20,8 @@ export interface ApiLimits {
 }
 
 export const DEFAULT_LIMITS: ApiLimits = {
-  maxWeightsBytes: 512 * 1024 * 1024,
-  maxJsonBytes: 8 * 1024 * 1024,
+  maxWeightsBytes: mibToBytes(512),
+  maxJsonBytes: mibToBytes(8),
 };
 
 /** Everything the HTTP API is built from; handed in so tests give it real ones on temporary files. */

@@ -2,6 +2,7 @@ import type { MiddlewareHandler } from 'hono';
 import { METRIC_NAMES, type MetricsRegistry } from '../metrics/registry.js';
 import type { Store } from '../store/store.js';
 import type { AppEnv } from './context.js';
+import { msToS } from '../physics/units.js';
 
 /** Latency buckets in seconds, from 5 ms to 10 s (the usual spread for an API; common practice). */
 const BUCKETS_S = [0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10];
@@ -24,7 +25,7 @@ export function createHttpMetrics(registry: MetricsRegistry, store: Store): Midd
     } finally {
       const labels = { route: c.get('route') ?? 'unmatched', method: c.req.method, status: String(c.res.status) };
       requests.inc(labels);
-      duration.observe((performance.now() - started) / 1000, labels);
+      duration.observe(msToS(performance.now() - started), labels);
     }
   };
 }

@@ -7,6 +7,7 @@ import { formatSummary } from '../demo/summary.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
+import { sToMs } from '../physics/units.js';
 
 export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--port 8080] [--mqtt-port 1884] [--data DIR]
   Runs the whole system on this machine with demo data: the server with its embedded MQTT broker, the
@@ -45,7 +46,7 @@ function stopRequest(io: CliIo) {
   return {
     requested,
     stopAfter: function stopAfter(durationS: number) {
-      timer = setTimeout(() => onSignal(`${durationS} s are up`), durationS * 1000);
+      timer = setTimeout(() => onSignal(`${durationS} s are up`), sToMs(durationS));
     },
     release: function release() {
       if (timer) clearTimeout(timer);

@@ -4,8 +4,9 @@ import { startServer } from '../server/start-server.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
+import { mibToBytes } from '../physics/units.js';
 
-export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mb 512]
+export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mib 512]
                     [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
@@ -35,7 +36,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       port: { type: 'string' },
       host: { type: 'string' },
       data: { type: 'string' },
-      'max-weights-mb': { type: 'string' },
+      'max-weights-mib': { type: 'string' },
       'mqtt-port': { type: 'string' },
       broker: { type: 'string' },
       'broker-user': { type: 'string' },
@@ -43,7 +44,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
     const port = optionalNumber(values, 'port', 8080, { positive: false, integer: true });
-    const maxWeightsMb = optionalNumber(values, 'max-weights-mb', 512);
+    const maxWeightsMib = optionalNumber(values, 'max-weights-mib', 512);
     const dataDir = resolve(io.cwd, values.data ?? 'ocellus-data');
     const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
     const mqttPort = optionalNumber(values, 'mqtt-port', 1884, { positive: false, integer: true });
@@ -57,7 +58,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       dataDir,
       host: values.host ?? '127.0.0.1',
       port,
-      maxWeightsBytes: Math.floor(maxWeightsMb * 1024 * 1024),
+      maxWeightsBytes: Math.floor(mibToBytes(maxWeightsMib)),
       ...(adminToken ? { adminToken } : {}),
       bus,
       log: (line) => io.stderr(`${line}\n`),

@@ -1,4 +1,5 @@
 import { stepAt, type ShiftStep } from './shift.js';
+import { msToS } from '../physics/units.js';
 
 /** The part of a device agent a robot's own software talks to (the agent's control calls). */
 export interface RobotAgent {
@@ -76,7 +77,7 @@ export function createDemoRobot(options: DemoRobotOptions): DemoRobot {
   function tick() {
     timer = null;
     if (stopped) return;
-    const elapsedMin = options.offsetMin + ((options.nowMs() - startedMs) / 1000) * options.shiftMinPerS;
+    const elapsedMin = options.offsetMin + msToS(options.nowMs() - startedMs) * options.shiftMinPerS;
     const at = stepAt(schedule, elapsedMin);
     const key = `${at.cycle}:${at.index}`;
     if (key !== currentKey) {

@@ -10,6 +10,7 @@ import { createDemoRobot, type DemoRobot } from './robot.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES, demoRolloutRequest } from './scenario.js';
 import { GREENHOUSE_SHIFT, shiftLengthMin } from './shift.js';
 import { readStoredCounts, summarizeRollout, type DemoSummary, type RolloutSummary } from './summary.js';
+import { msToS, sToMs } from '../physics/units.js';
 
 export interface DemoOptions {
   /** Folder of the demo: the server's data under server/, each robot's agent under robots/<id>/, demo.log. */
@@ -157,7 +158,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       walker.start();
     }
 
-    const rolloutAfterMs = (options.rolloutAfterS ?? 8) * 1000;
+    const rolloutAfterMs = sToMs(options.rolloutAfterS ?? 8);
     const revisedClass = DEMO_CLASSES[0]!;
     const maybeStartRollout = async () => {
       rolloutTimer = null;
@@ -191,7 +192,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
         if (rolloutId) rollout = summarizeRollout(await api.json('GET', `/api/v1/rollouts/${rolloutId}`));
         const now = readStoredCounts(server.store);
         return {
-          elapsedS: (performance.now() - started) / 1000,
+          elapsedS: msToS(performance.now() - started),
           robots: robots.length,
           robotsOnline: now.robotsOnline,
           switches: now.switches - baseline.switches,

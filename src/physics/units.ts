@@ -1,7 +1,9 @@
 /**
  * Unit conversions: the only place in Ocellus where a quantity changes unit.
- * SI prefixes (BIPM SI Brochure, 9th edition); memory sizes use binary KiB (IEC 80000-13);
- * bandwidths and flash read rates use decimal GB and MB, as data sheets quote them (common practice).
+ * SI prefixes (BIPM SI Brochure, 9th edition); memory sizes and size limits use binary KiB and MiB
+ * (IEC 80000-13: 1 MiB = 1024² bytes); bandwidths and flash read rates use decimal GB and MB
+ * (1 MB = 10⁶ bytes), as data sheets quote them (common practice). Constants whose prefix would be
+ * ambiguous in capitals (milli m vs mega M) spell it out: MILLIWATTS_PER_WATT, BYTES_PER_MEGABYTE.
  */
 
 export const MM_PER_M = 1_000;
@@ -9,13 +11,14 @@ export const UM_PER_MM = 1_000;
 export const NM_PER_UM = 1_000;
 export const US_PER_MS = 1_000;
 export const MS_PER_S = 1_000;
-export const PJ_PER_MJ = 1e9;
+export const PICOJOULES_PER_MILLIJOULE = 1e9;
 export const BYTES_PER_KIB = 1_024;
-export const BYTES_PER_MB = 1e6;
-export const BYTES_PER_GB = 1e9;
-export const HZ_PER_MHZ = 1e6;
-export const MW_PER_W = 1_000;
-export const MJ_PER_J = 1_000;
+export const BYTES_PER_MIB = 1_024 * 1_024;
+export const BYTES_PER_MEGABYTE = 1e6;
+export const BYTES_PER_GIGABYTE = 1e9;
+export const HZ_PER_MEGAHERTZ = 1e6;
+export const MILLIWATTS_PER_WATT = 1_000;
+export const MILLIJOULES_PER_JOULE = 1_000;
 /** 1 W/m² = 10⁶ µW / 10⁴ cm² = 100 µW/cm². */
 export const UW_CM2_PER_W_M2 = 100;
 
@@ -39,18 +42,19 @@ export const sToMs = (s: number): number => s * MS_PER_S;
 export const sToUs = (s: number): number => s * 1e6;
 
 // Energy and power
-export const pjToMj = (pj: number): number => pj / PJ_PER_MJ;
-export const mjToJ = (mj: number): number => mj / MJ_PER_J;
-export const mwToW = (mw: number): number => mw / MW_PER_W;
+export const pjToMj = (pj: number): number => pj / PICOJOULES_PER_MILLIJOULE;
+export const mjToJ = (mj: number): number => mj / MILLIJOULES_PER_JOULE;
+export const mwToW = (mw: number): number => mw / MILLIWATTS_PER_WATT;
 /** mW × ms = µJ; returned in mJ. */
 export const mwMsToMj = (mw: number, ms: number): number => (mw * ms) / 1_000;
 
 // Memory and rates
 export const kibToBytes = (kib: number): number => kib * BYTES_PER_KIB;
 export const bytesToKib = (bytes: number): number => bytes / BYTES_PER_KIB;
-export const gbPerSToBytesPerS = (gbPerS: number): number => gbPerS * BYTES_PER_GB;
-export const mbPerSToBytesPerS = (mbPerS: number): number => mbPerS * BYTES_PER_MB;
-export const mhzToHz = (mhz: number): number => mhz * HZ_PER_MHZ;
+export const mibToBytes = (mib: number): number => mib * BYTES_PER_MIB;
+export const gbPerSToBytesPerS = (gbPerS: number): number => gbPerS * BYTES_PER_GIGABYTE;
+export const mbPerSToBytesPerS = (mbPerS: number): number => mbPerS * BYTES_PER_MEGABYTE;
+export const mhzToHz = (mhz: number): number => mhz * HZ_PER_MEGAHERTZ;
 
 // Radiometry
 export const wM2ToUwCm2 = (wM2: number): number => wM2 * UW_CM2_PER_W_M2;

@@ -1,5 +1,6 @@
 import type { Store } from '../../store/store.js';
 import type { EventRangeReader } from '../../store/event-ranges.js';
+import { mjToJ } from '../../physics/units.js';
 
 /** Time, frames and energy one device spent on one task in one UTC day, summed from its telemetry. */
 export interface UsageRow {
@@ -37,8 +38,8 @@ export function usageOf(reader: EventRangeReader, deviceId: string, fromMs: numb
     row.seconds += t.windowS;
     row.frames += t.frames;
     // mJ → J: ÷ 1000 (SI prefixes).
-    row.energyJ += (t.frames * t.frameEnergyMjMean) / 1000;
-    row.inferenceEnergyJ += (t.frames * t.inferenceMjMean) / 1000;
+    row.energyJ += mjToJ(t.frames * t.frameEnergyMjMean);
+    row.inferenceEnergyJ += mjToJ(t.frames * t.inferenceMjMean);
     row.windows += 1;
   }
   return [...rows.values()].sort((a, b) => (a.day === b.day ? a.task.localeCompare(b.task) : a.day.localeCompare(b.day)));

@@ -1,5 +1,6 @@
 import type { RolloutDeviceStatus } from '../../store/rollouts.js';
 import type { GateSettings, OfflinePolicy } from './spec.js';
+import { sToMs } from '../../physics/units.js';
 
 /** What the server knows of one device of a wave, gathered from its state and its events since it was assigned. */
 export interface DeviceFacts {
@@ -38,7 +39,7 @@ const s = (ms: number) => `${Math.round(ms / 100) / 10} s`;
 
 /** The offline policy: after waitS, fail the gate or leave the device out (an assigned one keeps its assignment). */
 function offlineVerdict(facts: DeviceFacts, sinceMs: number, ctx: GateContext): DeviceVerdict {
-  if (sinceMs <= ctx.offline.waitS * 1000) return { action: 'keep' };
+  if (sinceMs <= sToMs(ctx.offline.waitS)) return { action: 'keep' };
   const reason = `offline for more than ${ctx.offline.waitS} s (policy: ${ctx.offline.then})`;
   if (ctx.offline.then === 'fail') return { action: 'set', status: 'failed', reason };
   const kept = facts.status === 'waiting' ? '; not assigned' : '; it keeps the assignment and applies it when it returns';
@@ -73,7 +74,7 @@ export function judgeDevice(facts: DeviceFacts, ctx: GateContext): DeviceVerdict
       if (facts.applied) return { action: 'set', status: 'applied', reason: null };
       const since = facts.sinceAssignedMs ?? 0;
       if (!facts.online) return offlineVerdict(facts, since, ctx);
-      if (since > ctx.gate.applyTimeoutS * 1000) {
+      if (since > sToMs(ctx.gate.applyTimeoutS)) {
         const pending = facts.pendingReason ? ` (the device holds it back: ${facts.pendingReason})` : '';
         return { action: 'set', status: 'failed', reason: `not applied within ${ctx.gate.applyTimeoutS} s${pending}` };
       }
@@ -86,7 +87,7 @@ export function judgeDevice(facts: DeviceFacts, ctx: GateContext): DeviceVerdict
         return v.ok ? { action: 'set', status: 'passed', reason: v.reason } : { action: 'set', status: 'failed', reason: v.reason };
       }
       const since = facts.sinceAppliedMs ?? 0;
-      if (since > ctx.gate.telemetryTimeoutS * 1000) {
+      if (since > sToMs(ctx.gate.telemetryTimeoutS)) {
         return {
           action: 'set',
           status: 'failed',
@@ -132,5 +133,5 @@ export function judgeSteps(facts: DeviceFacts, ctx: GateContext): DeviceSteps {
  * a device's report need look only at devices older than that (and at waiting ones).
  */
 export function clockDelaysMs(ctx: Pick<GateContext, 'gate' | 'offline'>): { assignedMs: number; appliedMs: number } {
-  return { assignedMs: Math.min(ctx.gate.applyTimeoutS, ctx.offline.waitS) * 1000, appliedMs: ctx.gate.telemetryTimeoutS * 1000 };
+  return { assignedMs: sToMs(Math.min(ctx.gate.applyTimeoutS, ctx.offline.waitS)), appliedMs: sToMs(ctx.gate.telemetryTimeoutS) };
 }

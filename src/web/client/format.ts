@@ -1,3 +1,5 @@
+import { msToS } from '../../physics/units.js';
+
 /** Three significant figures or so, never exponent notation; em dash for a missing figure. */
 export function num(value: number | null | undefined, digits = 3): string {
   if (value === null || value === undefined || Number.isNaN(value)) return '—';
@@ -32,7 +34,7 @@ export function clockTime(ms: number, withSeconds: boolean): string {
 /** "4 min ago", "2 h ago", "3 d ago". */
 export function ago(iso: string | null | undefined, nowMs: number = Date.now()): string {
   if (!iso) return 'never';
-  const s = Math.round((nowMs - new Date(iso).getTime()) / 1000);
+  const s = Math.round(msToS(nowMs - new Date(iso).getTime()));
   if (s < 0) return 'just now';
   if (s < 60) return `${s} s ago`;
   if (s < 3600) return `${Math.floor(s / 60)} min ago`;
@@ -41,7 +43,7 @@ export function ago(iso: string | null | undefined, nowMs: number = Date.now()):
 }
 
 export function duration(ms: number): string {
-  const s = Math.round(ms / 1000);
+  const s = Math.round(msToS(ms));
   if (s < 60) return `${s} s`;
   if (s < 3600) return `${Math.floor(s / 60)} min ${s % 60} s`;
   const h = Math.floor(s / 3600);

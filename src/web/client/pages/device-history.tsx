@@ -3,6 +3,7 @@ import { SeriesPlot, type SeriesPoint } from '../charts/series-plot.js';
 import type { TimelineInterval, TimelineMark } from '../charts/timeline.js';
 import { useLoad, useSession } from '../context.js';
 import { dateTime, duration, num } from '../format.js';
+import { sToMs } from '../../../physics/units.js';
 
 /** One stored device event as the history route returns it: its seq, time, type and the event's own fields. */
 export interface StoredEvent {
@@ -208,7 +209,7 @@ export function DeviceUsage({ deviceId, fromMs, toMs, reloadKey }: { deviceId: s
               <tr>
                 <td>{r.day}</td>
                 <td>{r.task}</td>
-                <td class="numeric">{duration(r.seconds * 1000)}</td>
+                <td class="numeric">{duration(sToMs(r.seconds))}</td>
                 <td class="numeric">{num(r.frames)}</td>
                 <td class="numeric">{num(r.energyJ)}</td>
                 <td class="numeric">{num(r.inferenceEnergyJ)}</td>
