@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { cameraControlsSchema } from './camera-controls.js';
 import { fraction, idSchema, nonNegative, positive, positiveInt, precisionSchema } from './common.js';
 
 export const lensSchema = z.strictObject({
@@ -74,6 +75,8 @@ export const deviceClassSchema = z.strictObject({
   isp: ispSchema,
   accelerator: acceleratorSchema,
   platform: platformSchema,
+  /** Calibration tables from physical settings to the module's control codes (focus, gain, iris). */
+  controls: cameraControlsSchema.optional(),
 });
 
 export type DeviceClass = z.infer<typeof deviceClassSchema>;
