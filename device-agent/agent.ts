@@ -23,6 +23,8 @@ export interface AgentDeps {
   /** Replaces mqtt.connect (e.g. to count connections in a test). */
   mqttConnect?: MqttConnect;
   log?: (line: string) => void;
+  /** Called with the state after each change (coalesced), e.g. to tell the robot over its own middleware. */
+  onStateChange?: (state: StateMessage) => void;
 }
 
 export interface Agent {
@@ -31,6 +33,8 @@ export interface Agent {
   stop(): Promise<void>;
   state(): StateMessage;
   setTask(task: string): Promise<TaskResult>;
+  /** A task announced by the robot's middleware: like setTask, and an unknown name is also reported as a switch-failed event. */
+  robotTask(task: string): Promise<TaskResult>;
   setMotion(moving: boolean): void;
   connected(): boolean;
   controlEndpoint(): ControlEndpoint | null;
@@ -89,6 +93,7 @@ export function createAgent(deps: AgentDeps): Agent {
   function publishState() {
     stateScheduled = null;
     link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false, 'connection-lost')));
+    deps.onStateChange?.(buildState(link?.connected() ?? false));
   }
 
   function changed() {
@@ -135,6 +140,8 @@ export function createAgent(deps: AgentDeps): Agent {
 
   return {
     start: async function start() {
+      // The hardware is read first: a camera that cannot be reached stops the start with its reason.
+      await driver.start?.();
       mkdirSync(config.dataDir, { recursive: true });
       events = openEventLog(config.dataDir, clock, { log });
       const username = config.username ?? config.deviceId;
@@ -193,6 +200,7 @@ export function createAgent(deps: AgentDeps): Agent {
     },
     state: () => buildState(link?.connected() ?? false),
     setTask: (task) => runner!.setTask(task, 'local'),
+    robotTask: (task) => runner!.setTask(task, 'local', true),
     setMotion: (moving) => runner!.setMotion(moving),
     connected: () => link?.connected() ?? false,
     controlEndpoint: () => control?.endpoint ?? null,
