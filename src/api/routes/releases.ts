@@ -23,6 +23,17 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
   route('releases.list', (c) => {
     const q = readQuery(c, releaseQuerySchema);
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
+    // Robots per release: those whose own latest report says it is applied (online or not), and those assigned it.
+    const applied = new Map<string, { online: number; offline: number }>();
+    for (const s of store.deviceStates.list()) {
+      if (!s.releaseId) continue;
+      const n = applied.get(s.releaseId) ?? { online: 0, offline: 0 };
+      if (s.online) n.online += 1;
+      else n.offline += 1;
+      applied.set(s.releaseId, n);
+    }
+    const assigned = new Map<string, number>();
+    for (const d of store.devices.list()) if (d.assignedReleaseId) assigned.set(d.assignedReleaseId, (assigned.get(d.assignedReleaseId) ?? 0) + 1);
     return c.json(
       list.map((r) => {
         const release = r.parsed.release;
@@ -36,6 +47,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          robots: { applied: applied.get(r.id) ?? { online: 0, offline: 0 }, assigned: assigned.get(r.id) ?? 0 },
         };
       }),
     );

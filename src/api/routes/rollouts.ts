@@ -7,6 +7,7 @@ import type { ResolvedDeps } from '../context.js';
 import { HttpError } from '../errors.js';
 import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
+import { withWaveNumbers } from './wave-numbers.js';
 
 
 /**
@@ -20,25 +21,26 @@ export function registerRolloutRoutes(route: Router, deps: ResolvedDeps): void {
   route('rollouts.create', async (c) => {
     const request = await readJson(c, rolloutRequestSchema, deps.limits.maxJsonBytes);
     const rollout = unwrap(service.create(request, actorOf(c), now()));
-    return c.json({ ...rollout, caution: ROLLOUT_CAUTION }, 201);
+    return c.json({ ...withWaveNumbers(rollout), caution: ROLLOUT_CAUTION }, 201);
   });
 
   route('rollouts.list', (c) => {
     const q = readQuery(c, rolloutQuerySchema);
-    return c.json(service.list({ ...(q.status ? { status: q.status } : {}), ...(q.limit ? { limit: q.limit } : {}) }));
+    return c.json(service.list({ ...(q.status ? { status: q.status } : {}), ...(q.limit ? { limit: q.limit } : {}) }).map(withWaveNumbers));
   });
 
   route('rollouts.read', (c) => {
     const id = c.req.param('id') ?? '';
     const rollout = service.view(id);
     if (!rollout) throw new HttpError(404, `rollout '${id}' not found`);
-    return c.json(rollout);
+    return c.json(withWaveNumbers(rollout));
   });
 
   for (const verb of ['pause', 'resume', 'abort', 'rollback'] as const) {
     route(`rollouts.${verb}`, (c) => {
       const rollout = unwrap(service[verb](c.req.param('id') ?? '', actorOf(c), now()));
-      return c.json(verb === 'resume' || verb === 'rollback' ? { ...rollout, caution: ROLLOUT_CAUTION } : rollout);
+      const shown = withWaveNumbers(rollout);
+      return c.json(verb === 'resume' || verb === 'rollback' ? { ...shown, caution: ROLLOUT_CAUTION } : shown);
     });
   }
 }

@@ -157,7 +157,7 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
           actor,
           action: 'rollout.create',
           target: `rollout/${id}`,
-          detail: { releaseId: release.id, version: release.version, devices: ids.length, waves: plan, gate: request.gate, offline: request.offline },
+          detail: { releaseId: release.id, version: release.version, devices: ids.length, waves: plan, gate: request.gate, offline: request.offline, ...(request.note ? { note: request.note } : {}) },
         });
         return { ok: true as const, value: view(id)! };
       });
