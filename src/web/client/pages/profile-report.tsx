@@ -1,7 +1,7 @@
 import { BlurPlot, type BlurPoint } from '../charts/blur-plot.js';
 import { MtfPlot, type MtfPoint } from '../charts/mtf-plot.js';
 import { StageBars } from '../charts/stage-bars.js';
-import type { Report, Task, ValidationFigures } from '../types.js';
+import type { Report, Task, ValidationFigures } from '../../../api-client/response-types.js';
 import { ChecksTable } from '../ui/checks-table.js';
 import { StatusBadge } from '../ui/status.js';
 
