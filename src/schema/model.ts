@@ -4,8 +4,18 @@ import { fraction, finite, idSchema, nonNegative, positiveInt, precisionSchema }
 const increasing = <T>(key: keyof T & string) => (points: T[]) =>
   points.every((p, i) => i === 0 || (p[key] as number) > (points[i - 1]![key] as number));
 
-export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction() });
-export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction() });
+/** What a measured point rests on: how many images, and the 95 % Wilson score interval of the accuracy. */
+const measuredFields = {
+  images: positiveInt().optional(),
+  interval95: z.tuple([fraction(), fraction()]).optional(),
+};
+export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction(), ...measuredFields });
+export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction(), ...measuredFields });
+/**
+ * What a measured curve's accuracy means: top-1 against labels, top-1 agreement with the model's own
+ * prediction on the sharp image, or the share of images whose output map overlaps the sharp one's by IoU ≥ 0.5.
+ */
+export const curveMetricSchema = z.enum(['top1-vs-labels', 'top1-vs-sharp', 'iou50-vs-sharp']);
 
 export const modelSchema = z.strictObject({
   kind: z.literal('model').optional(),
@@ -32,6 +42,7 @@ export const modelSchema = z.strictObject({
     .min(2)
     .refine(increasing<{ snrDb: number }>('snrDb'), { message: 'points must be in strictly increasing snrDb' })
     .optional(),
+  curveMetric: curveMetricSchema.optional(),
 });
 
 export type Model = z.infer<typeof modelSchema>;
