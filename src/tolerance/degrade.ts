@@ -8,12 +8,19 @@ import sharp from 'sharp';
 import type { BlurKernel } from '../physics/blur-kernel.js';
 import type { InputSize } from './images.js';
 
+/** Kernel weights in 1/2¹⁴ steps: libvips convolves 8-bit images with an integer mask, so a fractional one would be rounded away. */
+const KERNEL_STEPS = 1 << 14;
+
 export async function convolve(pixels: Uint8Array, size: InputSize, kernel: BlurKernel): Promise<Uint8Array> {
   if (kernel.size === 1) return pixels;
-  const data = await sharp(pixels, { raw: { width: size.widthPx, height: size.heightPx, channels: size.channels } })
-    .convolve({ width: kernel.size, height: kernel.size, kernel: Array.from(kernel.weights), scale: 1, offset: 0 })
-    .raw()
-    .toBuffer();
+  const mask = Array.from(kernel.weights, (w) => Math.round(w * KERNEL_STEPS));
+  const scale = mask.reduce((a, b) => a + b, 0);
+  let pipeline = sharp(pixels, { raw: { width: size.widthPx, height: size.heightPx, channels: size.channels } })
+    .convolve({ width: kernel.size, height: kernel.size, kernel: mask, scale, offset: 0 });
+  // A grey image stays one channel (sharp would otherwise write it out as sRGB).
+  if (size.channels === 1) pipeline = pipeline.toColourspace('b-w');
+  const data = await pipeline.raw().toBuffer();
+  if (data.length !== pixels.length) throw new Error(`convolution returned ${data.length} bytes for an image of ${pixels.length}`);
   return new Uint8Array(data.buffer, data.byteOffset, data.byteLength);
 }
 
