@@ -58,7 +58,10 @@ export async function measureTolerance(req: ToleranceRequest): Promise<Tolerance
   const snrLevels = [...new Set(req.snrDb)].sort((a, b) => a - b);
   const total = images.length * (blurLevels.length + snrLevels.length + (labels ? 0 : 1));
   let done = 0;
-  const step = () => req.onProgress?.(++done, total);
+  const step = () => {
+    done++;
+    req.onProgress?.(done, total);
+  };
   const infer = (pixels: Uint8Array, snrDb?: number, normal?: () => number) => runner.run(toTensor(pixels, size, snrDb, normal), dims);
 
   const sharp: ModelOutput[] = [];
