@@ -14,6 +14,7 @@ export const commands: Record<string, CommandEntry> = {
   cost: { summary: 'MACs, parameters and (with a device class) latency and energy of a network', load: () => import('./cost.js') },
   'import-network': { summary: 'read an .onnx model file and write the network document its weights describe', load: () => import('./import-network.js') },
   tolerance: { summary: "measure a model's accuracy against blur and noise on your own images (onnxruntime, CPU)", load: () => import('./tolerance.js') },
+  render: { summary: "what the robot's network would see: a sample image through a profile's blur and noise", load: () => import('./render.js') },
   optics: { summary: 'hyperfocal distance, depth of field, diffraction and blur circles', load: () => import('./optics.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },
