@@ -29,6 +29,12 @@ export const modelSchema = z.strictObject({
   inputWidthPx: positiveInt(),
   inputHeightPx: positiveInt(),
   networkId: idSchema,
+  /**
+   * Where the network's cost comes from: its network document (the default), or the weights file itself
+   * (`weightsFile`, an ONNX file, path relative to this document); then a declared network must match it.
+   */
+  networkFrom: z.enum(['document', 'weights']).optional(),
+  weightsFile: z.string().min(1).max(500).optional(),
   precision: precisionSchema,
   /** Accuracy measured by the user on their own data at increasing total blur (pixels, blur-spot diameter). */
   accuracyVsBlur: z

@@ -4,6 +4,7 @@ import { computeChecks } from './compute-checks.js';
 import type { InferenceFigures } from './compute-checks.js';
 import type { ValidateOptions, ValidationInput } from './input.js';
 import { accuracyCheck, consistencyChecks, physicalLimitChecks } from './model-checks.js';
+import { costedInput, networkWeightsChecks } from './network-weights.js';
 import { blurCurve, blurOverRangeCheck, depthOfFieldFigures, motionBlurCheck, pixelsOnFeatureCheck, worstPoint } from './optical-checks.js';
 import type { BlurPoint } from './optical-checks.js';
 import { clippingBrightCheck, exposureFitsFrameCheck, snrDarkCheck } from './signal-checks.js';
@@ -36,13 +37,14 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
   const curve = blurCurve(input);
   const worst = worstPoint(curve);
   const dark = snrDarkCheck(input);
-  const compute = computeChecks(input, options.calibration);
+  const compute = computeChecks(costedInput(input), options.calibration);
   const accuracy = accuracyCheck(input, worst.totalPx, dark.snrDb);
   const dof = depthOfFieldFigures(input, tolerance);
 
   const checks: Check[] = [
     ...physicalLimitChecks(input),
     ...consistencyChecks(input),
+    ...networkWeightsChecks(input),
     blurOverRangeCheck(input, curve, tolerance),
     pixelsOnFeatureCheck(input),
     motionBlurCheck(input, tolerance),
