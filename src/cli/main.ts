@@ -16,6 +16,7 @@ export const commands: Record<string, CommandEntry> = {
   tolerance: { summary: "measure a model's accuracy against blur and noise on your own images (onnxruntime, CPU)", load: () => import('./tolerance.js') },
   render: { summary: "what the robot's network would see: a sample image through a profile's blur and noise", load: () => import('./render.js') },
   optics: { summary: 'hyperfocal distance, depth of field, diffraction and blur circles', load: () => import('./optics.js') },
+  mtf: { summary: 'MTF of the image chain: diffraction, defocus, pixel and motion; MTF50 and equivalent blur', load: () => import('./mtf.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },
   schema: { summary: 'print the JSON Schema of a document kind', load: () => import('./schema.js') },

@@ -34,13 +34,16 @@ describe('ocellus check', () => {
     for (const p of j.profiles) {
       expect(Object.keys(p).sort()).toEqual(['checks', 'file', 'profile', 'status']);
       expect(p.checks.length).toBeGreaterThanOrEqual(13);
-      for (const c of p.checks) expect(Object.keys(c).sort()).toEqual(['actual', 'code', 'limit', 'message', 'path', 'status', 'unit']);
+      for (const c of p.checks) expect(Object.keys(c).filter((k) => k !== 'figures').sort()).toEqual(['actual', 'code', 'limit', 'message', 'path', 'status', 'unit']);
+      // The combined blur the checks used, in both pixel units.
+      const combined = p.checks.find((c: { code: string }) => c.code === 'blur-over-range');
+      expect(combined.figures.combinedSensorPx).toBeGreaterThan(combined.figures.combinedInputPx);
     }
     const failing = j.profiles.filter((p: { status: string }) => p.status === 'fail').map((p: { profile: string }) => p.profile);
     expect(failing).toEqual(['leaf-inspection-wide-open']);
     const wide = j.profiles.find((p: { profile: string }) => p.profile === 'leaf-inspection-wide-open');
     const blur = wide.checks.find((c: { code: string }) => c.code === 'blur-over-range');
-    expect(blur).toMatchObject({ status: 'fail', path: 'camera.fNumber', unit: 'px' });
+    expect(blur).toMatchObject({ status: 'fail', path: 'camera.fNumber', unit: 'input px' });
     expect(blur.message).toContain('depth of field at f/1.8 cannot cover the range');
   });
 
