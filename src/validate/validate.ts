@@ -7,6 +7,7 @@ import { blurCurveOf, chainAt, imageSetup, workingFNumberAt, worstPoint } from '
 import type { BlurPoint } from './image-model.js';
 import { accuracyCheck, consistencyChecks, modelTaskCheck, physicalLimitChecks } from './model-checks.js';
 import { blurOverRangeCheck, depthOfFieldFigures, motionBlurCheck, pixelsOnFeatureCheck, rollingShutterSkewCheck } from './optical-checks.js';
+import { costedInput, networkWeightsChecks } from './network-weights.js';
 import { clippingBrightCheck, exposureFitsFrameCheck, snrDarkCheck } from './signal-checks.js';
 import { curvesFor, toleratedBlurPx } from './tolerance.js';
 import type { BlurUnit } from '../schema/index.js';
@@ -66,13 +67,14 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
   const featureCycPerMm = 1 / (2 * featureImageMm);
   const mtfAtFeature = Number.isFinite(worstChain.defocusBlurUm) ? systemMtf(featureCycPerMm, worstChain) : 0;
   const dark = snrDarkCheck(input);
-  const compute = computeChecks(input, options.calibration);
+  const compute = computeChecks(costedInput(input), options.calibration);
   const accuracy = accuracyCheck(input, worst, dark.snrDb);
   const dof = depthOfFieldFigures(input, tolerance);
 
   const checks: Check[] = [
     ...physicalLimitChecks(input),
     ...consistencyChecks(input),
+    ...networkWeightsChecks(input),
     modelTaskCheck(input),
     blurOverRangeCheck(input, setup, curve, tolerance),
     pixelsOnFeatureCheck(input),
