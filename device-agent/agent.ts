@@ -69,7 +69,7 @@ export function createAgent(deps: AgentDeps): Agent {
     outbox!.kick();
   }
 
-  function buildState(online: boolean): StateMessage {
+  function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {
     const v = runner!.view();
     const task = v.running?.task ?? (v.release && v.activeTask ? v.release.tasks[v.activeTask] : undefined);
     return {
@@ -86,12 +86,13 @@ export function createAgent(deps: AgentDeps): Agent {
       pending: v.pending,
       refused: v.refused,
       lastSeq: events!.lastSeq(),
+      ...(!online && offlineReason ? { offlineReason } : {}),
     };
   }
 
   function publishState() {
     stateScheduled = null;
-    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false)));
+    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false, 'connection-lost')));
     deps.onStateChange?.(buildState(link?.connected() ?? false));
   }
 
@@ -156,7 +157,7 @@ export function createAgent(deps: AgentDeps): Agent {
       const restoring = runner.restore();
       link = openLink({
         deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
-        willPayload: JSON.stringify(buildState(false)), reconnectMs: config.reconnectMs, log, onMessage,
+        willPayload: JSON.stringify(buildState(false, 'connection-lost')), reconnectMs: config.reconnectMs, keepaliveS: config.keepaliveS, log, onMessage,
         ...(deps.mqttConnect ? { mqttConnect: deps.mqttConnect } : {}),
         onConnected: () => {
           log(`agent: connected to ${config.brokerUrl} as ${username}`);
@@ -172,7 +173,7 @@ export function createAgent(deps: AgentDeps): Agent {
         restoring,
         startControlServer(endpoint, {
           setTask: (task) => runner!.setTask(task, 'local'),
-          setMotion: (moving) => (runner!.setMotion(moving), { status: 200, body: { ok: true, moving } }),
+          setMotion: (moving) => runner!.setMotion(moving),
           state: () => buildState(link?.connected() ?? false),
         }),
       ]);
@@ -192,7 +193,7 @@ export function createAgent(deps: AgentDeps): Agent {
       await runner?.idle();
       await releases?.settle();
       outbox?.close();
-      await link?.close(runner ? JSON.stringify(buildState(false)) : undefined);
+      await link?.close(runner ? JSON.stringify(buildState(false, 'shutdown')) : undefined);
       await control?.close();
       events?.close();
       await driver.close?.();

@@ -36,6 +36,8 @@ export const agentSettingsSchema = z.strictObject({
   ackTimeoutMs: z.number().int().min(100).default(2000),
   cacheMaxBytes: z.number().int().positive().default(2 * 1024 ** 3),
   reconnectMs: z.number().int().min(100).default(1000),
+  /** MQTT keep-alive: the broker drops the connection (and publishes the last will) after 1.5 × this without a packet. */
+  keepaliveS: z.number().int().min(1).max(65535).default(30),
   /** Simulated driver only. */
   simTimeScale: z.number().min(0).default(1),
   simEfficiency: z.number().positive().default(1),
@@ -85,7 +87,7 @@ type Key = keyof AgentSettings;
 export type AgentConfig = Omit<AgentSettings, 'publicKeyPath'> & { publicKeyPem: string };
 
 const NUMBER_KEYS = new Set<Key>([
-  'controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'simTimeScale', 'simEfficiency', 'simSeed',
+  'controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'keepaliveS', 'simTimeScale', 'simEfficiency', 'simSeed',
   'v4l2TolerancePct', 'libcameraTolerancePct', 'commandTimeoutMs', 'rosReconnectMs', 'rosReconnectMaxMs',
 ]);
 const KEYS = Object.keys(agentSettingsSchema.shape) as Key[];

@@ -31,6 +31,15 @@ export const sensorSchema = z.strictObject({
   readoutEnergyPjPerPixel: nonNegative(),
   /** Wavelength used for diffraction and photon counts; 550 nm is the usual photopic choice (common practice). */
   designWavelengthNm: positive().default(550),
+  /** How rows are exposed: all at once ("global"), or one after another during readout ("rolling"). */
+  shutter: z.enum(['global', 'rolling']).default('global'),
+  /**
+   * Time between the starts of two successive rows of a rolling shutter, µs. When left out it follows from
+   * readoutMsPerFrame / heightPx (the rows are read out evenly over the frame readout).
+   */
+  lineTimeUs: positive().optional(),
+  /** Share of the pixel's area that collects light (a square active area of side pitch·√fillFactor); 1 for back-side illuminated sensors. */
+  fillFactor: fraction().refine((v) => v > 0, { message: 'must be greater than 0' }).default(1),
 });
 
 export const ispSchema = z.strictObject({

@@ -142,7 +142,7 @@ export function agentConfig(deviceId: string, password: string, brokerUrl: strin
     ...settingDefaults(),
     deviceId, deviceClassId: demoDeviceClass.id, brokerUrl, password, serverUrl, publicKeyPem: keys.publicKeyPem, dataDir,
     driver: 'sim', controlHost: '127.0.0.1', controlPort: 0, telemetryIntervalS: 3600, ackTimeoutMs: 500,
-    cacheMaxBytes: 64 * 1024 * 1024, reconnectMs: 200, simTimeScale: 0, simEfficiency: 1, simSeed: 7, ...extra,
+    cacheMaxBytes: 64 * 1024 * 1024, reconnectMs: 200, keepaliveS: 30, simTimeScale: 0, simEfficiency: 1, simSeed: 7, ...extra,
   };
 }
 
