@@ -44,3 +44,14 @@ describe('robot-side configuration: drivers and task sources', () => {
     expect(!bad.ok && bad.issues.map((i) => i.path)).toEqual(['/etc/ocellus/agent.json: driver', '/etc/ocellus/agent.json: cameraCommand']);
   });
 });
+
+describe('ocellus-agent --help', () => {
+  it('shows each driver and task source with an example and the safety caution', async () => {
+    const { runAgentCommand } = await import('../support/agent-process-rig.js');
+    const r = await runAgentCommand(['--help']);
+    expect(r.code).toBe(0);
+    for (const text of ['--driver v4l2 --v4l2-device /dev/video0', '--driver libcamera', '--driver command', '--task-source ros2 --rosbridge-url ws://127.0.0.1:9090', 'std_msgs/msg/String', '--rosbridge-url (OCELLUS_AGENT_ROSBRIDGE_URL)', 'can hide obstacles']) {
+      expect(r.stdout).toContain(text);
+    }
+  });
+});
