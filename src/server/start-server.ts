@@ -5,7 +5,7 @@ import type { ReleasePublisher } from '../fleet/rollout/assign.js';
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';
-import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
+import { createBlobStore, loadKeyChain, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
 import { seedAdminToken, type AdminSeed } from './admin-seed.js';
 
 /** What the bus hook is handed: the open store and the metrics registry, both shared with the HTTP API. */
@@ -85,8 +85,10 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
   let stopEngine: () => Promise<void> = async () => {};
   try {
     const blobs = createBlobStore(options.dataDir);
+    // The chain first: it finishes a key rotation a crash interrupted before the key is read.
+    const keyChain = loadKeyChain(options.dataDir);
     const key = loadOrCreateSigningKey(options.dataDir, generateSigningKeyPair);
-    const signer = createSigner(key);
+    const signer = createSigner(key, keyChain);
     const metrics = createMetricsRegistry();
     const adminSeed = seedAdminToken(store, options.adminToken, (options.clock?.now() ?? new Date()).toISOString());
 
