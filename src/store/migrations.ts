@@ -178,6 +178,13 @@ export const migrations: Migration[] = [
       CREATE INDEX drift_events_by_device ON drift_events (device_id, quantity, id);
     `,
   },
+  {
+    version: 4,
+    name: 'rollback through re-issued releases',
+    // A rollback no longer re-sends the old release (devices refuse a lower sequence): each moved device gets
+    // a re-issue of its previous release, a new release with a higher sequence, recorded here.
+    sql: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

@@ -3,7 +3,8 @@ import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
-import { conflict, notFound } from '../errors.js';
+import { conflict, HttpError, notFound } from '../errors.js';
+import { reissueRelease } from '../../release/reissue.js';
 import { buildRelease } from '../../release/build.js';
 import { releaseQuerySchema, releaseRequestSchema } from '../request-schemas.js';
 import type { Router } from '../routing.js';
@@ -38,6 +39,14 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     return c.json(signed, 201);
   });
 
+  route('releases.reissue', (c) => {
+    const at = deps.clock.now().toISOString();
+    const id = c.req.param('id') ?? '';
+    const result = store.transaction(() => reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at }));
+    if (!result.ok) throw new HttpError(result.code === 'release-not-found' ? 404 : 409, result.message, { issues: result.issues });
+    return c.json(result.signed, 201);
+  });
+
   route('releases.list', (c) => {
     const q = readQuery(c, releaseQuerySchema);
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
@@ -54,6 +63,9 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          format: release.format,
+          expiresAt: release.expiresAt ?? null,
+          reissueOf: release.reissueOf ?? null,
         };
       }),
     );
