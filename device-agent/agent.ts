@@ -27,6 +27,8 @@ export interface AgentDeps {
   /** Replaces mqtt.connect (e.g. to count connections in a test). */
   mqttConnect?: MqttConnect;
   log?: (line: string) => void;
+  /** Called with the state after each change (coalesced), e.g. to tell the robot over its own middleware. */
+  onStateChange?: (state: StateMessage) => void;
 }
 
 export interface Agent {
@@ -35,6 +37,8 @@ export interface Agent {
   stop(): Promise<void>;
   state(): StateMessage;
   setTask(task: string): Promise<TaskResult>;
+  /** A task announced by the robot's middleware: like setTask, and an unknown name is also reported as a switch-failed event. */
+  robotTask(task: string): Promise<TaskResult>;
   setMotion(moving: boolean): void;
   connected(): boolean;
   controlEndpoint(): ControlEndpoint | null;
@@ -69,7 +73,7 @@ export function createAgent(deps: AgentDeps): Agent {
     outbox!.kick();
   }
 
-  function buildState(online: boolean): StateMessage {
+  function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {
     const v = runner!.view();
     const task = v.running?.task ?? (v.release && v.activeTask ? taskOf(v.release, v.activeTask) : undefined);
     const storageFault = events!.fault() ?? releases!.fault();
@@ -89,12 +93,14 @@ export function createAgent(deps: AgentDeps): Agent {
       lastSeq: events!.lastSeq(),
       releaseDigest: v.digest,
       storageFault: storageFault === null ? null : storageFault.slice(0, 500),
+      ...(!online && offlineReason ? { offlineReason } : {}),
     };
   }
 
   function publishState() {
     stateScheduled = null;
-    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false)));
+    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false, 'connection-lost')));
+    deps.onStateChange?.(buildState(link?.connected() ?? false));
   }
 
   function changed() {
@@ -141,6 +147,8 @@ export function createAgent(deps: AgentDeps): Agent {
 
   return {
     start: async function start() {
+      // The hardware is read first: a camera that cannot be reached stops the start with its reason.
+      await driver.start?.();
       mkdirSync(config.dataDir, { recursive: true, mode: 0o700 });
       for (const path of sweepTemporaryFiles([config.dataDir, join(config.dataDir, 'weights')])) log(`agent: removed ${path}, left by an interrupted write`);
       events = openEventLog(config.dataDir, clock, { log, onFault: changed, ...(deps.eventWrite ? { write: deps.eventWrite } : {}) });
@@ -157,7 +165,7 @@ export function createAgent(deps: AgentDeps): Agent {
       const restoring = runner.restore();
       link = openLink({
         deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
-        willPayload: JSON.stringify(buildState(false)), reconnectMs: config.reconnectMs, log, onMessage,
+        willPayload: JSON.stringify(buildState(false, 'connection-lost')), reconnectMs: config.reconnectMs, keepaliveS: config.keepaliveS, log, onMessage,
         ...(deps.mqttConnect ? { mqttConnect: deps.mqttConnect } : {}),
         onConnected: () => {
           log(`agent: connected to ${config.brokerUrl} as ${username}`);
@@ -199,13 +207,14 @@ export function createAgent(deps: AgentDeps): Agent {
       await releases?.settle();
       outbox?.close();
       releases?.close();
-      await link?.close(runner ? JSON.stringify(buildState(false)) : undefined);
+      await link?.close(runner ? JSON.stringify(buildState(false, 'shutdown')) : undefined);
       await control?.close();
       events?.close();
       await driver.close?.();
     },
     state: () => buildState(link?.connected() ?? false),
     setTask: (task) => runner!.setTask(task, 'local'),
+    robotTask: (task) => runner!.setTask(task, 'local', true),
     setMotion: (moving) => runner!.setMotion(moving),
     connected: () => link?.connected() ?? false,
     controlEndpoint: () => control?.endpoint ?? null,

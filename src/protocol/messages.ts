@@ -28,6 +28,11 @@ export const stateMessageSchema = z.strictObject({
   releaseDigest: z.string().regex(/^[0-9a-f]{64}$/).nullable().optional(),
   /** Why the agent keeps events or its run state in memory only (a full disk, say); null when all is on disk. */
   storageFault: z.string().max(500).nullable().optional(),
+  /**
+   * On an offline state only: 'shutdown' when the agent published it itself before a clean disconnect,
+   * 'connection-lost' in the last will the broker publishes when the connection drops. Absent from older agents.
+   */
+  offlineReason: z.enum(['shutdown', 'connection-lost']).optional(),
 });
 export type StateMessage = z.infer<typeof stateMessageSchema>;
 

@@ -118,3 +118,22 @@ export function weightsPathByHash(model: { id: string; sha256: string }): string
 export function taskOf(release: Pick<Release, 'tasks'>, name: string): ReleaseTask | undefined {
   return Object.hasOwn(release.tasks, name) ? release.tasks[name] : undefined;
 }
+
+/**
+ * A signed release as it travels: `raw` is the exact text that was stored and is sent (the bytes on the bus
+ * are these, never a re-serialization of `parsed`), `parsed` its reading.
+ */
+export interface SignedReleaseText {
+  raw: string;
+  parsed: SignedRelease;
+}
+
+/** The text form of a freshly signed release (what storing it would keep). */
+export function signedReleaseText(signed: SignedRelease): SignedReleaseText {
+  return { raw: JSON.stringify(signed), parsed: signed };
+}
+
+/** Delivers a signed release to one device; the bus does it with a retained message on the device's release topic. */
+export interface ReleasePublisher {
+  publishRelease(deviceId: string, release: SignedReleaseText): Promise<void>;
+}

@@ -1,4 +1,3 @@
-import { signedReleaseSchema } from '../protocol/release.js';
 import type { DeviceStateRecord } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
 
@@ -18,9 +17,7 @@ export function weightsInScope(store: Store, deviceId: string, state: DeviceStat
   for (const id of ids) {
     const record = store.releases.get(id);
     if (!record || record.deviceClassId !== device?.deviceClassId) continue;
-    const parsed = signedReleaseSchema.safeParse(record.signed);
-    if (!parsed.success) continue;
-    for (const task of Object.values(parsed.data.release.tasks)) hashes.add(task.model.sha256);
+    for (const task of Object.values(record.parsed.release.tasks)) hashes.add(task.model.sha256);
   }
   return hashes;
 }

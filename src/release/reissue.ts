@@ -1,4 +1,4 @@
-import { RELEASE_FORMAT, releaseSchema, signedReleaseSchema, weightsPathByHash, type Release, type SignedRelease } from '../protocol/release.js';
+import { RELEASE_FORMAT, releaseSchema, weightsPathByHash, type Release, type SignedRelease } from '../protocol/release.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
 import { expiryFor, releaseIdFor } from './build.js';
@@ -26,7 +26,7 @@ export interface ReissueContext {
 export function reissueRelease(sourceId: string, ctx: ReissueContext): ReissueResult {
   const record = ctx.store.releases.get(sourceId);
   if (!record) return { ok: false, code: 'release-not-found', message: `no release '${sourceId}' is stored`, issues: [{ path: 'releaseId', message: sourceId }] };
-  const source = signedReleaseSchema.parse(record.signed).release;
+  const source = record.parsed.release;
   const missing = Object.entries(source.tasks)
     .filter(([, t]) => ctx.blobs.sizeOf(t.model.sha256) === null)
     .map(([name, t]) => ({ path: `tasks.${name}.model`, message: `weights ${t.model.sha256} of model '${t.model.id}' are no longer stored` }));

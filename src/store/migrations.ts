@@ -180,6 +180,22 @@ export const migrations: Migration[] = [
   },
   {
     version: 4,
+    name: 'bus bridge: device connection changes seen by the server',
+    sql: `
+      CREATE TABLE device_connections (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        device_id TEXT NOT NULL,
+        at TEXT NOT NULL,
+        online INTEGER NOT NULL CHECK (online IN (0, 1)),
+        cause TEXT NOT NULL,
+        release_id TEXT,
+        task TEXT
+      );
+      CREATE INDEX device_connections_by_device ON device_connections (device_id, at, id);
+    `,
+  },
+  {
+    version: 5,
     name: 'rollback through re-issued releases',
     // A rollback no longer re-sends the old release (devices refuse a lower sequence): each moved device gets
     // a re-issue of its previous release, a new release with a higher sequence, recorded here.

@@ -13,6 +13,7 @@ import { DEMO_CATALOG_DIR } from '../../src/demo/scenario.js';
 import { candidateToProfile, plan, type Candidate, type PlanResult } from '../../src/plan/index.js';
 import type { Check } from '../../src/schema/index.js';
 import { createHarness, removeDir, tempDataDir, type Harness } from '../support/api-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 interface PlanAnswer extends PlanResult {
   calibration: unknown;
@@ -53,8 +54,9 @@ describe('POST /api/v1/plan', () => {
     expect(res.status).toBe(200);
     const answer = (await res.json()) as PlanAnswer;
     expect(answer.front.length).toBeGreaterThan(0);
-    // Without modelIds: the stored models of the accelerator's precision (int8 for gh-scout-a), none skipped.
-    expect(answer.searched.modelIds.sort()).toEqual(['fruit-finder-a', 'leaf-check-a', 'row-guide-a']);
+    // Without modelIds: the stored models measured for the task and of the accelerator's precision (int8 for
+    // gh-scout-a), none skipped: the row-guidance and leaf models were not measured for fruit counting.
+    expect(answer.searched.modelIds.sort()).toEqual(['fruit-finder-a']);
     expect(answer.skipped).toEqual([]);
     expect(answer.calibration).toBeNull();
     expect(answer.refs.task).toEqual({ id: 'fruit-counting', version: 1 });
@@ -97,6 +99,10 @@ describe('POST /api/v1/plan', () => {
     const base = findDocument(catalog, 'task', 'fruit-counting')!;
     const created = await h.call('POST', '/api/v1/tasks', { body: { ...base, id: 'fruit-counting-impossible', name: 'Fruit counting in 5 ms (demo data)', latencyBudgetMs: 5 } });
     expect(created.status).toBe(201);
+    // The detector, measured for this task too (a new version of the model document).
+    const finder = findDocument(catalog, 'model', 'fruit-finder-a')!;
+    const measured = await h.call('PUT', '/api/v1/models/fruit-finder-a', { body: { ...finder, measuredForTaskIds: [...finder.measuredForTaskIds!, 'fruit-counting-impossible'] } });
+    expect(measured.status, await measured.clone().text()).toBeLessThan(300);
     const res = await planCall({ taskId: 'fruit-counting-impossible', deviceClassId: 'gh-scout-a' });
     expect(res.status).toBe(200);
     const answer = (await res.json()) as PlanAnswer;
@@ -151,7 +157,7 @@ describe('POST /api/v1/plan', () => {
     // Three units, eight windows of 50 frames each: 24 windows and 1,200 frames, over the class minimum
     // (CALIBRATION_MINIMUM: 20 windows, 1,000 frames, 3 devices). Every unit measures 1.25 × the predicted
     // time and 0.9 × the energy, so the least-squares factors through the origin are exactly those.
-    const insert = h.store.db.prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+    const insert = sqliteHandle(h.store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
     for (const unit of ['gh-a-cal-1', 'gh-a-cal-2', 'gh-a-cal-3']) {
       expect((await h.call('POST', '/api/v1/devices', { body: { id: unit, deviceClassId: 'gh-scout-a', tags: [] } })).status).toBe(201);
       for (let seq = 1; seq <= 8; seq++) {

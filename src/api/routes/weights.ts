@@ -9,12 +9,10 @@ import { decideRange, etagMatches } from '../http-range.js';
 import { weightsQuerySchema } from '../request-schemas.js';
 import type { Router } from '../routing.js';
 import { weightsInScope } from '../../release/download-scope.js';
-import { createDeviceStateRepository, type DeviceStateRepository } from '../../store/device-state.js';
 
 /** Streamed, hash-checked upload and resumable, cache-validated download of model weights. */
 export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
   const { store, blobs } = deps;
-  let states: DeviceStateRepository | null = null;
 
   route('models.weights.upload', async (c) => {
     const id = c.req.param('id') ?? '';
@@ -48,8 +46,7 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     if (!history.some((v) => v.document.sha256 === sha256)) throw notFound(`weights ${sha256} of model '${id}'`);
     const principal = c.get('principal');
     if (principal?.kind === 'device') {
-      if (!states && store.hasTable('device_state')) states = createDeviceStateRepository(store.db);
-      if (!weightsInScope(store, principal.deviceId, states?.get(principal.deviceId) ?? null).has(sha256)) {
+      if (!weightsInScope(store, principal.deviceId, store.deviceStates.get(principal.deviceId)).has(sha256)) {
         throw new HttpError(403, `device '${principal.deviceId}' may download only the weights of its assigned or reported releases`, {
           issues: [{ path: 'query.sha256', message: `${sha256} (model '${id}') is in none of them` }],
         });
