@@ -1,12 +1,13 @@
-import { RELEASE_FORMAT, releaseSchema, weightsPathByHash, type Release, type SignedRelease } from '../protocol/release.js';
+import { RELEASE_FORMAT, releaseSchema, weightsPathByHash, type Release } from '../protocol/release.js';
+import { refuse, type Outcome } from '../schema/refusal.js';
+import type { ReleaseRecord } from '../store/releases.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
 import { expiryFor, releaseIdFor } from './build.js';
 import type { Signer } from './signer.js';
 
-export type ReissueResult =
-  | { ok: true; signed: SignedRelease }
-  | { ok: false; code: 'release-not-found' | 'weights-missing'; message: string; issues: Array<{ path: string; message: string }> };
+export type ReissueRefusalCode = 'reissue-source-not-found' | 'weights-missing';
+export type ReissueResult = Outcome<ReleaseRecord, ReissueRefusalCode>;
 
 export interface ReissueContext {
   store: Store;
@@ -21,16 +22,16 @@ export interface ReissueContext {
  * Going back to an older release: a NEW release, with the next sequence number of its device class, a
  * fresh expiry and the old release's content (tasks, weights by hash, default task, apply policy,
  * audience), naming the release it re-issues. Devices refuse a lower sequence than they applied, so
- * this is the only way back. Signs and stores it; call inside a transaction.
+ * this is the only way back. Signs and stores it with its audit entry; call inside a transaction.
  */
 export function reissueRelease(sourceId: string, ctx: ReissueContext): ReissueResult {
   const record = ctx.store.releases.get(sourceId);
-  if (!record) return { ok: false, code: 'release-not-found', message: `no release '${sourceId}' is stored`, issues: [{ path: 'releaseId', message: sourceId }] };
+  if (!record) return refuse('reissue-source-not-found', `no release '${sourceId}' is stored`, [{ path: 'releaseId', message: sourceId }]);
   const source = record.parsed.release;
   const missing = Object.entries(source.tasks)
     .filter(([, t]) => ctx.blobs.sizeOf(t.model.sha256) === null)
     .map(([name, t]) => ({ path: `tasks.${name}.model`, message: `weights ${t.model.sha256} of model '${t.model.id}' are no longer stored` }));
-  if (missing.length > 0) return { ok: false, code: 'weights-missing', message: `release '${sourceId}' cannot be re-issued: weights are missing`, issues: missing };
+  if (missing.length > 0) return refuse('weights-missing', `release '${sourceId}' cannot be re-issued: weights are missing`, missing);
   const version = ctx.store.releases.nextVersion(source.deviceClassId);
   const origin = source.reissueOf ?? { releaseId: source.id, version: source.version };
   const release: Release = releaseSchema.parse({
@@ -52,7 +53,7 @@ export function reissueRelease(sourceId: string, ctx: ReissueContext): ReissueRe
     ...(source.override ? { override: source.override } : {}),
   });
   const signed = ctx.signer.sign(release);
-  ctx.store.releases.insert({ id: release.id, deviceClassId: release.deviceClassId, version, createdAt: ctx.at, createdBy: ctx.actor, signed });
+  const stored = ctx.store.releases.insert({ id: release.id, deviceClassId: release.deviceClassId, version, createdAt: ctx.at, createdBy: ctx.actor, signed });
   ctx.store.audit.record({
     at: ctx.at,
     actor: ctx.actor,
@@ -60,5 +61,5 @@ export function reissueRelease(sourceId: string, ctx: ReissueContext): ReissueRe
     target: `release/${release.id}`,
     detail: { version, reissueOf: origin, from: source.id, keyId: signed.keyId },
   });
-  return { ok: true, signed };
+  return { ok: true, value: stored };
 }
