@@ -74,6 +74,8 @@ export interface ReleaseSummary {
   defaultTask: string;
   tasks: Record<string, { profileId: string; revision: number }>;
   overridden: boolean;
+  /** Robots whose latest report says they run it (online and offline), and robots assigned it. */
+  robots?: { applied: { online: number; offline: number }; assigned: number };
 }
 
 export interface AuditEntry {
@@ -100,6 +102,8 @@ export interface RolloutSummary {
   waveCount: number;
   currentWave: number;
   pauseReason: unknown;
+  /** The rollout as requested: its note, gate and offline rules. */
+  spec?: { note?: string };
   createdAt: string;
   createdBy: string;
   updatedAt: string;

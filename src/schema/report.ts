@@ -18,6 +18,7 @@ export const CHECK_CODES = [
   'average-power',
   'memory-fits-sram',
   'network-cost',
+  'network-weights',
   'model-network',
   'model-precision',
   'model-task',

@@ -140,7 +140,7 @@ describe('rollout across a SIGKILL of the server process', () => {
     });
     expect(created.status).toBe(201);
     rolloutId = created.body.id;
-    await waitFor(async () => (await api('GET', `/api/v1/rollouts/${rolloutId}`)).body.currentWave >= 2, 'rollout reached its third wave', 60_000);
+    await waitFor(async () => (await api('GET', `/api/v1/rollouts/${rolloutId}`)).body.currentWave >= 3, 'rollout reached its third wave', 60_000);
 
     const killed = new Promise<NodeJS.Signals | null>((r) => server!.once('exit', (_code, signal) => r(signal)));
     server!.kill('SIGKILL');

@@ -2,6 +2,7 @@ import { actorOf } from '../auth.js';
 import type { ResolvedDeps } from '../context.js';
 import { conflict, notFound } from '../errors.js';
 import { createRelease } from '../../release/create.js';
+import { reissueRelease } from '../../release/reissue.js';
 import { releaseRequestSchema } from '../../release/request.js';
 import { releaseQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
@@ -19,9 +20,27 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 
+  route('releases.reissue', (c) => {
+    const at = deps.clock.now().toISOString();
+    const id = c.req.param('id') ?? '';
+    const stored = unwrap(store.transaction(() => reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at })));
+    return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
+  });
+
   route('releases.list', (c) => {
     const q = requestQuery(c, releaseQuerySchema);
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
+    // Robots per release: those whose own latest report says it is applied (online or not), and those assigned it.
+    const applied = new Map<string, { online: number; offline: number }>();
+    for (const s of store.deviceStates.list()) {
+      if (!s.releaseId) continue;
+      const n = applied.get(s.releaseId) ?? { online: 0, offline: 0 };
+      if (s.online) n.online += 1;
+      else n.offline += 1;
+      applied.set(s.releaseId, n);
+    }
+    const assigned = new Map<string, number>();
+    for (const d of store.devices.list()) if (d.assignedReleaseId) assigned.set(d.assignedReleaseId, (assigned.get(d.assignedReleaseId) ?? 0) + 1);
     return c.json(
       list.map((r) => {
         const release = r.parsed.release;
@@ -35,6 +54,10 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          format: release.format,
+          expiresAt: release.expiresAt ?? null,
+          reissueOf: release.reissueOf ?? null,
+          robots: { applied: applied.get(r.id) ?? { online: 0, offline: 0 }, assigned: assigned.get(r.id) ?? 0 },
         };
       }),
     );

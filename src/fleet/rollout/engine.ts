@@ -109,7 +109,8 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const at = new Date(nowMs).toISOString();
     if (r.waveStartedAt === null) {
       repo.startWave(r.id, r.currentWave, at);
-      audit(r, 'rollout.wave-start', at, { wave: r.currentWave });
+      // Audit details number waves from 1, as the API and the console do.
+      audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 1 });
       r = repo.get(r.id)!;
     }
     const spec = r.spec as RolloutSpec;
@@ -161,11 +162,11 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         const failures = repo.devices(r.id, r.currentWave).filter((d) => d.status === 'failed').map((d) => ({ deviceId: d.deviceId, reason: d.reason ?? 'failed' }));
         const reason = { kind: 'gate', wave: r.currentWave, at, failures };
         repo.setStatus(r.id, 'paused', at, reason);
-        audit(r, 'rollout.pause', at, reason);
-        log(`rollout ${r.id}: wave ${r.currentWave} failed its gate (${failures.map((f) => f.deviceId).join(', ')}); paused`);
+        audit(r, 'rollout.pause', at, { ...reason, wave: r.currentWave + 1 });
+        log(`rollout ${r.id}: wave ${r.currentWave + 1} failed its gate (${failures.map((f) => f.deviceId).join(', ')}); paused`);
       } else if (r.currentWave + 1 < r.waveCount) {
         repo.startWave(r.id, r.currentWave + 1, at);
-        audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 1, previousWavePassed: r.currentWave });
+        audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 2, previousWavePassed: r.currentWave + 1 });
         waveOpened = true;
       } else {
         repo.setStatus(r.id, 'completed', at);
@@ -184,7 +185,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       for (const d of moved) {
         if (d.rollbackStatus === null && d.previousReleaseId === null) repo.markRollback(r.id, d.deviceId, 'nothing-to-restore', null);
         else if (d.rollbackStatus === null) toRestore.push(d);
-        else if (d.rollbackStatus === 'assigned' && facts.reported(d.deviceId)?.releaseId === d.previousReleaseId) {
+        else if (d.rollbackStatus === 'assigned' && facts.reported(d.deviceId)?.releaseId === (d.restoreReleaseId ?? d.previousReleaseId)) {
           repo.setRollbackStatus(r.id, d.deviceId, 'restored');
         }
       }
