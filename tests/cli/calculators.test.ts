@@ -13,7 +13,7 @@ async function ocellus(...args: string[]) {
 describe('ocellus optics', () => {
   const lens = ['--focal-length-mm', '50', '--f-number', '8', '--coc-mm', '0.03'];
 
-  it('50 mm f/8 c = 0.03 mm: hyperfocal 10.467 m; focused there, near H/2 and far infinite (null) (REFERENCES.md worked example; Greenleaf 1950)', async () => {
+  it('50 mm f/8 c = 0.03 mm: hyperfocal 10.467 m; focused there, near H/2 and far infinite (null) (Greenleaf, "Photographic Optics", 1950; worked by hand)', async () => {
     const r = await ocellus('optics', ...lens, '--focus-m', String(10.4666667), '--json');
     expect(r.code).toBe(0);
     const j = r.json();
@@ -23,13 +23,13 @@ describe('ocellus optics', () => {
     expect(j.far_m).toBeNull();
   });
 
-  it('Airy disk 2.44·λ·N = 10.7 µm and MTF cutoff 1/(λN) = 227 cycles/mm at 550 nm, f/8 (REFERENCES.md)', async () => {
+  it('Airy disk 2.44·λ·N = 10.7 µm and MTF cutoff 1/(λN) = 227 cycles/mm at 550 nm, f/8 (Born & Wolf, "Principles of Optics", §8.5; Goodman, "Introduction to Fourier Optics", incoherent cutoff; from memory)', async () => {
     const j = (await ocellus('optics', ...lens, '--focus-m', '5', '--json')).json();
     expect(j.airy_diameter_um).toBeCloseTo(10.736, 3);
     expect(j.mtf_cutoff_cyc_per_mm).toBeCloseTo(227.27, 2);
   });
 
-  it('focused at 5 m the far limit is s(H−f)/(H−s) = 9.53 m and blur circles follow b = (|d−s|/d)·f²/(N(s−f)) (REFERENCES.md)', async () => {
+  it('focused at 5 m the far limit is s(H−f)/(H−s) = 9.53 m and blur circles follow b = (|d−s|/d)·f²/(N(s−f)) (Greenleaf, "Photographic Optics", 1950)', async () => {
     const j = (await ocellus('optics', ...lens, '--focus-m', '5', '--at-m', '2', '--at-m', '5', '--json')).json();
     const h = 2500 / (8 * 0.03) + 50;
     expect(j.near_m).toBeCloseTo((5000 * (h - 50)) / (h + 5000 - 100) / 1000, 6);
@@ -63,7 +63,7 @@ describe('ocellus optics', () => {
 });
 
 describe('ocellus exposure', () => {
-  it('meter equation N²/t = L·S/K: 400 cd/m² at ISO 100, K = 12.5 → N²/t = 3200, so f/8 needs 0.02 s; EV = log2(3200) = 11.64 (ISO 2720, REFERENCES.md)', async () => {
+  it('meter equation N²/t = L·S/K: 400 cd/m² at ISO 100, K = 12.5 → N²/t = 3200, so f/8 needs 0.02 s; EV = log2(3200) = 11.64 (ISO 2720:1974, K = 12.5 within its 10.6–13.4)', async () => {
     const r = await ocellus('exposure', '--luminance-cd-m2', '400', '--f-number', '8', '--exposure-s', '0.02', '--iso', '100', '--json');
     expect(r.code).toBe(0);
     const j = r.json();
@@ -95,7 +95,7 @@ describe('ocellus exposure', () => {
 describe('ocellus photons', () => {
   const base = ['--pixel-pitch-um', '1', '--exposure-ms', '1', '--wavelength-nm', '1000', '--qe', '0.5', '--dark-noise-e', '2', '--gain-dn-per-e', '1'];
 
-  it('1 µm², 1 ms, 1 µm, 1 µW/cm² gives 50.34 photons (EMVA 1288 3.1 constant, REFERENCES.md)', async () => {
+  it('1 µm², 1 ms, 1 µm, 1 µW/cm² gives 50.34 photons (EMVA 1288 release 3.1: A·E·t·λ/(h·c))', async () => {
     const r = await ocellus('photons', '--irradiance-uw-cm2', '1', ...base, '--json');
     expect(r.code).toBe(0);
     const j = r.json();

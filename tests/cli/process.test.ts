@@ -34,7 +34,7 @@ describe('ocellus as a process', () => {
     expect(r.out).toContain('passes');
   });
 
-  it('the launcher works from another folder and passes --json output through (hyperfocal 10.467 m, REFERENCES.md)', async () => {
+  it('the launcher works from another folder and passes --json output through (hyperfocal 10.467 m, Greenleaf, "Photographic Optics", 1950)', async () => {
     const r = await run([launcher, 'optics', '--focal-length-mm', '50', '--f-number', '8', '--focus-m', '3', '--coc-mm', '0.03', '--json'], elsewhere);
     expect(r.code).toBe(0);
     expect(JSON.parse(r.out).hyperfocal_m).toBeCloseTo(10.467, 3);

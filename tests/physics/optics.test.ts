@@ -18,7 +18,7 @@ describe('hyperfocal distance and depth of field (thin lens, Greenleaf 1950)', (
   const c = 0.03;
   const h = hyperfocalDistanceMm(f, n, c);
 
-  it('50 mm at f/8 with c = 0.03 mm has H = 10,467 mm (worked example, REFERENCES.md / Greenleaf form H = f²/(Nc) + f)', () => {
+  it('50 mm at f/8 with c = 0.03 mm has H = 10,467 mm (Greenleaf, "Photographic Optics", 1950: H = f²/(Nc) + f; worked by hand)', () => {
     expect(h).toBeCloseTo(10_466.67, 1);
     expect(Math.round(h)).toBe(10_467);
   });
@@ -118,7 +118,7 @@ describe('focus for a working range', () => {
 });
 
 describe('diffraction (Born & Wolf; Goodman)', () => {
-  it('Airy disk diameter at 550 nm and f/8 is 10.7 µm (2.44·λ·N, REFERENCES.md)', () => {
+  it('Airy disk diameter at 550 nm and f/8 is 10.7 µm (2.44·λ·N, Born & Wolf, "Principles of Optics", §8.5, from memory)', () => {
     expect(airyDiameterUm(550, 8)).toBeCloseTo(10.736, 3);
     expect(Math.round(airyDiameterUm(550, 8) * 10) / 10).toBe(10.7);
   });
@@ -133,7 +133,7 @@ describe('geometry', () => {
     expect(fieldOfViewDeg(50, 36)).toBeCloseTo(39.6, 1);
   });
 
-  it('one 3 µm pixel behind a 10 mm lens covers 0.3 mm at 1 m (d·p/f, pinhole approximation, REFERENCES.md; hand-worked)', () => {
+  it('one 3 µm pixel behind a 10 mm lens covers 0.3 mm at 1 m (d·p/f, similar triangles of the pinhole camera model, common practice; hand-worked)', () => {
     expect(objectPixelSizeMm(1_000, 3, 10)).toBeCloseTo(0.3, 12);
   });
 

@@ -95,7 +95,7 @@ describe('EMVA 1288 release 3.1 linear camera model', () => {
   });
 });
 
-describe('motion blur v·t·f/(d·p) (REFERENCES.md, pinhole approximation)', () => {
+describe('motion blur v·t·f/(d·p) (pinhole camera model, similar triangles; common practice)', () => {
   it('1 m/s for 1 ms at 2 m with an 8 mm lens and 2 µm pixels smears 2 px (hand-worked: 1 mm · 8/2,000 = 4 µm)', () => {
     expect(motionBlurPx(1, 1_000, 8, 2, 2)).toBeCloseTo(2, 12);
   });

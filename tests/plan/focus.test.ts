@@ -16,7 +16,7 @@ import { testDeviceClass, testTask } from '../support/plan-fixtures.js';
 
 describe('focus for a working range', () => {
   // Worked example. Blur-circle diameter for an object at d when focused at s (thin lens; Greenleaf,
-  // "Photographic Optics", 1950, as given in REFERENCES.md): b = (|d − s| / d) · f² / (N·(s − f)).
+  // "Photographic Optics", 1950): b = (|d − s| / d) · f² / (N·(s − f)).
   // The factor f²/(N(s − f)) is common to both ends, so equal blur at a and b needs
   //   (s − a)/a = (b − s)/b  ⇒  s = 2ab/(a + b), the harmonic mean of the two distances.
   // a = 0.3 m, b = 1.2 m: s = 2·0.3·1.2/1.5 = 0.72/1.5 = 0.48 m.

@@ -129,7 +129,7 @@ describe('distances sampled over the working range', () => {
   });
 });
 
-describe('pixels-on-feature (pixel footprint d·p/f, pinhole approximation, REFERENCES.md)', () => {
+describe('pixels-on-feature (pixel footprint d·p/f, pinhole camera model; common practice)', () => {
   // At 1.1 m: 1100 mm · 0.005 mm / 10 mm = 0.55 mm per pixel; a 10 mm feature spans 18.18 sensor px;
   // the 250 px wide network input sees ×250/1000 = 4.545 px.
   it('counts the pixels in the network input after downscaling, and says so', () => {
@@ -151,7 +151,7 @@ describe('pixels-on-feature (pixel footprint d·p/f, pinhole approximation, REFE
   });
 });
 
-describe('motion-blur (v·t·f/(d·p) at the near end, REFERENCES.md)', () => {
+describe('motion-blur (v·t·f/(d·p) at the near end, pinhole camera model; common practice)', () => {
   // 1 m/s · 1 ms = 1 mm of travel; × 10 mm / 900 mm / 0.005 mm = 2.222 px.
   it('2.22 px at 0.9 m is within a task limit of 3 px', () => {
     const c = checkOf(validate(fixture({ task: { maxRelativeSpeedMPerS: 1, maxMotionBlurPx: 3 } })), 'motion-blur');
