@@ -22,7 +22,7 @@ import type { TaskSource } from './task-sources/task-source.js';
 
 const USAGE = `usage:
   ocellus-agent [run] [options]              start the agent
-  ocellus-agent task NAME [endpoint]         switch the running task
+  ocellus-agent task NAME [endpoint] [--json] switch the running task
   ocellus-agent motion moving|stopped [endpoint]
   ocellus-agent state [endpoint]             print the agent's state
 endpoint: --data-dir DIR (reads DIR/control.json), --control-port N, or --control-socket PATH
