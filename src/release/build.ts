@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import { z } from 'zod';
-import { RELEASE_FORMAT, releaseSchema, type Release, type ReleaseTask } from '../protocol/release.js';
+import { RELEASE_FORMAT, releaseSchema, weightsPathByHash, type Release, type ReleaseTask } from '../protocol/release.js';
 import type { DeviceClass } from '../schema/device-class.js';
 import type { InputIssue } from '../schema/issues.js';
 import type { Model } from '../schema/model.js';
@@ -8,9 +8,16 @@ import type { Profile } from '../schema/profile.js';
 import type { Check } from '../schema/report.js';
 import type { Task } from '../schema/task.js';
 import type { BlobStore } from '../store/blobs.js';
+import { refuse, type Outcome } from '../schema/refusal.js';
 import type { Store } from '../store/store.js';
-import { badRequest, conflict, HttpError } from '../api/errors.js';
-import type { ReleaseRequest } from '../api/request-schemas.js';
+import type { ReleaseRequest } from './request.js';
+
+/**
+ * Why a release cannot be built: a device class or profile revisions that are not stored, revisions that
+ * cannot go into it (another class, an older class version, weights not uploaded, no estimate to ship),
+ * or revisions whose checks failed with no override reason given.
+ */
+export type ReleaseRefusalCode = 'unknown-device-class' | 'revisions-not-stored' | 'revisions-unfit' | 'checks-failed';
 
 /** The figures of a validation report a release ships as the prediction for each task. */
 const predictionFiguresSchema = z.object({
@@ -26,25 +33,38 @@ export function releaseIdFor(deviceClassId: string, version: number): string {
   return `${deviceClassId.slice(0, 64 - suffix.length - tag.length - 1)}-${tag}${suffix}`;
 }
 
+/**
+ * How long a device may start applying a release after it was made (its signed expiry). A device that
+ * finds an expired release keeps what it runs and reports the refusal; a re-issue gives it a fresh one.
+ */
+export const RELEASE_VALIDITY_DAYS = 90;
+
 export interface BuildContext {
   store: Store;
   blobs: BlobStore;
   actor: string;
   at: string;
+  /** Days until the release expires; RELEASE_VALIDITY_DAYS when absent. */
+  validityDays?: number;
+}
+
+/** The signed expiry of a release made at `at`. */
+export function expiryFor(at: string, validityDays = RELEASE_VALIDITY_DAYS): string {
+  return new Date(Date.parse(at) + validityDays * 86_400_000).toISOString();
 }
 
 /**
- * Builds the release a request asks for from stored, immutable profile revisions. Refuses (as HttpError):
- * unknown references (400), revisions for another device class or validated against an older version of it,
- * weights not uploaded (409), and revisions whose checks failed (422, listing them) unless an override
- * reason is given, which the release then carries. Call inside the transaction that stores the release,
- * so the version number cannot be taken twice.
+ * Builds the release a request asks for from stored, immutable profile revisions. Refuses, with a code:
+ * unknown references, revisions for another device class or validated against an older version of it,
+ * weights not uploaded, and revisions whose checks failed (listing them) unless an override reason is
+ * given, which the release then carries. Call inside the transaction that stores the release, so the
+ * version number cannot be taken twice.
  */
-export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Release {
+export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Outcome<Release, ReleaseRefusalCode> {
   const { store, blobs } = ctx;
   const deviceClass = store.documents.latest<DeviceClass>('device-class', request.deviceClassId);
   if (!deviceClass) {
-    throw badRequest('unknown device class', [{ path: 'deviceClassId', message: `no device class '${request.deviceClassId}' is stored` }]);
+    return refuse('unknown-device-class', 'unknown device class', [{ path: 'deviceClassId', message: `no device class '${request.deviceClassId}' is stored` }]);
   }
   const missing: InputIssue[] = [];
   const mismatched: InputIssue[] = [];
@@ -96,7 +116,7 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Releas
         version: model.document.version,
         sha256: model.document.sha256,
         sizeBytes: model.document.sizeBytes,
-        weightsPath: `/api/v1/models/${model.id}/weights`,
+        weightsPath: weightsPathByHash({ id: model.id, sha256: model.document.sha256 }),
       },
       frameRateHz: task.document.frameRateHz,
       predicted: {
@@ -107,15 +127,12 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Releas
       },
     };
   }
-  if (missing.length > 0) throw badRequest('the release refers to profile revisions that are not stored', missing);
-  if (mismatched.length > 0) throw conflict('some profile revisions cannot go into this release', mismatched);
+  if (missing.length > 0) return refuse('revisions-not-stored', 'the release refers to profile revisions that are not stored', missing);
+  if (mismatched.length > 0) return refuse('revisions-unfit', 'some profile revisions cannot go into this release', mismatched);
   const failingNames = Object.keys(failing);
   if (failingNames.length > 0 && !request.override) {
     const issues = failingNames.flatMap((name) => failing[name]!.map((ch) => ({ path: `tasks.${name}`, message: `${ch.code}: ${ch.message}` })));
-    throw new HttpError(422, 'some profile revisions fail their checks; fix them, or give override.reason to release anyway', {
-      issues,
-      extra: { failingChecks: failing },
-    });
+    return refuse('checks-failed', 'some profile revisions fail their checks; fix them, or give override.reason to release anyway', issues, { failingChecks: failing });
   }
 
   const version = store.releases.nextVersion(request.deviceClassId);
@@ -127,11 +144,13 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Releas
     deviceClass: deviceClass.document,
     createdAt: ctx.at,
     createdBy: ctx.actor,
+    audience: { deviceClassId: request.deviceClassId, ...(request.deviceIds ? { deviceIds: request.deviceIds } : {}) },
+    expiresAt: expiryFor(ctx.at, ctx.validityDays),
     applyPolicy: request.applyPolicy,
     defaultTask: request.defaultTask,
     tasks,
     ...(failingNames.length > 0 && request.override ? { override: { reason: request.override.reason, by: ctx.actor } } : {}),
   };
   // The protocol schema is the contract with devices: a release that does not fit it is a fault here, not input.
-  return releaseSchema.parse(release);
+  return { ok: true, value: releaseSchema.parse(release) };
 }

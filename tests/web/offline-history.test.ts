@@ -38,11 +38,11 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
       deviceId: ROBOT, deviceClassId: 'gh-scout-a', brokerUrl: proxy.url, password: enrolled.mqtt.password, serverUrl: rig.server.url,
       publicKeyPath: join(dir.path, 'key.pem'), dataDir: join(dir.path, 'agent'), controlPort: 0, telemetryIntervalS: 1, keepaliveS: 1, reconnectMs: 200,
     });
-    agent = createAgent({ config: { ...settings, publicKeyPem }, driver: createSimDriver({ clock: systemClock, timeScale: 0, efficiency: 1, seed: 77 }) });
+    agent = createAgent({ config: { ...settings, password: enrolled.mqtt.password, publicKeyPem }, driver: createSimDriver({ clock: systemClock, timeScale: 0, efficiency: 1, seed: 77 }) });
     await agent.start();
     await rig.api.json('POST', `/api/v1/devices/${ROBOT}/assign`, { releaseId: rig.firstReleases.get('gh-scout-a') });
     await until(() => (agent.state().releaseId === rig.firstReleases.get('gh-scout-a') ? true : undefined), 'the robot to apply its release');
-    expect((await agent.setTask('row-navigation')).body.ok).toBe(true);
+    expect((await agent.setTask('row-navigation')).ok).toBe(true);
     await until(() => (agent.unackedEvents() === 0 ? true : undefined), 'the switch to be stored');
   }, 180_000);
 
@@ -99,7 +99,7 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
   it('back in coverage, what it did meanwhile fills the offline stretch in, hatched as reported after the fact', async () => {
     // While away the robot moved on to the leaves; the agent keeps the switch on disk.
     await until(() => (agent.connected() ? undefined : true), 'the agent to notice the link is gone');
-    expect((await agent.setTask('leaf-inspection')).body.ok).toBe(true);
+    expect((await agent.setTask('leaf-inspection')).ok).toBe(true);
     await new Promise((r) => setTimeout(r, 500));
     proxy.thaw();
     await until(() => (agent.connected() && agent.unackedEvents() === 0 ? true : undefined), 'the buffered events to be delivered');

@@ -1,12 +1,15 @@
-import type { Release } from '../../protocol/release.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { conflict, notFound } from '../errors.js';
-import { buildRelease } from '../../release/build.js';
-import { releaseQuerySchema, releaseRequestSchema } from '../request-schemas.js';
+import { createRelease } from '../../release/create.js';
+import { reissueRelease } from '../../release/reissue.js';
+import { releaseRequestSchema } from '../../release/request.js';
+import { releaseQuerySchema } from '../request-schemas.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
+
+const JSON_TYPE = 'application/json';
 
 /** Releases: built from validated revisions, signed with the server's key, stored, and never changed. */
 export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
@@ -14,28 +17,15 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('releases.create', async (c) => {
     const request = await readJson(c, releaseRequestSchema, deps.limits.maxJsonBytes);
+    const stored = unwrap(createRelease(request, { store, blobs: deps.blobs, signer, actor: actorOf(c), at: deps.clock.now().toISOString() }));
+    return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
+  });
+
+  route('releases.reissue', (c) => {
     const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const signed = store.transaction(() => {
-      const release = buildRelease(request, { store, blobs: deps.blobs, actor, at });
-      const s = signer.sign(release);
-      store.releases.insert({ id: release.id, deviceClassId: release.deviceClassId, version: release.version, createdAt: at, createdBy: actor, signed: s });
-      recordChange(store, {
-        at,
-        actor,
-        action: 'release.create',
-        target: `release/${release.id}`,
-        detail: {
-          version: release.version,
-          deviceClassId: release.deviceClassId,
-          tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
-          keyId: s.keyId,
-          override: release.override ?? null,
-        },
-      });
-      return s;
-    });
-    return c.json(signed, 201);
+    const id = c.req.param('id') ?? '';
+    const stored = unwrap(store.transaction(() => reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at })));
+    return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 
   route('releases.list', (c) => {
@@ -65,6 +55,9 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          format: release.format,
+          expiresAt: release.expiresAt ?? null,
+          reissueOf: release.reissueOf ?? null,
           robots: { applied: applied.get(r.id) ?? { online: 0, offline: 0 }, assigned: assigned.get(r.id) ?? 0 },
         };
       }),
@@ -75,7 +68,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     const r = store.releases.get(c.req.param('id') ?? '');
     if (!r) throw notFound(`release '${c.req.param('id')}'`);
     // The stored text, byte for byte: what the signature was made over and what devices receive.
-    return c.body(r.raw, 200, { 'content-type': 'application/json; charset=UTF-8' });
+    return c.body(r.raw, 200, { 'content-type': JSON_TYPE });
   });
 
   for (const key of ['releases.replace', 'releases.patch', 'releases.delete']) {

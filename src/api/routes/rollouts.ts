@@ -1,29 +1,27 @@
-import { createRolloutService, ROLLOUT_CAUTION, type ServiceError, type ServiceResult } from '../../fleet/rollout/service.js';
+import { createRolloutService, ROLLOUT_CAUTION } from '../../fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../../fleet/rollout/spec.js';
 import { rolloutQuerySchema } from '../../fleet/queries.js';
+import { reissueRelease } from '../../release/reissue.js';
 import { actorOf } from '../auth.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError } from '../errors.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
 import { withWaveNumbers } from './wave-numbers.js';
 
-function toHttp(e: ServiceError): HttpError {
-  const status = e.code === 'not-found' ? 404 : e.code === 'conflict' ? 409 : 400;
-  return new HttpError(status, e.message, { issues: e.issues, ...(e.detail ? { extra: e.detail } : {}) });
-}
-
-function unwrap<T>(r: ServiceResult<T>): T {
-  if (!r.ok) throw toHttp(r);
-  return r.value;
-}
 
 /**
  * Rollouts: a release sent to a set of devices in waves, each wave passing its gate before the next starts.
  * The routes only change the stored rollout; the fleet's rollout engine does the assigning on its next tick.
  */
 export function registerRolloutRoutes(route: Router, deps: ResolvedDeps): void {
-  const service = createRolloutService(deps.store);
+  const service = createRolloutService(deps.store, {
+    reissue: function reissue(releaseId, actor, at) {
+      const r = reissueRelease(releaseId, { store: deps.store, blobs: deps.blobs, signer: deps.signer, actor, at });
+      return r.ok ? { ok: true, releaseId: r.value.id } : { ok: false, message: r.message, issues: r.issues };
+    },
+  });
   const now = () => deps.clock.now().toISOString();
 
   route('rollouts.create', async (c) => {

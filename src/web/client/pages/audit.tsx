@@ -1,7 +1,7 @@
 import { useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
-import type { AuditEntry } from '../types.js';
+import type { AuditEntry } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading } from '../ui/status.js';
 
 interface Filter {

@@ -2,7 +2,7 @@ import { useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { ReleaseSummary } from '../types.js';
+import type { ReleaseSummary } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, SafetyCaution } from '../ui/status.js';
 import { ReleaseForm } from './release-form.js';
 import { RolloutsPanel } from './rollouts.js';

@@ -2,7 +2,7 @@ import { useEffect, useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { ReleaseSummary, RolloutDetail, RolloutDevice, RolloutSummary } from '../types.js';
+import type { ReleaseSummary, RolloutDetail, RolloutDevice, RolloutSummary } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading } from '../ui/status.js';
 import { RolloutForm } from './rollout-form.js';
 
