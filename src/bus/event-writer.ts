@@ -14,8 +14,12 @@ export interface EventWriter {
   close(): Promise<void>;
 }
 
-/** Writes on the calling thread, through the store's own connection. */
+/**
+ * Writes on the calling thread, through the store's own connection, which it switches to synchronous = FULL:
+ * its commits precede acks, as the worker's connection's do (see event-writer-connection.ts).
+ */
 export function createInlineEventWriter(store: Pick<Store, 'db' | 'transaction'>): EventWriter {
+  store.db.pragma('synchronous = FULL');
   const events = createDeviceEventRepository(store.db);
   const writer = { events, states: createDeviceStateRepository(store.db), cursor: createEventCursor(events), transaction: store.transaction };
   return {

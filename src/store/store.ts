@@ -1,7 +1,8 @@
 import Database from 'better-sqlite3';
-import { mkdirSync } from 'node:fs';
+import { chmodSync, closeSync, mkdirSync, openSync } from 'node:fs';
 import { join } from 'node:path';
 import { createAuditRepository, type AuditRepository } from './audit.js';
+import { loadOrCreateDeviceSecretKey } from './device-secret-key.js';
 import { createDeviceRepository, type DeviceRepository } from './devices.js';
 import { createDocumentRepository, type DocumentRepository } from './documents.js';
 import { applyMigrations, migrations as defaultMigrations, type Migration } from './migrations.js';
@@ -36,8 +37,13 @@ export interface OpenStoreOptions {
 
 /** Opens (creating when needed) `<dataDir>/ocellus.db` in WAL mode with foreign keys on, and migrates it. */
 export function openStore(dataDir: string, options: OpenStoreOptions = {}): Store {
-  mkdirSync(dataDir, { recursive: true });
-  const db = new Database(join(dataDir, 'ocellus.db'));
+  // Only the server's user reads the data: the database holds credentials' hashes and device reports.
+  mkdirSync(dataDir, { recursive: true, mode: 0o700 });
+  const dbPath = join(dataDir, 'ocellus.db');
+  // Created (or tightened) 0600 before SQLite opens it; SQLite gives the -wal and -shm files the database's mode.
+  closeSync(openSync(dbPath, 'a', 0o600));
+  chmodSync(dbPath, 0o600);
+  const db = new Database(dbPath);
   try {
     db.pragma('journal_mode = WAL');
     db.pragma('foreign_keys = ON');
@@ -49,7 +55,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     db.close();
     throw e;
   }
-  const devices = createDeviceRepository(db);
+  const devices = createDeviceRepository(db, loadOrCreateDeviceSecretKey(dataDir));
   const hasTableStmt = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?");
 
   return {

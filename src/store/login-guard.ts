@@ -1,0 +1,79 @@
+/** Why a device login was refused, as counted in the failed-login metric. */
+export type LoginRefusal = 'bad-credentials' | 'revoked' | 'source-limited' | 'id-limited' | 'client-id-mismatch' | 'session-in-use';
+
+export interface LoginGuardOptions {
+  /** Failed logins allowed from one source address within a window before it is refused unchecked. */
+  maxFailuresPerSource?: number;
+  /** Failed logins allowed for one device id within a window, from anywhere. */
+  maxFailuresPerId?: number;
+  windowMs?: number;
+  /** Entries kept per table; the oldest are forgotten past this, so a flood of made-up ids cannot grow memory. */
+  maxEntries?: number;
+  clock?: { now(): Date };
+}
+
+export interface LoginGuard {
+  /** Null when an attempt may be checked; otherwise why it is refused without checking. */
+  refusal(deviceId: string, source: string): 'source-limited' | 'id-limited' | null;
+  failed(deviceId: string, source: string): void;
+  /** A correct login clears its source's count (an agent that had a stale password and was fixed). */
+  succeeded(deviceId: string, source: string): void;
+}
+
+interface Window {
+  startMs: number;
+  failures: number;
+}
+
+/**
+ * Fixed-window counters of failed device logins per source address and per device id, shared by the
+ * broker and the weights route. Secrets are 192-bit random values, so the limit is not what stops guessing;
+ * it keeps one source from spending the server's time and the log on refusals. The per-id limit means an
+ * attacker can keep a device that is offline from logging in for a window; a device that is online is not
+ * touched (one live session per device, see the broker).
+ */
+export function createLoginGuard(options: LoginGuardOptions = {}): LoginGuard {
+  const perSource = options.maxFailuresPerSource ?? 20;
+  const perId = options.maxFailuresPerId ?? 10;
+  const windowMs = options.windowMs ?? 60_000;
+  const maxEntries = options.maxEntries ?? 10_000;
+  const clock = options.clock ?? { now: () => new Date() };
+  const sources = new Map<string, Window>();
+  const ids = new Map<string, Window>();
+
+  function current(table: Map<string, Window>, key: string, nowMs: number): Window | undefined {
+    const w = table.get(key);
+    if (w && nowMs - w.startMs >= windowMs) {
+      table.delete(key);
+      return undefined;
+    }
+    return w;
+  }
+
+  function count(table: Map<string, Window>, key: string, nowMs: number): void {
+    const w = current(table, key, nowMs);
+    if (w) {
+      w.failures += 1;
+      return;
+    }
+    if (table.size >= maxEntries) table.delete(table.keys().next().value as string);
+    table.set(key, { startMs: nowMs, failures: 1 });
+  }
+
+  return {
+    refusal: function loginRefusal(deviceId, source) {
+      const nowMs = clock.now().getTime();
+      if ((current(sources, source, nowMs)?.failures ?? 0) >= perSource) return 'source-limited';
+      if ((current(ids, deviceId, nowMs)?.failures ?? 0) >= perId) return 'id-limited';
+      return null;
+    },
+    failed: function loginFailed(deviceId, source) {
+      const nowMs = clock.now().getTime();
+      count(sources, source, nowMs);
+      count(ids, deviceId, nowMs);
+    },
+    succeeded: function loginSucceeded(_deviceId, source) {
+      sources.delete(source);
+    },
+  };
+}
