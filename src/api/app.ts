@@ -1,5 +1,6 @@
 import { Hono } from 'hono';
 import { createMetricsRegistry, PROMETHEUS_CONTENT_TYPE } from '../metrics/registry.js';
+import { createLoginGuard } from '../store/login-guard.js';
 import { createChangeFeed } from './change-feed.js';
 import type { AppDeps, AppEnv, ResolvedDeps } from './context.js';
 import { DEFAULT_LIMITS } from './context.js';
@@ -34,13 +35,15 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
     metrics: deps.metrics ?? createMetricsRegistry(),
     limits: { ...DEFAULT_LIMITS, ...deps.limits },
     changes: deps.changes ?? createChangeFeed(),
+    loginGuard: deps.loginGuard ?? createLoginGuard(deps.clock ? { clock: deps.clock } : {}),
+    sessions: deps.sessions,
   };
   const app = new Hono<AppEnv>();
   app.use('*', createHttpMetrics(resolved.metrics, resolved.store));
   app.onError(createErrorHandler(deps.onError ?? reportToStderr));
   app.notFound((c) => c.json({ error: `no route ${c.req.method} ${c.req.path}`, issues: [] } satisfies ErrorBody, 404));
 
-  const route = createRouter(app, resolved.store);
+  const route = createRouter(app, resolved);
   // First: its middleware announces every successful change made through the routes registered after it.
   registerWebRoutes(app, route, resolved, deps.consoleDir);
   registerDocumentRoutes(route, resolved, 'device-classes');

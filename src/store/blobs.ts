@@ -8,7 +8,7 @@ const SHA256_HEX = /^[0-9a-f]{64}$/;
 
 export type BlobPutResult =
   | { ok: true; sha256: string; sizeBytes: number }
-  | { ok: false; reason: 'too-large' | 'hash-mismatch' | 'size-mismatch'; detail: string };
+  | { ok: false; reason: 'too-large' | 'over-declared-size' | 'hash-mismatch' | 'size-mismatch'; detail: string };
 
 export interface BlobPutExpectation {
   /** The hash the content must have; nothing is kept unless it matches. */
@@ -73,7 +73,7 @@ export function createBlobStore(dataDir: string): BlobStore {
         }
         // Cut at the declared size: the rest of an oversized body is never read or written.
         if (expect.sizeBytes !== undefined && sizeBytes > expect.sizeBytes) {
-          return { ok: false, reason: 'size-mismatch', detail: `content is more than the ${expect.sizeBytes} bytes the model declares` };
+          return { ok: false, reason: 'over-declared-size', detail: `content is more than the ${expect.sizeBytes} bytes the model declares` };
         }
         hash.update(chunk);
         await file.write(chunk);

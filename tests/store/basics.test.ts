@@ -151,7 +151,8 @@ describe('content-addressed weights', () => {
     const wrong = 'a'.repeat(64);
     expect(await blobs.put(Readable.from([bytes]), { sha256: wrong, maxBytes: 1000 })).toMatchObject({ ok: false, reason: 'hash-mismatch' });
     expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 8 })).toMatchObject({ ok: false, reason: 'too-large' });
-    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: 3 })).toMatchObject({ ok: false, reason: 'size-mismatch' });
+    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: 3 })).toMatchObject({ ok: false, reason: 'over-declared-size' });
+    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: bytes.length + 5 })).toMatchObject({ ok: false, reason: 'size-mismatch' });
     expect(blobs.sizeOf(sha)).toBeNull();
     expect(blobs.sizeOf(wrong)).toBeNull();
     expect(readdirSync(join(dir, 'blobs', 'tmp'))).toEqual([]);
