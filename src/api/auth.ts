@@ -60,14 +60,13 @@ export async function authorize(c: Context<AppEnv>, access: Access, deps: AuthDe
     if (!creds) throw unauthorized('unknown device or wrong password', scheme);
     const failures = deps.metrics.counter(METRIC_NAMES.deviceLoginFailures, 'Device logins refused, by where (mqtt, http) and why');
     const source = sourceOf(c);
-    const limited = deps.loginGuard.refusal(creds.user, source);
+    const limited = deps.loginGuard.attempt(creds.user, source);
     if (limited) {
       failures.inc({ via: 'http', reason: limited });
       throw new HttpError(429, 'too many failed device logins; try again later', { headers: { 'Retry-After': '60' } });
     }
     const result = await store.devices.checkLogin(creds.user, creds.password);
     if (!result.ok) {
-      deps.loginGuard.failed(creds.user, source);
       failures.inc({ via: 'http', reason: result.reason });
       throw unauthorized('unknown device or wrong password', scheme);
     }

@@ -141,7 +141,7 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
         refuseLogin('client-id-mismatch', where);
         return done(refusal(`client id must be the device id ${deviceId}`, 2), false);
       }
-      const limited = guard.refusal(deviceId, conn.source);
+      const limited = guard.attempt(deviceId, conn.source);
       if (limited) {
         refuseLogin(limited, where);
         return done(refusal('too many failed logins; try again later', 5), false);
@@ -152,7 +152,6 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
           (check) => {
             const result = normalise(check);
             if (!result.ok) {
-              guard.failed(deviceId, conn.source);
               refuseLogin(result.reason, where);
               return done(refusal(`bad credentials for device ${deviceId}`), false);
             }

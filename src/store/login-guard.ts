@@ -13,10 +13,13 @@ export interface LoginGuardOptions {
 }
 
 export interface LoginGuard {
-  /** Null when an attempt may be checked; otherwise why it is refused without checking. */
-  refusal(deviceId: string, source: string): 'source-limited' | 'id-limited' | null;
-  failed(deviceId: string, source: string): void;
-  /** A correct login clears its source's count (an agent that had a stale password and was fixed). */
+  /**
+   * Starts a login attempt: null when it may be checked, and then it counts as a failure until `succeeded`
+   * says otherwise, so a burst of concurrent attempts is limited before any of their checks finishes.
+   * Otherwise why it is refused without checking.
+   */
+  attempt(deviceId: string, source: string): 'source-limited' | 'id-limited' | null;
+  /** The attempt was correct: it no longer counts, and its source's failures are forgotten (a fixed agent). */
   succeeded(deviceId: string, source: string): void;
 }
 
@@ -61,19 +64,18 @@ export function createLoginGuard(options: LoginGuardOptions = {}): LoginGuard {
   }
 
   return {
-    refusal: function loginRefusal(deviceId, source) {
+    attempt: function loginAttempt(deviceId, source) {
       const nowMs = clock.now().getTime();
       if ((current(sources, source, nowMs)?.failures ?? 0) >= perSource) return 'source-limited';
       if ((current(ids, deviceId, nowMs)?.failures ?? 0) >= perId) return 'id-limited';
-      return null;
-    },
-    failed: function loginFailed(deviceId, source) {
-      const nowMs = clock.now().getTime();
       count(sources, source, nowMs);
       count(ids, deviceId, nowMs);
+      return null;
     },
-    succeeded: function loginSucceeded(_deviceId, source) {
+    succeeded: function loginSucceeded(deviceId, source) {
       sources.delete(source);
+      const w = ids.get(deviceId);
+      if (w && w.failures > 0) w.failures -= 1;
     },
   };
 }

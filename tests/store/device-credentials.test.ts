@@ -100,23 +100,31 @@ describe('failed-login limits', () => {
   it('refuses a source after its failures in a window, then a device id, and forgets both when the window ends', () => {
     let nowMs = 0;
     const guard = createLoginGuard({ maxFailuresPerSource: 3, maxFailuresPerId: 5, windowMs: 60_000, clock: { now: () => new Date(nowMs) } });
-    for (let i = 0; i < 3; i++) guard.failed('gh-a-01', '10.0.0.1');
-    expect(guard.refusal('gh-a-02', '10.0.0.1')).toBe('source-limited');
-    expect(guard.refusal('gh-a-01', '10.0.0.2')).toBeNull();
-    guard.failed('gh-a-01', '10.0.0.2');
-    guard.failed('gh-a-01', '10.0.0.3');
-    expect(guard.refusal('gh-a-01', '10.0.0.4')).toBe('id-limited');
-    expect(guard.refusal('gh-a-03', '10.0.0.4')).toBeNull();
+    // Each attempt counts until it is known to be correct, so concurrent attempts are limited too.
+    for (let i = 0; i < 3; i++) expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
+    expect(guard.attempt('gh-a-02', '10.0.0.1')).toBe('source-limited');
+    expect(guard.attempt('gh-a-01', '10.0.0.2')).toBeNull();
+    expect(guard.attempt('gh-a-01', '10.0.0.3')).toBeNull();
+    expect(guard.attempt('gh-a-01', '10.0.0.4')).toBe('id-limited');
+    expect(guard.attempt('gh-a-03', '10.0.0.4')).toBeNull();
     nowMs = 60_000;
-    expect(guard.refusal('gh-a-01', '10.0.0.1')).toBeNull();
+    expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
+  });
+
+  it('a correct login does not count, and clears its source', () => {
+    const guard = createLoginGuard({ maxFailuresPerSource: 2, maxFailuresPerId: 2 });
+    for (let i = 0; i < 5; i++) {
+      expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
+      guard.succeeded('gh-a-01', '10.0.0.1');
+    }
   });
 
   it('keeps at most maxEntries sources, so made-up ids cannot grow memory without bound', () => {
-    const guard = createLoginGuard({ maxFailuresPerSource: 1, maxEntries: 2 });
-    guard.failed('a', 's1');
-    guard.failed('b', 's2');
-    guard.failed('c', 's3');
-    expect(guard.refusal('x', 's1')).toBeNull();
-    expect(guard.refusal('x', 's3')).toBe('source-limited');
+    const guard = createLoginGuard({ maxFailuresPerSource: 1, maxFailuresPerId: 100, maxEntries: 2 });
+    guard.attempt('a', 's1');
+    guard.attempt('b', 's2');
+    guard.attempt('c', 's3');
+    expect(guard.attempt('x', 's1')).toBeNull();
+    expect(guard.attempt('x', 's3')).toBe('source-limited');
   });
 });
