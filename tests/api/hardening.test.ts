@@ -7,6 +7,7 @@ import { createApp, createSigner } from '../../src/api/index.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../../src/metrics/registry.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import { createBlobStore, hashPassword, loadOrCreateSigningKey, openStore, type Store } from '../../src/store/index.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { deviceClass, model, network, removeDir, tempDataDir, weights } from '../support/api-fixtures.js';
 
 // A real HTTP server on a free loopback port, so sockets, aborts and concurrency are the real ones.
@@ -46,7 +47,7 @@ beforeAll(async () => {
   expect((await call('PUT', `/api/v1/models/${model.id}/weights`, { body: new Uint8Array(weights), type: 'application/octet-stream' })).status).toBe(201);
   // A device enrolled before keyed hashes: its stored hash is scrypt, the costly case for a bad login.
   store.devices.enrol({ id: 'gh-b-01', deviceClassId: deviceClass.id, tags: [], actor: 'test', at });
-  store.db.prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret'), 'gh-b-01');
+  sqliteHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret'), 'gh-b-01');
 });
 afterAll(async () => {
   (http as import('node:http').Server).closeAllConnections();
@@ -91,11 +92,11 @@ describe('device Basic auth on the weights route', () => {
 
   it('a correct legacy password downloads, and its scrypt hash is replaced by the keyed hash', async () => {
     store.devices.enrol({ id: 'gh-b-02', deviceClassId: deviceClass.id, tags: [], actor: 'test', at: new Date().toISOString() });
-    store.db.prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret-2'), 'gh-b-02');
+    sqliteHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret-2'), 'gh-b-02');
     const res = await fetch(`${base}/api/v1/models/${model.id}/weights`, { headers: { authorization: `Basic ${Buffer.from('gh-b-02:legacy-secret-2').toString('base64')}` } });
     expect(res.status).toBe(200);
     expect(Buffer.from(await res.arrayBuffer()).equals(weights)).toBe(true);
-    expect(store.db.prepare('SELECT password_hash FROM devices WHERE id = ?').pluck().get('gh-b-02')).toMatch(/^hmac-sha256\$/);
+    expect(sqliteHandle(store).prepare('SELECT password_hash FROM devices WHERE id = ?').pluck().get('gh-b-02')).toMatch(/^hmac-sha256\$/);
   });
 });
 

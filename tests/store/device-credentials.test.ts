@@ -5,6 +5,7 @@ import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { createBlobStore, hashPassword, openStore, type Store } from '../../src/store/index.js';
 import { createLoginGuard } from '../../src/store/login-guard.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const dirs: string[] = [];
 const stores: Store[] = [];
@@ -35,7 +36,7 @@ describe('device secrets at rest', () => {
     expect(statSync(keyPath).mode & 0o777).toBe(0o600);
     const key = readFileSync(keyPath);
     expect(key.length).toBe(32);
-    const stored = s.db.prepare('SELECT password_hash FROM devices').pluck().get() as string;
+    const stored = sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string;
     expect(stored).toBe(`hmac-sha256$${createHmac('sha256', key).update(password).digest('base64')}`);
   });
 
@@ -43,13 +44,13 @@ describe('device secrets at rest', () => {
     const s = open(tempDir());
     s.devices.enrol({ id: 'gh-a-01', deviceClassId: 'cam', tags: [], actor: 'op', at });
     const legacy = 'old-secret-from-an-earlier-version';
-    s.db.prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword(legacy), 'gh-a-01');
+    sqliteHandle(s).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword(legacy), 'gh-a-01');
     // The synchronous check never runs scrypt: it refuses a legacy hash.
     expect(s.devices.verifyCredentials('gh-a-01', legacy)).toBe(false);
     expect(await s.devices.checkLogin('gh-a-01', 'wrong')).toEqual({ ok: false, reason: 'bad-credentials' });
-    expect((s.db.prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('scrypt$')).toBe(true);
+    expect((sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('scrypt$')).toBe(true);
     expect(await s.devices.checkLogin('gh-a-01', legacy)).toEqual({ ok: true });
-    expect((s.db.prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('hmac-sha256$')).toBe(true);
+    expect((sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('hmac-sha256$')).toBe(true);
     expect(s.devices.verifyCredentials('gh-a-01', legacy)).toBe(true);
   });
 
@@ -82,7 +83,7 @@ describe('data folder permissions', () => {
     mkdirSync(other);
     writeFileSync(join(other, 'ocellus.db'), '', { mode: 0o644 });
     const s = open(other);
-    s.db.prepare('SELECT 1').get();
+    sqliteHandle(s).prepare('SELECT 1').get();
     expect(statSync(join(other, 'ocellus.db')).mode & 0o777).toBe(0o600);
     expect(statSync(join(other, 'ocellus.db-wal')).mode & 0o777).toBe(0o600);
   });
