@@ -18,7 +18,10 @@ import { createRefusalLog } from './refusal-log.js';
 export interface BrokerTls {
   certPem: string;
   keyPem: string;
-  /** Per-device certificates: the certificate's CN is the device id; no password is needed with one. */
+  /**
+   * Per-device certificates: every device must present one signed by this CA; its CN is the device id and no
+   * password is needed. The server's own account still logs in by password (it may show no certificate).
+   */
   clientCaPem?: string;
   /** Revoked device certificates. Checked only at the handshake: revoke the device too, which ends its live session. */
   crlPem?: string;
@@ -34,6 +37,11 @@ export interface EmbeddedBrokerOptions {
   port?: number;
   /** Device credentials: the MQTT username is the device id. */
   authenticate(username: string, password: string): DeviceCheck | Promise<DeviceCheck>;
+  /**
+   * For a device that logged in with a verified certificate: whether its id is enrolled and not revoked
+   * (the CRL is checked only at the handshake; this is checked at every login). Without it, none is.
+   */
+  certificateAllowed?(deviceId: string): DeviceCheck | Promise<DeviceCheck>;
   /** The server's own account, which may publish and subscribe anywhere. */
   serverUser: { username: string; password: string };
   /**
@@ -92,6 +100,8 @@ interface ConnectionFacts {
   source: string;
   /** The CN of a verified client certificate, when the listener asks for one. */
   certificateCn: string | null;
+  /** True when the listener has a client CA: a device without a certificate is refused. */
+  certificateRequired: boolean;
 }
 
 /**
@@ -124,7 +134,7 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
     authenticate: function authenticateClient(client, username, password, done) {
       const user = username ?? '';
       const secret = password ? password.toString('utf8') : '';
-      const conn = facts.get(client.conn as unknown as Duplex) ?? { source: 'unknown', certificateCn: null };
+      const conn = facts.get(client.conn as unknown as Duplex) ?? { source: 'unknown', certificateCn: null, certificateRequired: false };
       if (user === options.serverUser.username && conn.certificateCn === null) {
         if (!sameSecret(secret, options.serverUser.password)) return done(refusal('bad server credentials'), false);
         principals.set(client, { kind: 'server' });
@@ -137,6 +147,10 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
         refuseLogin('bad-credentials', where);
         return done(refusal('user name is not a device id'), false);
       }
+      if (conn.certificateRequired && conn.certificateCn === null) {
+        refuseLogin('certificate-required', where);
+        return done(refusal('devices log in with their certificate on this listener', 5), false);
+      }
       if (client.id !== deviceId) {
         refuseLogin('client-id-mismatch', where);
         return done(refusal(`client id must be the device id ${deviceId}`, 2), false);
@@ -147,7 +161,7 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
         return done(refusal('too many failed logins; try again later', 5), false);
       }
       Promise.resolve(options.devicesAdmitted)
-        .then(() => (conn.certificateCn !== null ? ({ ok: true } as const) : options.authenticate(deviceId, secret)))
+        .then(() => (conn.certificateCn !== null ? (options.certificateAllowed?.(deviceId) ?? false) : options.authenticate(deviceId, secret)))
         .then(
           (check) => {
             const result = normalise(check);
@@ -188,13 +202,13 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
     },
   });
 
-  function admit(socket: Socket, certificateCn: string | null): void {
+  function admit(socket: Socket, certificateCn: string | null, certificateRequired = false): void {
     const source = socket.remoteAddress ?? 'unknown';
     const connection = guardConnection(socket, limits, (violation) => {
       oversized?.inc({ phase: violation.phase });
       refused('oversized-packet', { source, ...violation, claimedBytes: String(violation.claimedBytes) });
     });
-    facts.set(connection, { source, certificateCn });
+    facts.set(connection, { source, certificateCn, certificateRequired });
     aedes.handle(connection as unknown as Socket);
   }
 
@@ -205,13 +219,24 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
       {
         cert: tls.certPem,
         key: tls.keyPem,
-        ...(tls.clientCaPem ? { ca: tls.clientCaPem, requestCert: true, rejectUnauthorized: true } : {}),
+        // Certificates are asked for but judged here: the server's own client shows none and logs in by password.
+        ...(tls.clientCaPem ? { ca: tls.clientCaPem, requestCert: true, rejectUnauthorized: false } : {}),
         ...(tls.crlPem ? { crl: tls.crlPem } : {}),
         minVersion: 'TLSv1.2',
       },
       (socket: TLSSocket) => {
-        const cn = tls.clientCaPem ? socket.getPeerCertificate().subject?.CN : undefined;
-        admit(socket, typeof cn === 'string' ? cn : null);
+        if (!tls.clientCaPem) return admit(socket, null);
+        const peer = socket.getPeerCertificate();
+        const shown = peer && Object.keys(peer).length > 0;
+        if (shown && !socket.authorized) {
+          // Revoked (the CRL), expired, or signed by another CA: closed before any MQTT byte is read.
+          loginFailures?.inc({ via: 'mqtt', reason: 'certificate-refused' });
+          refused('certificate', { source: socket.remoteAddress ?? 'unknown', error: String(socket.authorizationError) });
+          socket.destroy();
+          return;
+        }
+        const cn = shown ? peer.subject?.CN : undefined;
+        admit(socket, typeof cn === 'string' ? cn : null, true);
       },
     );
     server.on('tlsClientError', (e, socket) => {

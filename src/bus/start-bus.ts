@@ -72,6 +72,11 @@ export async function startBus(options: BusOptions): Promise<Bus> {
       serverUser,
       // A keyed hash, microseconds on the event loop; a legacy scrypt hash goes to the thread pool once.
       authenticate: (deviceId, password) => options.store.devices.checkLogin(deviceId, password),
+      certificateAllowed: (deviceId) => {
+        const device = options.store.devices.get(deviceId);
+        if (!device) return { ok: false, reason: 'bad-credentials' };
+        return device.revokedAt === null ? { ok: true } : { ok: false, reason: 'revoked' };
+      },
       devicesAdmitted,
       log,
     });

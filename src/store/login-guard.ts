@@ -1,5 +1,13 @@
 /** Why a device login was refused, as counted in the failed-login metric. */
-export type LoginRefusal = 'bad-credentials' | 'revoked' | 'source-limited' | 'id-limited' | 'client-id-mismatch' | 'session-in-use';
+export type LoginRefusal =
+  | 'bad-credentials'
+  | 'revoked'
+  | 'source-limited'
+  | 'id-limited'
+  | 'client-id-mismatch'
+  | 'session-in-use'
+  | 'certificate-required'
+  | 'certificate-refused';
 
 export interface LoginGuardOptions {
   /** Failed logins allowed from one source address within a window before it is refused unchecked. */
