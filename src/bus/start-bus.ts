@@ -23,7 +23,7 @@ export interface BusOptions {
   };
   /** Failed-login limits; hand in the one the HTTP API uses, so both count the same failures. */
   loginGuard?: LoginGuard;
-  /** CA certificate (PEM) the server's own client trusts when the embedded broker speaks TLS. */
+  /** CA certificate (PEM) the server's own client trusts when the embedded broker speaks TLS (default: the broker's own certificate, for a self-signed one). */
   serverClientCaPem?: string;
   clock?: { now(): Date };
   /** Where device events are written: a worker thread with its own connection (default), or the event loop's thread. */
@@ -86,7 +86,8 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     username: account.username,
     password: account.password,
     clientId: `ocellus-server-${randomBytes(6).toString('hex')}`,
-    ...(options.serverClientCaPem ? { ca: options.serverClientCaPem } : {}),
+    // Over TLS the server's own client trusts the given CA, or else the broker's certificate itself (self-signed).
+    ...(options.serverClientCaPem ? { ca: options.serverClientCaPem } : options.embedded?.tls && !options.external ? { ca: options.embedded.tls.certPem } : {}),
     clean: true,
     reconnectPeriod: 1000,
     connectTimeout: 10_000,
