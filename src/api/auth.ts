@@ -67,6 +67,7 @@ export async function authorize(c: Context<AppEnv>, access: Access, deps: AuthDe
     }
     const result = await store.devices.checkLogin(creds.user, creds.password);
     if (!result.ok) {
+      deps.loginGuard.failed(creds.user, source);
       failures.inc({ via: 'http', reason: result.reason });
       throw unauthorized('unknown device or wrong password', scheme);
     }

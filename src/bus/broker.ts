@@ -166,6 +166,7 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
           (check) => {
             const result = normalise(check);
             if (!result.ok) {
+              guard.failed(deviceId, conn.source);
               refuseLogin(result.reason, where);
               return done(refusal(`bad credentials for device ${deviceId}`), false);
             }

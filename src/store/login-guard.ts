@@ -22,11 +22,14 @@ export interface LoginGuardOptions {
 
 export interface LoginGuard {
   /**
-   * Starts a login attempt: null when it may be checked, and then it counts as a failure until `succeeded`
-   * says otherwise, so a burst of concurrent attempts is limited before any of their checks finishes.
-   * Otherwise why it is refused without checking.
+   * Starts a login attempt: null when it may be checked, otherwise why it is refused unchecked. An admitted
+   * attempt counts against its device id until `succeeded` says otherwise, so a burst of concurrent tries
+   * for one id is limited before any check finishes. A source is charged only for failures: a whole fleet
+   * behind one address, reconnecting at once after a restart, is not refused.
    */
   attempt(deviceId: string, source: string): 'source-limited' | 'id-limited' | null;
+  /** The attempt was wrong: its source is charged too. */
+  failed(deviceId: string, source: string): void;
   /** The attempt was correct: it no longer counts, and its source's failures are forgotten (a fixed agent). */
   succeeded(deviceId: string, source: string): void;
 }
@@ -76,9 +79,11 @@ export function createLoginGuard(options: LoginGuardOptions = {}): LoginGuard {
       const nowMs = clock.now().getTime();
       if ((current(sources, source, nowMs)?.failures ?? 0) >= perSource) return 'source-limited';
       if ((current(ids, deviceId, nowMs)?.failures ?? 0) >= perId) return 'id-limited';
-      count(sources, source, nowMs);
       count(ids, deviceId, nowMs);
       return null;
+    },
+    failed: function loginFailed(_deviceId, source) {
+      count(sources, source, clock.now().getTime());
     },
     succeeded: function loginSucceeded(deviceId, source) {
       sources.delete(source);

@@ -101,9 +101,12 @@ describe('failed-login limits', () => {
   it('refuses a source after its failures in a window, then a device id, and forgets both when the window ends', () => {
     let nowMs = 0;
     const guard = createLoginGuard({ maxFailuresPerSource: 3, maxFailuresPerId: 5, windowMs: 60_000, clock: { now: () => new Date(nowMs) } });
-    // Each attempt counts until it is known to be correct, so concurrent attempts are limited too.
-    for (let i = 0; i < 3; i++) expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
+    for (let i = 0; i < 3; i++) {
+      expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
+      guard.failed('gh-a-01', '10.0.0.1');
+    }
     expect(guard.attempt('gh-a-02', '10.0.0.1')).toBe('source-limited');
+    // Attempts for one id count while they are checked, so concurrent tries are limited too.
     expect(guard.attempt('gh-a-01', '10.0.0.2')).toBeNull();
     expect(guard.attempt('gh-a-01', '10.0.0.3')).toBeNull();
     expect(guard.attempt('gh-a-01', '10.0.0.4')).toBe('id-limited');
@@ -112,7 +115,11 @@ describe('failed-login limits', () => {
     expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
   });
 
-  it('a correct login does not count, and clears its source', () => {
+  it('a fleet behind one address logging in at once is not refused; a correct login does not count', () => {
+    const fleet = createLoginGuard({ maxFailuresPerSource: 20, maxFailuresPerId: 10 });
+    const ids = Array.from({ length: 500 }, (_, i) => `gh-a-${String(i).padStart(3, '0')}`);
+    expect(ids.map((id) => fleet.attempt(id, '192.0.2.7')).every((r) => r === null)).toBe(true);
+    for (const id of ids) fleet.succeeded(id, '192.0.2.7');
     const guard = createLoginGuard({ maxFailuresPerSource: 2, maxFailuresPerId: 2 });
     for (let i = 0; i < 5; i++) {
       expect(guard.attempt('gh-a-01', '10.0.0.1')).toBeNull();
@@ -122,9 +129,9 @@ describe('failed-login limits', () => {
 
   it('keeps at most maxEntries sources, so made-up ids cannot grow memory without bound', () => {
     const guard = createLoginGuard({ maxFailuresPerSource: 1, maxFailuresPerId: 100, maxEntries: 2 });
-    guard.attempt('a', 's1');
-    guard.attempt('b', 's2');
-    guard.attempt('c', 's3');
+    guard.failed('a', 's1');
+    guard.failed('b', 's2');
+    guard.failed('c', 's3');
     expect(guard.attempt('x', 's1')).toBeNull();
     expect(guard.attempt('x', 's3')).toBe('source-limited');
   });
