@@ -39,7 +39,11 @@ describe('MQTT packet size meter', () => {
   it('refuses a later packet over the limit, and a 200 MB claim as soon as its length bytes say so', () => {
     const inspect = createPacketSizeMeter(limits);
     expect(inspect(packet(0x10, 100))).toBeNull();
-    expect(inspect(Buffer.from([0x30, 0x80, 0x80, 0x80]))).toMatchObject({ phase: 'after-connect', limitBytes: 20_000 });
+    expect(inspect(Buffer.from([0x30, 0x80, 0x80, 0x80, 0x64]))).toEqual({ phase: 'after-connect', claimedBytes: 5 + 200 * 1024 * 1024, limitBytes: 20_000 });
+    // Length bytes so far already exceed the limit: refused before the last one arrives.
+    const early = createPacketSizeMeter(limits);
+    expect(early(packet(0x10, 10))).toBeNull();
+    expect(early(Buffer.from([0x30, 0xff, 0xff, 0xff]))).toMatchObject({ phase: 'after-connect' });
   });
 
   it('refuses a remaining length with a fifth continuation byte (malformed)', () => {
