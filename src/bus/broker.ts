@@ -55,6 +55,8 @@ export interface EmbeddedBrokerOptions {
   /** Failed-login limits per source address and per device id (shared with the weights route by the server). */
   loginGuard?: LoginGuard;
   metrics?: MetricsRegistry;
+  /** Told when the broker drops a device for silence (nothing within 1.5 × its keep-alive); its last will follows. */
+  onKeepaliveMissed?: (deviceId: string) => void;
   log?: (line: string) => void;
 }
 
@@ -201,6 +203,10 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
       // A null subscription makes aedes answer with the failure code 0x80 (MQTT 3.1.1 §3.9.3).
       done(null, null);
     },
+  });
+  aedes.on('keepaliveTimeout', function keepaliveMissed(client) {
+    const principal = principals.get(client);
+    if (principal?.kind === 'device') options.onKeepaliveMissed?.(principal.deviceId);
   });
 
   function admit(socket: Socket, certificateCn: string | null, certificateRequired = false): void {

@@ -5,6 +5,7 @@ import type { Store } from '../store/store.js';
 import { createBridge, type Bridge } from './bridge.js';
 import type { LoginGuard } from '../store/login-guard.js';
 import { startEmbeddedBroker, type BrokerTls, type EmbeddedBroker } from './broker.js';
+import { createKeepaliveNotes } from './connection-notes.js';
 import type { PacketLimits } from './packet-guard.js';
 import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
 
@@ -58,6 +59,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
   let account: { url: string; username: string; password: string };
   let admitDevices = () => {};
   const devicesAdmitted = new Promise<void>((resolve) => (admitDevices = resolve));
+  const keepaliveNotes = createKeepaliveNotes();
   if (options.external) {
     account = options.external;
   } else {
@@ -78,6 +80,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
         return device.revokedAt === null ? { ok: true } : { ok: false, reason: 'revoked' };
       },
       devicesAdmitted,
+      onKeepaliveMissed: keepaliveNotes.noteMissed,
       log,
     });
     account = { url: broker.url, ...serverUser };
@@ -100,7 +103,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
         await broker?.close();
         throw e;
       });
-  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, keepaliveNotes, ...(options.metrics ? { metrics: options.metrics } : {}) });
   // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
   await bridge.subscribed();
   admitDevices();

@@ -7,3 +7,5 @@ export * from './motion.js';
 export * from './network-cost.js';
 export * from './accelerator.js';
 export * from './frame-budget.js';
+export * from './special-functions.js';
+export * from './mtf.js';
