@@ -174,7 +174,8 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
             }
             guard.succeeded(deviceId, conn.source);
             const holder = live.get(deviceId);
-            if (holder && holder !== client && !holder.closed) {
+            const holderGone = !holder || holder.closed || (holder.conn as unknown as Duplex).destroyed;
+            if (holder && holder !== client && !holderGone) {
               refuseLogin('session-in-use', where);
               return done(refusal(`device ${deviceId} already has a live session`, 2), false);
             }
