@@ -13,6 +13,8 @@ export const commands: Record<string, CommandEntry> = {
   check: { summary: 'validate every profile under files or folders', load: () => import('./check.js') },
   cost: { summary: 'MACs, parameters and (with a device class) latency and energy of a network', load: () => import('./cost.js') },
   'import-network': { summary: 'read an .onnx model file and write the network document its weights describe', load: () => import('./import-network.js') },
+  tolerance: { summary: "measure a model's accuracy against blur and noise on your own images (onnxruntime, CPU)", load: () => import('./tolerance.js') },
+  render: { summary: "what the robot's network would see: a sample image through a profile's blur and noise", load: () => import('./render.js') },
   optics: { summary: 'hyperfocal distance, depth of field, diffraction and blur circles', load: () => import('./optics.js') },
   mtf: { summary: 'MTF of the image chain: diffraction, defocus, pixel and motion; MTF50 and equivalent blur', load: () => import('./mtf.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
@@ -20,6 +22,7 @@ export const commands: Record<string, CommandEntry> = {
   schema: { summary: 'print the JSON Schema of a document kind', load: () => import('./schema.js') },
   plan: { summary: 'search settings for a task on a device class and list the best feasible candidates', load: () => import('./plan.js') },
   serve: { summary: 'run the server: HTTP API, signed releases, weights store', load: () => import('./serve.js') },
+  key: { summary: 'rotate the release signing key (the old key signs the new one in)', load: () => import('./key.js') },
   token: { summary: 'create an API token in the server\'s data folder (shown once)', load: () => import('./token.js') },
   push: { summary: 'send documents (and weights) to a running server in dependency order', load: () => import('./push.js') },
   release: { summary: 'build and sign a release on a running server', load: () => import('./release.js') },
@@ -76,6 +79,7 @@ if (isEntryPoint()) {
     stderr: (t) => void process.stderr.write(t),
     cwd: process.cwd(),
     env: process.env,
+    stderrIsTty: process.stderr.isTTY === true,
   };
   dispatch(process.argv.slice(2), io).then(
     (code) => {
