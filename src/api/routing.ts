@@ -1,6 +1,5 @@
 import type { Context, Hono } from 'hono';
-import type { Store } from '../store/store.js';
-import { authorize } from './auth.js';
+import { authorize, type AuthDeps } from './auth.js';
 import type { AppEnv } from './context.js';
 import { ROUTES, routeSpec } from './route-table.js';
 
@@ -13,7 +12,7 @@ export interface Router {
   missing(): string[];
 }
 
-export function createRouter(app: Hono<AppEnv>, store: Store): Router {
+export function createRouter(app: Hono<AppEnv>, deps: AuthDeps): Router {
   const registered = new Set<string>();
   const route = function route(key: string, handler: RouteHandler) {
     const spec = routeSpec(key);
@@ -21,7 +20,7 @@ export function createRouter(app: Hono<AppEnv>, store: Store): Router {
     registered.add(key);
     app.on(spec.method.toUpperCase(), spec.path, async function handleRoute(c) {
       c.set('route', spec.path);
-      c.set('principal', authorize(c, spec.access, store));
+      c.set('principal', await authorize(c, spec.access, deps));
       return handler(c);
     });
   } as Router;
