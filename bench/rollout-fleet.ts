@@ -60,7 +60,7 @@ function check(raw: { release?: { id?: string; version?: number; deviceClassId?:
 }
 
 async function startAgent(id: string, s: RolloutFleetSettings, trust: Trust): Promise<LightAgent> {
-  const client = await mqtt.connectAsync(s.brokerUrl, { clientId: `bench-${id}`, username: id, password: s.password, clean: true, reconnectPeriod: 0, keepalive: 600, log: quiet });
+  const client = await mqtt.connectAsync(s.brokerUrl, { clientId: id, username: id, password: s.password, clean: true, reconnectPeriod: 0, keepalive: 600, log: quiet });
   const a: LightAgent = { client, releaseId: null, releaseVersion: null, seq: 0 };
   const publishState = () => client.publish(deviceTopic(id, 'state'), JSON.stringify(state(a)), { qos: 1, retain: true });
   client.on('message', (topic, payload) => {

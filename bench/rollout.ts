@@ -19,7 +19,8 @@ import { createRolloutEngine } from '../src/fleet/rollout/engine.js';
 import { createRolloutService } from '../src/fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../src/fleet/rollout/spec.js';
 import { PROTOCOL_VERSION, RELEASE_FORMAT, allDevicesFilter, deviceTopic, generateSigningKeyPair, parseDeviceTopic, signRelease, type Release } from '../src/protocol/index.js';
-import { hashPassword, openStore, verifyPassword, type Store } from '../src/store/index.js';
+import { hashDeviceSecret, openStore, type Store } from '../src/store/index.js';
+import { loadOrCreateDeviceSecretKey } from '../src/store/device-secret-key.js';
 import { benchDeviceClass, benchTask } from './agent-fixture.js';
 import { median, type BenchFigure } from './figure.js';
 import type { RolloutFleetSettings } from './rollout-fleet.js';
@@ -52,26 +53,13 @@ async function until(check: () => boolean, what: string, timeoutMs: number, ever
   }
 }
 
-/** Devices written straight into SQLite sharing one password hash (one scrypt instead of N). */
+/** Devices written straight into SQLite sharing one password's keyed hash, as enrolment stores it. */
 function seedDevices(store: Store, ids: string[]): void {
-  const hash = hashPassword(PASSWORD);
+  const hash = hashDeviceSecret(PASSWORD, loadOrCreateDeviceSecretKey(store.dataDir));
   const at = new Date().toISOString();
   const insert = sqliteHandle(store).prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
     VALUES (?, ?, '["bench"]', ?, NULL, ?, 'bench (demo data)')`);
   store.transaction(() => ids.forEach((id) => insert.run(id, benchDeviceClass.id, hash, at)));
-}
-
-/** The broker's check of device credentials: the real scrypt verification, remembered per (stored hash, password). */
-function memoAuthenticate(store: Store) {
-  const row = sqliteHandle(store).prepare('SELECT password_hash FROM devices WHERE id = ?').pluck();
-  const known = new Map<string, boolean>();
-  return (id: string, password: string) => {
-    const hash = row.get(id) as string | undefined;
-    if (!hash) return false;
-    const key = `${hash}\u0000${password}`;
-    if (!known.has(key)) known.set(key, verifyPassword(password, hash));
-    return known.get(key)!;
-  };
 }
 
 /** CPU time in ms of this process (broker, bridge, engine) and of the fleet process; "?" where /proc is missing. */
@@ -147,7 +135,7 @@ function storeRelease(store: Store, n: number, round: number, keys: { privateKey
   const files = new Map<string, Buffer>();
   const release: Release = {
     format: RELEASE_FORMAT, id: `bench-rel-${n}-${round + 1}`, version: round + 1, deviceClassId: benchDeviceClass.id, deviceClass: benchDeviceClass,
-    createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', applyPolicy: 'immediate', defaultTask: 'rows',
+    createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', audience: { deviceClassId: benchDeviceClass.id }, expiresAt: '2099-01-01T00:00:00.000Z', applyPolicy: 'immediate', defaultTask: 'rows',
     tasks: { rows: benchTask('rows-net', files, 0.5, 4), leaves: benchTask('leaf-net', files, 0.25, 2.8) },
   };
   const signed = signRelease(release, keys.privateKeyPem, keys.publicKeyPem);
@@ -162,7 +150,7 @@ export async function measure(n: number): Promise<BenchFigure> {
   seedDevices(store, ids);
   const keys = generateSigningKeyPair();
   const releases = Array.from({ length: ROUNDS }, (_, round) => storeRelease(store, n, round, keys));
-  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: memoAuthenticate(store) });
+  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: (id, password) => store.devices.checkLogin(id, password) });
   const settingsPath = join(work, 'fleet.json');
   const settings: RolloutFleetSettings = {
     brokerUrl: broker.url, publicKeyPem: keys.publicKeyPem, deviceClassId: benchDeviceClass.id, password: PASSWORD, deviceIds: ids, connectConcurrency: 100,

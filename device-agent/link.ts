@@ -45,6 +45,9 @@ export function openLink(options: LinkOptions): Link {
     password: options.password,
     clean: false,
     reconnectPeriod: options.reconnectMs ?? 1000,
+    // A refused CONNECT (the broker still holds this device's previous session, or a rate limit) is retried
+    // like a lost connection; mqtt.js would otherwise stop reconnecting for good.
+    reconnectOnConnackError: true,
     keepalive: options.keepaliveS ?? 30,
     connectTimeout: 10_000,
     will,

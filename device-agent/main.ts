@@ -22,7 +22,7 @@ import type { TaskSource } from './task-sources/task-source.js';
 
 const USAGE = `usage:
   ocellus-agent [run] [options]              start the agent
-  ocellus-agent task NAME [endpoint]         switch the running task
+  ocellus-agent task NAME [endpoint] [--json] switch the running task
   ocellus-agent motion moving|stopped [endpoint]
   ocellus-agent state [endpoint]             print the agent's state
 endpoint: --data-dir DIR (reads DIR/control.json), --control-port N, or --control-socket PATH
@@ -58,8 +58,17 @@ function endpointFrom(argv: string[]): ControlEndpoint {
 async function control(argv: string[], method: 'GET' | 'POST', path: string, body?: unknown): Promise<never> {
   try {
     const res = await callControl(endpointFrom(argv), method, path, body);
-    process.stdout.write(`${JSON.stringify(res.body, null, 2)}\n`);
-    process.exit(res.status >= 200 && res.status < 300 ? 0 : 1);
+    const ok = res.status >= 200 && res.status < 300;
+    if (argv.includes('--json') || path !== '/task') process.stdout.write(`${JSON.stringify(res.body, null, 2)}\n`);
+    else {
+      // A line for people; --json gives the control endpoint's answer.
+      const b = res.body as { task?: string; unchanged?: boolean; actuationMs?: number; error?: string };
+      const text = ok
+        ? b.unchanged ? `task ${b.task} was already running` : `switched to task ${b.task} (actuation ${b.actuationMs ?? 0} ms)`
+        : `task not switched: ${b.error ?? JSON.stringify(res.body)}`;
+      (ok ? process.stdout : process.stderr).write(`${text}\n`);
+    }
+    process.exit(ok ? 0 : 1);
   } catch (e) {
     fail(`cannot reach the agent's control endpoint: ${(e as Error).message}`, 1);
   }

@@ -1,5 +1,7 @@
 import { Hono } from 'hono';
+import { secureHeaders } from 'hono/secure-headers';
 import { createMetricsRegistry, PROMETHEUS_CONTENT_TYPE } from '../metrics/registry.js';
+import { createLoginGuard } from '../store/login-guard.js';
 import { createChangeFeed } from './change-feed.js';
 import type { AppDeps, AppEnv, ResolvedDeps } from './context.js';
 import { DEFAULT_LIMITS } from './context.js';
@@ -23,6 +25,27 @@ function reportToStderr(error: unknown): void {
   process.stderr.write(`ocellus: internal error: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`);
 }
 
+/**
+ * Every response, the console's above all: scripts, styles and requests only from this server, no plugins,
+ * never framed by another page (CSP frame-ancestors and X-Frame-Options for older browsers), no MIME
+ * sniffing. HSTS is left to whoever puts the server behind TLS, since it binds the host name.
+ */
+const CONSOLE_SECURITY_HEADERS: Parameters<typeof secureHeaders>[0] = {
+  contentSecurityPolicy: {
+    defaultSrc: ["'self'"],
+    scriptSrc: ["'self'"],
+    styleSrc: ["'self'"],
+    imgSrc: ["'self'", 'data:'],
+    connectSrc: ["'self'"],
+    objectSrc: ["'none'"],
+    baseUri: ["'none'"],
+    formAction: ["'self'"],
+    frameAncestors: ["'none'"],
+  },
+  xFrameOptions: 'DENY',
+  strictTransportSecurity: false,
+};
+
 /** The HTTP API under /api/v1, /metrics included. Every route comes from the route table (src/api/route-table.ts). */
 export function createApp(deps: AppDeps): Hono<AppEnv> {
   const resolved: ResolvedDeps = {
@@ -34,13 +57,25 @@ export function createApp(deps: AppDeps): Hono<AppEnv> {
     metrics: deps.metrics ?? createMetricsRegistry(),
     limits: { ...DEFAULT_LIMITS, ...deps.limits },
     changes: deps.changes ?? createChangeFeed(),
+    loginGuard: deps.loginGuard ?? createLoginGuard(deps.clock ? { clock: deps.clock } : {}),
+    sessions: deps.sessions,
   };
   const app = new Hono<AppEnv>();
   app.use('*', createHttpMetrics(resolved.metrics, resolved.store));
+  app.use('*', secureHeaders(CONSOLE_SECURITY_HEADERS));
+  app.use('*', async function refuseBadPercentEncoding(c, next) {
+    // A malformed escape (a lone '%', a cut UTF-8 sequence) is the client's error: say so before any route guesses.
+    try {
+      decodeURIComponent(new URL(c.req.url).pathname);
+    } catch {
+      return c.json({ error: 'bad percent-encoding in the URL', issues: [{ path: 'url', message: new URL(c.req.url).pathname }] } satisfies ErrorBody, 400);
+    }
+    return next();
+  });
   app.onError(createErrorHandler(deps.onError ?? reportToStderr));
   app.notFound((c) => c.json({ error: `no route ${c.req.method} ${c.req.path}`, issues: [] } satisfies ErrorBody, 404));
 
-  const route = createRouter(app, resolved.store, resolved.limits.maxJsonBytes);
+  const route = createRouter(app, resolved, resolved.limits.maxJsonBytes);
   // First: its middleware announces every successful change made through the routes registered after it.
   registerWebRoutes(app, route, resolved, deps.consoleDir);
   registerDocumentRoutes(route, resolved, 'device-classes');

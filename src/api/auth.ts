@@ -1,4 +1,6 @@
 import type { Context } from 'hono';
+import { METRIC_NAMES, type MetricsRegistry } from '../metrics/registry.js';
+import type { LoginGuard } from '../store/login-guard.js';
 import type { Store } from '../store/store.js';
 import type { TokenRecord } from '../store/tokens.js';
 import type { AppEnv, Principal } from './context.js';
@@ -21,11 +23,25 @@ function parseBasic(header: string): { user: string; password: string } | null {
   return colon < 0 ? null : { user: decoded.slice(0, colon), password: decoded.slice(colon + 1) };
 }
 
+/** The peer's address under @hono/node-server; 'unknown' for in-process requests (tests' app.request). */
+export function sourceOf(c: Context<AppEnv>): string {
+  const env = c.env as { incoming?: { socket?: { remoteAddress?: string } } } | undefined;
+  return env?.incoming?.socket?.remoteAddress ?? 'unknown';
+}
+
+export interface AuthDeps {
+  store: Store;
+  loginGuard: LoginGuard;
+  metrics: MetricsRegistry;
+}
+
 /**
  * Checks the request's credentials against a route's access rule and returns who is calling.
- * No or unknown credentials: 401. A valid token of too low a role: 403.
+ * No or unknown credentials: 401. A valid token of too low a role: 403. A device's Basic credentials go
+ * through the same failed-login limits as the broker's (429 past them) and never a slow KDF on this thread.
  */
-export function authorize(c: Context<AppEnv>, access: Access, store: Store): Principal | undefined {
+export async function authorize(c: Context<AppEnv>, access: Access, deps: AuthDeps): Promise<Principal | undefined> {
+  const { store } = deps;
   if (access === 'public') return undefined;
   const header = c.req.header('authorization') ?? '';
   const scheme = access === 'viewer-or-device' ? 'Bearer, Basic realm="ocellus devices"' : 'Bearer';
@@ -41,9 +57,21 @@ export function authorize(c: Context<AppEnv>, access: Access, store: Store): Pri
   }
   if (lower.startsWith('basic ') && access === 'viewer-or-device') {
     const creds = parseBasic(header);
-    if (!creds || !store.verifyDeviceCredentials(creds.user, creds.password)) {
+    if (!creds) throw unauthorized('unknown device or wrong password', scheme);
+    const failures = deps.metrics.counter(METRIC_NAMES.deviceLoginFailures, 'Device logins refused, by where (mqtt, http) and why');
+    const source = sourceOf(c);
+    const limited = deps.loginGuard.attempt(creds.user, source);
+    if (limited) {
+      failures.inc({ via: 'http', reason: limited });
+      throw new HttpError(429, 'too many failed device logins; try again later', { headers: { 'Retry-After': '60' } });
+    }
+    const result = await store.devices.checkLogin(creds.user, creds.password);
+    if (!result.ok) {
+      deps.loginGuard.failed(creds.user, source);
+      failures.inc({ via: 'http', reason: result.reason });
       throw unauthorized('unknown device or wrong password', scheme);
     }
+    deps.loginGuard.succeeded(creds.user, source);
     return { kind: 'device', deviceId: creds.user, actor: `device:${creds.user}` };
   }
   throw unauthorized(header ? 'unsupported authorization scheme' : 'authorization required: send a bearer token', scheme);

@@ -3,6 +3,7 @@ import type { ChangeFeed } from './change-feed.js';
 import type { ReleasePublisher } from '../protocol/release.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
+import type { LoginGuard } from '../store/login-guard.js';
 import type { TokenRecord } from '../store/tokens.js';
 import type { ErrorReporter } from './errors.js';
 import type { Signer } from '../release/signer.js';
@@ -17,11 +18,16 @@ export interface ApiLimits {
   maxWeightsBytes: number;
   /** Largest JSON request body, in bytes. */
   maxJsonBytes: number;
+  /** Open event streams per token (and in all) beyond which a new one is refused with 429 (503 in all). */
+  maxEventStreamsPerToken: number;
+  maxEventStreams: number;
 }
 
 export const DEFAULT_LIMITS: ApiLimits = {
   maxWeightsBytes: mibToBytes(512),
   maxJsonBytes: mibToBytes(8),
+  maxEventStreamsPerToken: 8,
+  maxEventStreams: 200,
 };
 
 /** Everything the HTTP API is built from; handed in so tests give it real ones on temporary files. */
@@ -40,6 +46,14 @@ export interface AppDeps {
   changes?: ChangeFeed;
   /** The built web console served on `/` (default: dist/console, built by `npm install`). */
   consoleDir?: string;
+  /** Failed device logins (weights route Basic auth); hand in the broker's so both count the same failures. */
+  loginGuard?: LoginGuard;
+  /** Ends a device's live bus session (revocation and rotation); without it they only change the store. */
+  sessions?: DeviceSessions;
+}
+
+export interface DeviceSessions {
+  disconnect(deviceId: string): Promise<'closed' | 'none' | 'external-broker'>;
 }
 
 export interface ResolvedDeps {
@@ -51,6 +65,8 @@ export interface ResolvedDeps {
   metrics: MetricsRegistry;
   limits: ApiLimits;
   changes: ChangeFeed;
+  loginGuard: LoginGuard;
+  sessions: DeviceSessions | undefined;
 }
 
 /** Who made a request: a bearer token, or a device with its own MQTT credentials (weights downloads only). */

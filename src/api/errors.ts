@@ -34,6 +34,11 @@ export interface ErrorBody {
   [extra: string]: unknown;
 }
 
+function isAbortError(error: unknown): boolean {
+  const e = error as { name?: string; code?: string } | null;
+  return e?.name === 'AbortError' || e?.code === 'ECONNRESET' || e?.code === 'ERR_STREAM_PREMATURE_CLOSE' || e?.code === 'ABORT_ERR';
+}
+
 export interface ErrorReporter {
   (error: unknown, c: Context): void;
 }
@@ -50,6 +55,14 @@ export function createErrorHandler(report: ErrorReporter) {
     }
     if (error instanceof InputError) {
       return c.json({ error: error.message, issues: error.issues } satisfies ErrorBody, 400);
+    }
+    if (error instanceof URIError) {
+      return c.json({ error: 'bad percent-encoding in the URL', issues: [{ path: 'url', message: c.req.path }] } satisfies ErrorBody, 400);
+    }
+    // The client went away (an upload cut, a closed tab): not a fault of the server, so not reported as one.
+    // 499 is nginx's "client closed request"; nobody is left to read it.
+    if (c.req.raw.signal.aborted || isAbortError(error)) {
+      return c.json({ error: 'client closed the request', issues: [] } satisfies ErrorBody, 499 as ContentfulStatusCode);
     }
     report(error, c);
     return c.json({ error: 'internal server error', issues: [] } satisfies ErrorBody, 500);

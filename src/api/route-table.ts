@@ -100,6 +100,8 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'devices.enrol', method: 'post', path: D, access: 'operator', mutates: true, body: enrolRequestSchema, summary: 'Enrol a device; its MQTT password is shown once', tag: 'devices' },
   { key: 'devices.list', method: 'get', path: D, access: 'viewer', mutates: false, query: deviceQuerySchema, summary: 'List devices by class, tag and online state', tag: 'devices' },
   { key: 'devices.read', method: 'get', path: `${D}/:id`, access: 'viewer', mutates: false, summary: 'A device, what it should run and what it reports', tag: 'devices' },
+  { key: 'devices.rotate-password', method: 'post', path: `${D}/:id/rotate-password`, access: 'operator', mutates: true, summary: "Issue a device a new MQTT password (shown once; the old one stops working, a revoked device is reinstated) and end its live session", tag: 'devices' },
+  { key: 'devices.revoke', method: 'post', path: `${D}/:id/revoke`, access: 'operator', mutates: true, summary: "Revoke a device's credentials and end its live bus session at once", tag: 'devices' },
   { key: 'devices.assign', method: 'post', path: `${D}/:id/assign`, access: 'operator', mutates: true, body: assignRequestSchema, summary: 'Assign a release to one device and send it', tag: 'devices' },
 
   { key: 'tokens.create', method: 'post', path: T, access: 'admin', mutates: true, body: tokenRequestSchema, summary: 'Create an API token; the secret is shown once', tag: 'tokens' },

@@ -1,7 +1,6 @@
 import type { Context, Hono } from 'hono';
 import type { z } from 'zod';
-import type { Store } from '../store/store.js';
-import { authorize } from './auth.js';
+import { authorize, type AuthDeps } from './auth.js';
 import { readJson, readQuery } from './body.js';
 import type { AppEnv } from './context.js';
 import { ROUTES, routeSpec } from './route-table.js';
@@ -20,7 +19,7 @@ export interface Router {
  * with the schemas the table declares for the route (400 naming each bad field), then the handler runs and
  * reads them with requestBody / requestQuery.
  */
-export function createRouter(app: Hono<AppEnv>, store: Store, maxJsonBytes: number): Router {
+export function createRouter(app: Hono<AppEnv>, deps: AuthDeps, maxJsonBytes: number): Router {
   const registered = new Set<string>();
   const route = function route(key: string, handler: RouteHandler) {
     const spec = routeSpec(key);
@@ -28,7 +27,7 @@ export function createRouter(app: Hono<AppEnv>, store: Store, maxJsonBytes: numb
     registered.add(key);
     app.on(spec.method.toUpperCase(), spec.path, async function handleRoute(c) {
       c.set('route', spec.path);
-      c.set('principal', authorize(c, spec.access, store));
+      c.set('principal', await authorize(c, spec.access, deps));
       const request: NonNullable<AppEnv['Variables']['request']> = {};
       if (spec.query) Object.assign(request, { query: readQuery(c, spec.query), querySchema: spec.query });
       if (spec.body && !spec.binaryBody) Object.assign(request, { body: await readJson(c, spec.body, maxJsonBytes), bodySchema: spec.body });

@@ -1,4 +1,5 @@
 import { DEVICE_PUBLISH_CHANNELS, DEVICE_SUBSCRIBE_CHANNELS } from './access.js';
+import { DEFAULT_PACKET_LIMITS } from './broker.js';
 import { TOPIC_ROOT } from '../protocol/topics.js';
 
 /**
@@ -20,13 +21,42 @@ export function mosquittoAcl(serverUsername: string): string {
   ].join('\n');
 }
 
-/** A listener section for mosquitto.conf that uses the ACL above and a password file. */
-export function mosquittoListenerConfig(options: { port: number; host?: string; passwordFile: string; aclFile: string }): string {
+/** Files for a TLS listener; with `caFile` every client must show a certificate signed by it. */
+export interface MosquittoTlsFiles {
+  certFile: string;
+  keyFile: string;
+  /** Per-device certificates: the certificate's CN becomes the user name (use_identity_as_username). */
+  caFile?: string;
+  crlFile?: string;
+}
+
+/**
+ * The mosquitto.conf lines that give an external Mosquitto (2.x) the embedded broker's rules, as far as
+ * Mosquitto has them: a packet size cap that applies to CONNECT too (max_packet_size), the client id forced to
+ * the user name (use_username_as_clientid, so one device's credentials cannot take another's client id),
+ * a password file and the ACL above, and optionally TLS with per-device certificates. One difference stays:
+ * Mosquitto lets a second session with the same client id take over the first (MQTT 3.1.1 §3.1.4), where the
+ * embedded broker keeps the live one.
+ */
+export function mosquittoListenerConfig(options: {
+  port: number;
+  host?: string;
+  passwordFile: string;
+  aclFile: string;
+  maxPacketBytes?: number;
+  tls?: MosquittoTlsFiles;
+}): string {
+  const tls = options.tls;
   return [
+    `max_packet_size ${options.maxPacketBytes ?? DEFAULT_PACKET_LIMITS.maxPacketBytes}`,
     `listener ${options.port} ${options.host ?? '127.0.0.1'}`,
     'allow_anonymous false',
+    'use_username_as_clientid true',
     `password_file ${options.passwordFile}`,
     `acl_file ${options.aclFile}`,
+    ...(tls ? [`certfile ${tls.certFile}`, `keyfile ${tls.keyFile}`, 'tls_version tlsv1.2'] : []),
+    ...(tls?.caFile ? [`cafile ${tls.caFile}`, 'require_certificate true', 'use_identity_as_username true'] : []),
+    ...(tls?.crlFile ? [`crlfile ${tls.crlFile}`] : []),
     '',
   ].join('\n');
 }

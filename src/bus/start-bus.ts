@@ -3,8 +3,10 @@ import mqtt from 'mqtt';
 import type { MetricsRegistry } from '../metrics/registry.js';
 import type { Store } from '../store/store.js';
 import { createBridge, type Bridge } from './bridge.js';
-import { startEmbeddedBroker, type EmbeddedBroker } from './broker.js';
+import type { LoginGuard } from '../store/login-guard.js';
+import { startEmbeddedBroker, type BrokerTls, type EmbeddedBroker } from './broker.js';
 import { createKeepaliveNotes } from './connection-notes.js';
+import type { PacketLimits } from './packet-guard.js';
 import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
 
 export interface BusOptions {
@@ -12,7 +14,18 @@ export interface BusOptions {
   /** An external MQTT 3.1.1/5 broker (mqtt://host:port) with the server's account; without it the embedded broker starts. */
   external?: { url: string; username: string; password: string };
   /** Where the embedded broker listens (127.0.0.1:1884 by default; port 0 picks a free one), and the server's account on it (random by default). */
-  embedded?: { host?: string; port?: number; serverUser?: { username: string; password: string } };
+  embedded?: {
+    host?: string;
+    port?: number;
+    serverUser?: { username: string; password: string };
+    /** Certificate and key for MQTT over TLS, and optionally a client CA (per-device certificates) and a CRL. */
+    tls?: BrokerTls;
+    packetLimits?: Partial<PacketLimits>;
+  };
+  /** Failed-login limits; hand in the one the HTTP API uses, so both count the same failures. */
+  loginGuard?: LoginGuard;
+  /** CA certificate (PEM) the server's own client trusts when the embedded broker speaks TLS (default: the broker's own certificate, for a self-signed one). */
+  serverClientCaPem?: string;
   clock?: { now(): Date };
   /** Where device events are written: a worker thread with its own connection (default), or the event loop's thread. */
   eventWriter?: 'worker' | 'inline';
@@ -26,6 +39,11 @@ export interface Bus {
   brokerUrl: string;
   /** The embedded broker, when one was started. */
   broker: EmbeddedBroker | null;
+  /**
+   * Ends a device's live session (after revocation or rotation): 'closed', 'none' when it had no session,
+   * or 'external-broker' when the sessions are the external broker's to end.
+   */
+  disconnectDevice(deviceId: string): Promise<'closed' | 'none' | 'external-broker'>;
   close(): Promise<void>;
 }
 
@@ -49,9 +67,18 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     broker = await startEmbeddedBroker({
       ...(options.embedded?.host !== undefined ? { host: options.embedded.host } : {}),
       ...(options.embedded?.port !== undefined ? { port: options.embedded.port } : {}),
+      ...(options.embedded?.tls ? { tls: options.embedded.tls } : {}),
+      ...(options.embedded?.packetLimits ? { packetLimits: options.embedded.packetLimits } : {}),
+      ...(options.loginGuard ? { loginGuard: options.loginGuard } : {}),
+      ...(options.metrics ? { metrics: options.metrics } : {}),
       serverUser,
-      // scrypt on the thread pool: a fleet connecting at once does not stall the event loop (and the ingest) for seconds.
-      authenticate: (deviceId, password) => options.store.devices.verifyCredentialsAsync(deviceId, password),
+      // A keyed hash, microseconds on the event loop; a legacy scrypt hash goes to the thread pool once.
+      authenticate: (deviceId, password) => options.store.devices.checkLogin(deviceId, password),
+      certificateAllowed: (deviceId) => {
+        const device = options.store.devices.get(deviceId);
+        if (!device) return { ok: false, reason: 'bad-credentials' };
+        return device.revokedAt === null ? { ok: true } : { ok: false, reason: 'revoked' };
+      },
       devicesAdmitted,
       onKeepaliveMissed: keepaliveNotes.noteMissed,
       log,
@@ -62,6 +89,8 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     username: account.username,
     password: account.password,
     clientId: `ocellus-server-${randomBytes(6).toString('hex')}`,
+    // Over TLS the server's own client trusts the given CA, or else the broker's certificate itself (self-signed).
+    ...(options.serverClientCaPem ? { ca: options.serverClientCaPem } : options.embedded?.tls && !options.external ? { ca: options.embedded.tls.certPem } : {}),
     clean: true,
     reconnectPeriod: 1000,
     connectTimeout: 10_000,
@@ -83,6 +112,10 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     bridge,
     brokerUrl: account.url,
     broker,
+    disconnectDevice: async function disconnectDevice(deviceId) {
+      if (!broker) return 'external-broker';
+      return (await broker.disconnect(deviceId)) ? 'closed' : 'none';
+    },
     close: async function closeBus() {
       await bridge.close();
       await eventWriter.close();
@@ -112,13 +145,20 @@ async function republishAssignedReleases(store: Store, bridge: Bridge, log: (lin
 }
 
 /** What startServer's `bus` option expects: the bus started on the server's store and metrics. */
-export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'log'>) {
-  return async function startServerBus(context: { store: Store; metrics: MetricsRegistry; log: (line: string) => void }) {
-    const bus = await startBus({ ...options, store: context.store, metrics: context.metrics, log: context.log });
+export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'log' | 'loginGuard'>) {
+  return async function startServerBus(context: { store: Store; metrics: MetricsRegistry; log: (line: string) => void; loginGuard?: LoginGuard }) {
+    const bus = await startBus({
+      ...options,
+      store: context.store,
+      metrics: context.metrics,
+      log: context.log,
+      ...(context.loginGuard ? { loginGuard: context.loginGuard } : {}),
+    });
     return {
       publisher: bus.bridge,
       description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}`,
       onDevicesStored: (listener: (deviceIds: string[]) => void) => bus.bridge.onStored(listener),
+      disconnectDevice: (deviceId: string) => bus.disconnectDevice(deviceId),
       close: () => bus.close(),
     };
   };

@@ -3,21 +3,25 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { startDemo } from '../demo/run-demo.js';
 import { DEMO_CAUTION } from '../demo/scenario.js';
-import { formatSummary } from '../demo/summary.js';
+import { clock, formatSummary } from '../demo/summary.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
 import { sToMs } from '../physics/units.js';
 
-export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--port 8080] [--mqtt-port 1884] [--data DIR]
+export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--rollout-at S] [--port 8080] [--mqtt-port 1884] [--data DIR]
   Runs the whole system on this machine with demo data: the server with its embedded MQTT broker, the
   greenhouse scenario (profiles/greenhouse-demo) loaded through the API, a release per robot class, and
   simulated robots (device agents over MQTT with simulated cameras) working a time-compressed shift:
   driving along rows, stopping to count fruit, inspecting leaves, and a low-light patrol at the end.
-  Once every robot runs its first release, a revised fruit-counting profile goes out as a staged rollout.
+  After the robots have worked a while (demo clock 2:00 by default), a revised fruit-counting profile goes
+  out as a staged rollout; the summary line says when. You can start one yourself before that from the
+  console: Releases & rollouts, the 'Start a rollout' form.
   Prints the console URL, an admin token and a summary line every few seconds; Ctrl-C stops everything.
   --robots N      simulated robots, spread over the two robot classes (default 12)
   --duration S    stop after S seconds with a final summary (default: run until Ctrl-C)
+  --rollout-at S  demo seconds before the staged rollout starts (default 120; with --duration, at most a
+                  fifth of it)
   --port, --mqtt-port   HTTP and MQTT ports on 127.0.0.1 (0 picks free ones)
   --data DIR      the demo's folder (server/, robots/<id>/, demo.log); default a new folder under the
                   system's temporary folder, kept after the run so you can look at it
@@ -25,6 +29,8 @@ export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--port 8
 `;
 
 const SUMMARY_EVERY_MS = 3000;
+/** Late enough that a newcomer has signed in to the console and seen the robots work before the rollout runs. */
+const DEFAULT_ROLLOUT_AT_S = 120;
 
 /**
  * Resolves `requested` when Ctrl-C (SIGINT) or SIGTERM arrives, or once `stopAfter` has run out. The handlers stay until `release()`:
@@ -64,6 +70,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       port: { type: 'string' },
       'mqtt-port': { type: 'string' },
       data: { type: 'string' },
+      'rollout-at': { type: 'string' },
       help: { type: 'boolean' },
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
@@ -74,11 +81,13 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const mqttPort = optionalNumber(values, 'mqtt-port', 1884, { positive: false, integer: true });
     const dataDir = values.data ? resolve(io.cwd, values.data) : mkdtempSync(join(tmpdir(), 'ocellus-demo-'));
     const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
+    const defaultRolloutAtS = durationS === undefined ? DEFAULT_ROLLOUT_AT_S : Math.min(DEFAULT_ROLLOUT_AT_S, durationS * 0.2);
+    const rolloutAtS = values['rollout-at'] === undefined ? defaultRolloutAtS : optionalNumber(values, 'rollout-at', defaultRolloutAtS, { positive: false });
 
     io.stdout(`${DEMO_CAUTION}\n`);
     const stop = stopRequest(io);
     try {
-      return await runDemo(io, stop, { dataDir, robots, port, mqttPort, durationS, adminToken });
+      return await runDemo(io, stop, { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS });
     } finally {
       stop.release();
     }
@@ -93,17 +102,17 @@ interface DemoRun {
   mqttPort: number;
   durationS: number | undefined;
   adminToken: string | undefined;
+  rolloutAtS: number;
 }
 
 async function runDemo(io: CliIo, stop: ReturnType<typeof stopRequest>, o: DemoRun): Promise<number> {
-  const { dataDir, robots, port, mqttPort, durationS, adminToken } = o;
+  const { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS } = o;
   io.stdout(`demo folder: ${dataDir}\n`);
   let demo;
   try {
     demo = await startDemo({
       dataDir, robots, port, mqttPort,
-      // A short run starts the rollout as soon as every robot runs its first release.
-      rolloutAfterS: durationS === undefined ? 8 : Math.min(8, durationS * 0.2),
+      rolloutAfterS: rolloutAtS,
       ...(adminToken ? { adminToken } : {}),
       say: (line) => io.stdout(`${line}\n`),
     });
@@ -115,6 +124,9 @@ async function runDemo(io: CliIo, stop: ReturnType<typeof stopRequest>, o: DemoR
   io.stdout(`console: ${demo.consoleUrl}\n`);
   io.stdout(`admin token: ${demo.adminToken}${demo.tokenSource === 'environment' ? ' (from OCELLUS_ADMIN_TOKEN)' : ''}\n`);
   io.stdout(`MQTT broker: ${demo.brokerUrl}; server log and agent logs: ${demo.logFile}\n`);
+  io.stdout(
+    `staged rollout: a revised fruit-counting profile goes out at demo ${clock(rolloutAtS)}; to start one yourself first, open the console's Releases & rollouts page, fill in 'Start a rollout' and press Start rollout\n`,
+  );
   io.stdout(durationS === undefined ? 'running; press Ctrl-C to stop\n' : `running for ${durationS} s\n`);
   if (durationS !== undefined) stop.stopAfter(durationS);
 

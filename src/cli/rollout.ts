@@ -36,6 +36,17 @@ function describe(r: RolloutView): string {
     const counts = Object.entries(w.counts).map(([k, n]) => `${n} ${k}`).join(', ');
     out.push(`  wave ${w.wave}: ${w.devices} device${w.devices === 1 ? '' : 's'} (${counts})`);
   }
+  const gate = (r.spec as { gate?: { applyTimeoutS: number; telemetryFrames: number; telemetryTimeoutS: number; latencyTolerance: number }; note?: string } | null)?.gate;
+  if (gate) {
+    const latency = gate.telemetryFrames > 0
+      ? `, then ${gate.telemetryFrames} telemetry frames within ${gate.telemetryTimeoutS} s with mean inference latency within ${Math.round(gate.latencyTolerance * 100)} % of the calibrated prediction`
+      : ' (no latency check)';
+    out.push(`  gate: release applied within ${gate.applyTimeoutS} s, none refused${latency}`);
+  }
+  const note = (r.spec as { note?: string } | null)?.note;
+  if (note) out.push(`  note: ${note}`);
+  // Each device's gate verdict and its reason, as the gate recorded it.
+  for (const d of r.devices) if (d.reason) out.push(`  ${d.deviceId} (wave ${d.wave}): ${d.status}: ${d.reason}`);
   const reason = r.pauseReason as { kind?: string; wave?: number; failures?: Array<{ deviceId: string; reason: string }>; by?: string } | null;
   if (r.status === 'paused' && reason?.kind === 'gate') {
     out.push(`  paused: wave ${reason.wave ?? '?'} failed its gate`);

@@ -1,3 +1,4 @@
+import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { busForServer } from '../bus/start-bus.js';
 import { startServer } from '../server/start-server.js';
@@ -9,6 +10,7 @@ import { mibToBytes } from '../physics/units.js';
 
 export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mib 512]
                     [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
+                    [--tls-cert FILE --tls-key FILE [--client-ca FILE [--crl FILE]]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
   A port already in use is refused with exit 2 before anything is written; pick others with --port and
@@ -17,6 +19,10 @@ export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--d
   Devices connect over MQTT to the embedded broker on 127.0.0.1:--mqtt-port (0 picks a free port), or to an
   external MQTT 3.1.1/5 broker given by --broker, where the server logs in as --broker-user with the
   password in OCELLUS_BROKER_PASSWORD.
+  --tls-cert/--tls-key (PEM) make the HTTP API https:// and the embedded broker mqtts://. --client-ca makes
+  every device log in to the embedded broker with a certificate signed by that CA, its CN being the device
+  id; --crl lists revoked device certificates (checked when a device connects: also run
+  'ocellus device revoke' to end a live session). Use TLS on any network you do not fully control.
   Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as an admin token on the first start, when
   no token exists yet. Stops cleanly on Ctrl-C (SIGINT) or SIGTERM.
 `;
@@ -44,6 +50,10 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       'mqtt-port': { type: 'string' },
       broker: { type: 'string' },
       'broker-user': { type: 'string' },
+      'tls-cert': { type: 'string' },
+      'tls-key': { type: 'string' },
+      'client-ca': { type: 'string' },
+      crl: { type: 'string' },
       help: { type: 'boolean' },
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
@@ -55,6 +65,25 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     if (values.broker !== undefined && !/^(mqtts?|tcp|ssl):\/\/[^/]+/.test(values.broker)) {
       throw new UsageError(`--broker must be an mqtt:// or mqtts:// URL, got '${values.broker}'`);
     }
+    const pem = (flag: 'tls-cert' | 'tls-key' | 'client-ca' | 'crl') => {
+      const file = values[flag];
+      if (file === undefined) return undefined;
+      try {
+        return readFileSync(resolve(io.cwd, file), 'utf8');
+      } catch (e) {
+        throw new UsageError(`--${flag} ${file}: ${(e as Error).message}`);
+      }
+    };
+    if ((values['tls-cert'] === undefined) !== (values['tls-key'] === undefined)) throw new UsageError('--tls-cert and --tls-key go together');
+    if (values['tls-cert'] === undefined && (values['client-ca'] !== undefined || values.crl !== undefined)) {
+      throw new UsageError('--client-ca and --crl need --tls-cert and --tls-key');
+    }
+    if (values.crl !== undefined && values['client-ca'] === undefined) throw new UsageError('--crl needs --client-ca');
+    const certPem = pem('tls-cert');
+    const keyPem = pem('tls-key');
+    const clientCaPem = pem('client-ca');
+    const crlPem = pem('crl');
+    const tls = certPem && keyPem ? { certPem, keyPem } : undefined;
     const host = values.host ?? '127.0.0.1';
     // Before anything is written (data folder, signing key, admin token): a taken port is bad input, exit 2.
     const taken: string[] = [];
@@ -70,7 +99,14 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     }
     const bus = values.broker
       ? busForServer({ external: { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' } })
-      : busForServer({ embedded: { port: mqttPort } });
+      : busForServer({
+          embedded: {
+            port: mqttPort,
+            ...(tls ? { tls: { ...tls, ...(clientCaPem ? { clientCaPem } : {}), ...(crlPem ? { crlPem } : {}) } } : {}),
+          },
+          // The server's own client checks the broker's certificate against the CA that signed it, when given.
+          ...(tls && clientCaPem ? { serverClientCaPem: clientCaPem } : {}),
+        });
     const server = await startServer({
       dataDir,
       host,
@@ -78,6 +114,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       maxWeightsBytes: Math.floor(mibToBytes(maxWeightsMib)),
       ...(adminToken ? { adminToken } : {}),
       bus,
+      ...(tls ? { tls } : {}),
       log: (line) => io.stderr(`${line}\n`),
     }).catch((e: NodeJS.ErrnoException) => {
       // Taken between the check and the start (another process was quicker).

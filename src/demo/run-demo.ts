@@ -9,7 +9,7 @@ import { createClassRelease, createRevisedRelease, loadScenario } from './load-s
 import { createDemoRobot, type DemoRobot } from './robot.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES, demoRolloutRequest } from './scenario.js';
 import { GREENHOUSE_SHIFT, shiftLengthMin } from './shift.js';
-import { readStoredCounts, summarizeRollout, type DemoSummary, type RolloutSummary } from './summary.js';
+import { clock, readStoredCounts, summarizeRollout, type DemoSummary, type RolloutSummary } from './summary.js';
 import { msToS, sToMs } from '../physics/units.js';
 
 export interface DemoOptions {
@@ -22,7 +22,7 @@ export interface DemoOptions {
   mqttPort: number;
   /** An admin token to store on the first start (OCELLUS_ADMIN_TOKEN); a random one otherwise. */
   adminToken?: string;
-  /** Seconds of robot time before the staged rollout starts (it also waits until every robot runs its first release). */
+  /** Seconds of demo time before the staged rollout starts (it also waits until every robot runs its first release). */
   rolloutAfterS?: number;
   /** Time compression: shift minutes per real second. */
   shiftMinPerS?: number;
@@ -61,10 +61,12 @@ function adminTokenFor(server: RunningServer, given: string | undefined, generat
 }
 
 /** Starts a rollout; when earlier demo rollouts still hold the robots (a reused folder), aborts those first. */
-async function startRollout(api: ApiClient, releaseId: string, deviceIds: readonly string[], say: (line: string) => void): Promise<string> {
+type StartedRollout = { id: string; waves: Array<{ wave: number; devices: number }> };
+
+async function startRollout(api: ApiClient, releaseId: string, deviceIds: readonly string[], say: (line: string) => void): Promise<StartedRollout> {
   const body = demoRolloutRequest(releaseId, deviceIds);
   try {
-    return (await api.json<{ id: string }>('POST', '/api/v1/rollouts', body)).id;
+    return await api.json<StartedRollout>('POST', '/api/v1/rollouts', body);
   } catch (e) {
     const conflicts = ((e as ApiError).body as { conflicts?: Array<{ rolloutId: string }> } | null)?.conflicts;
     if (!(e instanceof ApiError) || e.status !== 409 || !conflicts) throw e;
@@ -72,8 +74,14 @@ async function startRollout(api: ApiClient, releaseId: string, deviceIds: readon
       say(`aborting rollout ${id} of an earlier demo run, which still holds these robots`);
       await api.json('POST', `/api/v1/rollouts/${id}/abort`);
     }
-    return (await api.json<{ id: string }>('POST', '/api/v1/rollouts', body)).id;
+    return await api.json<StartedRollout>('POST', '/api/v1/rollouts', body);
   }
+}
+
+/** "3 waves: 1 robot, then 2, then 3" — as the rollout was planned for these robots. */
+export function describeWaves(waves: ReadonlyArray<{ devices: number }>): string {
+  const sizes = waves.map((w, i) => (i === 0 ? `${w.devices} robot${w.devices === 1 ? '' : 's'}` : `${w.devices}`));
+  return `${waves.length} wave${waves.length === 1 ? '' : 's'}: ${sizes.join(', then ')}`;
 }
 
 /**
@@ -144,7 +152,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
     for (const r of robots) await api.json('POST', `/api/v1/devices/${r.deviceId}/assign`, { releaseId: firstReleases.get(r.demoClass.deviceClassId) });
 
     const shiftMinPerS = options.shiftMinPerS ?? 3;
-    const started = performance.now();
+    const startedMs = performance.now();
     const cycleMin = shiftLengthMin(GREENHOUSE_SHIFT);
     for (const r of robots) {
       const walker = createDemoRobot({
@@ -165,17 +173,19 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       if (stopping) return;
       const ready = robots.every((r) => r.agent.state().releaseId !== null);
       const hasTargets = robots.some((r) => r.demoClass.deviceClassId === revisedClass.deviceClassId);
-      if (!hasTargets || !ready || performance.now() - started < rolloutAfterMs) {
+      if (!hasTargets || !ready || performance.now() - startedMs < rolloutAfterMs) {
         if (hasTargets) rolloutTimer = setTimeout(() => void maybeStartRollout().catch(fail), 500);
         return;
       }
       const revised = await createRevisedRelease(api);
       say(`profile ${revised.release.release.tasks['fruit-counting']!.profileId} revision ${revised.revision} (checks ${revised.status}) released as ${revised.release.release.id}`);
       const targets = robots.filter((r) => r.demoClass.deviceClassId === revisedClass.deviceClassId).map((r) => r.deviceId);
-      rolloutId = await startRollout(api, revised.release.release.id, targets, say);
-      say(`staged rollout ${rolloutId} started: one canary robot, then half of the rest, then the others; each wave must pass its gate`);
+      const started = await startRollout(api, revised.release.release.id, targets, say);
+      rolloutId = started.id;
+      say(`staged rollout ${rolloutId} started at demo ${clock((performance.now() - startedMs) / 1000)}: ${describeWaves(started.waves)}; each wave must pass its gate`);
     };
     const fail = (e: unknown) => say(`could not start the rollout: ${(e as Error).message}`);
+    const rolloutPlanned = robots.some((r) => r.demoClass.deviceClassId === revisedClass.deviceClassId);
     rolloutTimer = setTimeout(() => void maybeStartRollout().catch(fail), 500);
 
     return {
@@ -192,7 +202,8 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
         if (rolloutId) rollout = summarizeRollout(await api.json('GET', `/api/v1/rollouts/${rolloutId}`));
         const now = readStoredCounts(server.store);
         return {
-          elapsedS: msToS(performance.now() - started),
+          elapsedS: msToS(performance.now() - startedMs),
+          rolloutStartsAtS: rolloutId === null && rolloutPlanned ? msToS(rolloutAfterMs) : null,
           robots: robots.length,
           robotsOnline: now.robotsOnline,
           switches: now.switches - baseline.switches,

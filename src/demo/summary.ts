@@ -13,6 +13,8 @@ export interface DemoSummary {
   /** Events the agents hold that the server has not acknowledged yet. */
   eventsUnacked: number;
   rollout: RolloutSummary | null;
+  /** Demo clock (seconds) at which the staged rollout is due to start; null once it started or when none is planned. */
+  rolloutStartsAtS?: number | null;
 }
 
 export interface RolloutSummary {
@@ -49,13 +51,13 @@ export function summarizeRollout(view: { id: string; status: string; currentWave
   };
 }
 
-function clock(seconds: number): string {
+export function clock(seconds: number): string {
   const s = Math.max(0, Math.floor(seconds));
   return `${Math.floor(s / 60)}:${String(s % 60).padStart(2, '0')}`;
 }
 
-export function formatRollout(r: RolloutSummary | null): string {
-  if (!r) return 'rollout not started';
+export function formatRollout(r: RolloutSummary | null, startsAtS: number | null = null): string {
+  if (!r) return startsAtS === null ? 'rollout not started' : `rollout starts at demo ${clock(startsAtS)}`;
   return `rollout ${r.id} ${r.status}, wave ${r.wave}/${r.waveCount}, ${r.devicesPassed}/${r.devices} robots passed`;
 }
 
@@ -65,7 +67,7 @@ export function formatSummary(s: DemoSummary, final = false): string {
     `[demo ${clock(s.elapsedS)}${final ? ' final' : ''}] robots ${s.robotsOnline}/${s.robots} online`,
     `switches ${s.switches}`,
     `releases applied ${s.releasesApplied}`,
-    formatRollout(s.rollout),
+    formatRollout(s.rollout, s.rolloutStartsAtS ?? null),
     `events stored ${s.eventsStored} (${s.eventsUnacked} awaiting ack)`,
   ].join(' | ');
 }

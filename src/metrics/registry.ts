@@ -167,4 +167,7 @@ export const METRIC_NAMES = {
   devicesOnline: 'ocellus_devices_online',
   validationFailures: 'ocellus_validation_failures_total',
   mqttRejects: 'ocellus_mqtt_rejects_total',
+  deviceLoginFailures: 'ocellus_device_login_failures_total',
+  mqttOversizedPackets: 'ocellus_mqtt_oversized_packets_total',
+  eventStreamsRefused: 'ocellus_event_streams_refused_total',
 } as const;

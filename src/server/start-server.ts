@@ -1,4 +1,5 @@
 import type { AddressInfo } from 'node:net';
+import { createServer as createHttpsServer } from 'node:https';
 import { serve, type ServerType } from '@hono/node-server';
 import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
 import type { ReleasePublisher } from '../protocol/release.js';
@@ -6,7 +7,7 @@ import { createCalibrationEngine, type CalibrationEngineOptions } from '../fleet
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';
-import { createBlobStore, loadKeyChain, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
+import { createBlobStore, createLoginGuard, loadKeyChain, loadOrCreateSigningKey, openStore, type LoginGuard, type Store } from '../store/index.js';
 import { seedAdminToken, type AdminSeed } from './admin-seed.js';
 
 /** What the bus hook is handed: the open store and the metrics registry, both shared with the HTTP API. */
@@ -14,6 +15,8 @@ export interface BusContext {
   store: Store;
   metrics: MetricsRegistry;
   log: (line: string) => void;
+  /** Failed device logins, shared with the weights route so both count against the same limits. */
+  loginGuard: LoginGuard;
 }
 
 /** What a started bus gives back: the publisher assignments use, a description for the log, and how to stop it. */
@@ -23,6 +26,8 @@ export interface BusAttachment {
   description?: string;
   /** Calls the listener with the devices whose state or events the bus just stored; feeds the console's live updates. */
   onDevicesStored?(listener: (deviceIds: string[]) => void): () => void;
+  /** Ends a device's live session at once (revocation, rotation). */
+  disconnectDevice?(deviceId: string): Promise<'closed' | 'none' | 'external-broker'>;
   close(): Promise<void>;
 }
 
@@ -49,6 +54,8 @@ export interface StartServerOptions {
   fleet?: Omit<RolloutEngineOptions, 'log'> & Omit<CalibrationEngineOptions, 'log'>;
   /** The built web console served on `/` (default: dist/console, built by npm install). */
   consoleDir?: string;
+  /** Serve HTTPS with this certificate and key (PEM) instead of plain HTTP. */
+  tls?: { certPem: string; keyPem: string };
 }
 
 export interface RunningServer {
@@ -91,10 +98,11 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     const key = loadOrCreateSigningKey(options.dataDir, generateSigningKeyPair);
     const signer = createSigner(key, keyChain);
     const metrics = createMetricsRegistry();
+    const loginGuard = createLoginGuard(options.clock ? { clock: options.clock } : {});
     const adminSeed = seedAdminToken(store, options.adminToken, (options.clock?.now() ?? new Date()).toISOString());
 
     // The bus starts here, before HTTP, so the first assignment already has a publisher.
-    if (options.bus) bus = await options.bus({ store, metrics, log });
+    if (options.bus) bus = await options.bus({ store, metrics, log, loginGuard });
 
     const changes = createChangeFeed();
     bus?.onDevicesStored?.((deviceIds) => changes.publish({ kind: 'devices', deviceIds }));
@@ -107,6 +115,8 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       metrics,
       ...(options.clock ? { clock: options.clock } : {}),
       ...(bus ? { publisher: bus.publisher } : {}),
+      loginGuard,
+      ...(bus?.disconnectDevice ? { sessions: { disconnect: bus.disconnectDevice.bind(bus) } } : {}),
       ...(options.maxWeightsBytes !== undefined ? { limits: { maxWeightsBytes: options.maxWeightsBytes } } : {}),
     });
     // Rollouts carry on from the database: one left running by an earlier process continues here. Devices'
@@ -137,10 +147,15 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       calibration.stop();
       await engine.stop();
     };
-    const server = serve({ fetch: app.fetch, port: options.port ?? 8080, hostname: host });
+    const server = serve({
+      fetch: app.fetch,
+      port: options.port ?? 8080,
+      hostname: host,
+      ...(options.tls ? { createServer: createHttpsServer, serverOptions: { cert: options.tls.certPem, key: options.tls.keyPem, minVersion: 'TLSv1.2' as const } } : {}),
+    });
     const address = await listen(server);
     const urlHost = address.family === 'IPv6' ? `[${address.address}]` : address.address;
-    const url = `http://${urlHost}:${address.port}`;
+    const url = `${options.tls ? 'https' : 'http'}://${urlHost}:${address.port}`;
     log(`ocellus: serving ${url} (data ${options.dataDir}, signing key ${signer.keyId})`);
     if (bus?.description) log(`ocellus: bus ${bus.description}`);
 

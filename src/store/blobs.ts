@@ -1,20 +1,21 @@
 import { createHash, randomBytes } from 'node:crypto';
-import { createReadStream, mkdirSync, statSync, type ReadStream } from 'node:fs';
+import { createReadStream, mkdirSync, readdirSync, rmSync, statSync, type ReadStream } from 'node:fs';
 import { open, rename, rm } from 'node:fs/promises';
 import { join } from 'node:path';
+import { syncFolder } from './durable-file.js';
 
 const SHA256_HEX = /^[0-9a-f]{64}$/;
 
 export type BlobPutResult =
   | { ok: true; sha256: string; sizeBytes: number }
-  | { ok: false; reason: 'too-large' | 'hash-mismatch' | 'size-mismatch'; detail: string };
+  | { ok: false; reason: 'too-large' | 'over-declared-size' | 'hash-mismatch' | 'size-mismatch'; detail: string };
 
 export interface BlobPutExpectation {
   /** The hash the content must have; nothing is kept unless it matches. */
   sha256: string;
   /** Refuse (and stop reading) as soon as more than this many bytes arrive. */
   maxBytes: number;
-  /** The declared size, when known. */
+  /** The declared size, when known: reading stops as soon as more than this arrives. */
   sizeBytes?: number;
 }
 
@@ -33,11 +34,16 @@ export interface BlobStore {
   read(sha256: string, range?: { start: number; end: number }): ReadStream;
 }
 
+/**
+ * Opens the store, creating its folders, and removes whatever an earlier process left in `tmp/` (uploads cut
+ * by a crash): only one server uses a data folder, so at start nothing in it is being written.
+ */
 export function createBlobStore(dataDir: string): BlobStore {
   const root = join(dataDir, 'blobs');
   const tmpDir = join(root, 'tmp');
-  mkdirSync(join(root, 'sha256'), { recursive: true });
-  mkdirSync(tmpDir, { recursive: true });
+  mkdirSync(join(root, 'sha256'), { recursive: true, mode: 0o700 });
+  mkdirSync(tmpDir, { recursive: true, mode: 0o700 });
+  for (const name of readdirSync(tmpDir)) rmSync(join(tmpDir, name), { force: true, recursive: true });
 
   function pathOf(sha256: string): string {
     if (!SHA256_HEX.test(sha256)) throw new RangeError(`not a sha256 hex digest: ${JSON.stringify(sha256)}`);
@@ -65,6 +71,10 @@ export function createBlobStore(dataDir: string): BlobStore {
         if (sizeBytes > expect.maxBytes) {
           return { ok: false, reason: 'too-large', detail: `more than the ${expect.maxBytes}-byte limit for weights` };
         }
+        // Cut at the declared size: the rest of an oversized body is never read or written.
+        if (expect.sizeBytes !== undefined && sizeBytes > expect.sizeBytes) {
+          return { ok: false, reason: 'over-declared-size', detail: `content is more than the ${expect.sizeBytes} bytes the model declares` };
+        }
         hash.update(chunk);
         await file.write(chunk);
       }
@@ -80,6 +90,7 @@ export function createBlobStore(dataDir: string): BlobStore {
       }
       mkdirSync(join(root, 'sha256', expect.sha256.slice(0, 2)), { recursive: true });
       await rename(tmpPath, finalPath);
+      syncFolder(join(root, 'sha256', expect.sha256.slice(0, 2)));
       return { ok: true, sha256: actual, sizeBytes };
     } finally {
       if (!closed) await file.close().catch(() => undefined);

@@ -1,4 +1,4 @@
-import { createHash, randomBytes, scrypt, scryptSync, timingSafeEqual } from 'node:crypto';
+import { createHash, createHmac, randomBytes, scrypt, scryptSync, timingSafeEqual } from 'node:crypto';
 
 // scrypt cost parameters: N = 2^14, r = 8, p = 1 are the interactive-login values of the scrypt paper
 // (Percival, "Stronger key derivation via sequential memory-hard functions", 2009) and Node's defaults.
@@ -41,6 +41,37 @@ export function verifyPasswordAsync(password: string, stored: string): Promise<b
   return new Promise((resolve, reject) => {
     scrypt(password, h.salt, h.expected.length, h.cost, (err, actual) => (err ? reject(err) : resolve(timingSafeEqual(actual, h.expected))));
   });
+}
+
+// Device secrets are random 192-bit values (newSecret(24)), so a guess costs 2^191 tries on average: a slow KDF
+// adds nothing there, and a keyed hash (HMAC-SHA256, RFC 2104) keeps a stolen database from confirming guesses
+// without the server's key. It takes microseconds, so it runs on the event loop without stalling it.
+const HMAC_PREFIX = 'hmac-sha256$';
+
+/** Stored form of a device secret: "hmac-sha256$<base64 of HMAC-SHA256(key, secret)>". */
+export function hashDeviceSecret(secret: string, key: Buffer): string {
+  return HMAC_PREFIX + createHmac('sha256', key).update(secret, 'utf8').digest('base64');
+}
+
+/** True when the stored value is a keyed hash (not a legacy scrypt hash, not a revoked marker). */
+export function isKeyedHash(stored: string): boolean {
+  return stored.startsWith(HMAC_PREFIX);
+}
+
+// Compared against when the id is unknown, so an unknown id costs the same HMAC and comparison as an enrolled one.
+const UNKNOWN = Buffer.alloc(32);
+
+/** Constant-time check of a secret against a keyed hash; `stored` null (unknown id) does the same work and fails. */
+export function verifyDeviceSecret(secret: string, stored: string | null, key: Buffer): boolean {
+  const actual = createHmac('sha256', key).update(secret, 'utf8').digest();
+  const expected = stored !== null && isKeyedHash(stored) ? Buffer.from(stored.slice(HMAC_PREFIX.length), 'base64') : null;
+  const same = timingSafeEqual(actual, expected && expected.length === actual.length ? expected : UNKNOWN);
+  return expected !== null && expected.length === actual.length && same;
+}
+
+/** True when the stored value is a legacy scrypt hash, verified once on the thread pool and then replaced. */
+export function isScryptHash(stored: string): boolean {
+  return stored.startsWith('scrypt$');
 }
 
 /** Bearer tokens are long random secrets, so a fast unsalted sha256 is enough to keep them unreadable at rest. */

@@ -15,7 +15,9 @@ export type { ProfileRevision, ProfileRepository, RevisionRefs, NewRevision } fr
 export type { ReleaseRecord, ReleaseRepository } from './releases.js';
 export type { DeviceRecord, DeviceRepository, AssignmentRecord } from './devices.js';
 export type { AuditEntry, AuditFilter, AuditRepository } from './audit.js';
-export { hashPassword, verifyPassword, hashToken, newToken, newSecret } from './credentials.js';
+export { hashPassword, verifyPassword, hashToken, newToken, newSecret, hashDeviceSecret } from './credentials.js';
+export { createLoginGuard } from './login-guard.js';
+export type { LoginGuard, LoginRefusal } from './login-guard.js';
 export type { Attempt } from './store.js';
 export type { NewRelease } from './releases.js';
 export type { DeviceStateRecord, DeviceStateRepository } from './device-state.js';

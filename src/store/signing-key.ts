@@ -1,6 +1,7 @@
-import { existsSync, readFileSync, writeFileSync, chmodSync } from 'node:fs';
+import { existsSync, readFileSync, chmodSync } from 'node:fs';
 import { createPublicKey } from 'node:crypto';
 import { join } from 'node:path';
+import { writeFileDurably } from './durable-file.js';
 
 export interface SigningKeyFile {
   privateKeyPem: string;
@@ -10,7 +11,8 @@ export interface SigningKeyFile {
 
 /**
  * Loads the server's Ed25519 signing key from `<dataDir>/signing-key.pem`, or writes a new one (mode 0600)
- * made by `generate` on first start. The public key is derived from the private key, so only one file is kept.
+ * made by `generate` on first start, fsynced with its folder so a power cut cannot leave an empty key behind
+ * releases already signed with it. The public key is derived from the private key, so only one file is kept.
  */
 export function loadOrCreateSigningKey(
   dataDir: string,
@@ -20,7 +22,7 @@ export function loadOrCreateSigningKey(
   if (!existsSync(path)) {
     // 'wx' refuses to overwrite a key another process wrote in the meantime.
     try {
-      writeFileSync(path, generate().privateKeyPem, { mode: 0o600, flag: 'wx' });
+      writeFileDurably(path, generate().privateKeyPem, 0o600);
     } catch (e) {
       if ((e as NodeJS.ErrnoException).code !== 'EEXIST') throw e;
     }

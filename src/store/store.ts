@@ -1,7 +1,8 @@
 import Database from 'better-sqlite3';
-import { mkdirSync } from 'node:fs';
+import { chmodSync, closeSync, mkdirSync, openSync } from 'node:fs';
 import { join } from 'node:path';
 import { createAuditRepository, type AuditRepository } from './audit.js';
+import { loadOrCreateDeviceSecretKey } from './device-secret-key.js';
 import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
@@ -64,8 +65,13 @@ export interface OpenStoreOptions {
 
 /** Opens (creating when needed) `<dataDir>/ocellus.db` in WAL mode with foreign keys on, and migrates it. */
 export function openStore(dataDir: string, options: OpenStoreOptions = {}): Store {
-  mkdirSync(dataDir, { recursive: true });
-  const db = new Database(join(dataDir, 'ocellus.db'));
+  // Only the server's user reads the data: the database holds credentials' hashes and device reports.
+  mkdirSync(dataDir, { recursive: true, mode: 0o700 });
+  const dbPath = join(dataDir, 'ocellus.db');
+  // Created (or tightened) 0600 before SQLite opens it; SQLite gives the -wal and -shm files the database's mode.
+  closeSync(openSync(dbPath, 'a', 0o600));
+  chmodSync(dbPath, 0o600);
+  const db = new Database(dbPath);
   try {
     db.pragma('journal_mode = WAL');
     db.pragma('foreign_keys = ON');
@@ -77,7 +83,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     db.close();
     throw e;
   }
-  const devices = createDeviceRepository(db);
+  const devices = createDeviceRepository(db, loadOrCreateDeviceSecretKey(dataDir));
   const hasTableStmt = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?");
   // Prepared once: cheaper than a nested transaction per item of a large batch.
   const savepoint = { begin: db.prepare('SAVEPOINT store_attempt'), release: db.prepare('RELEASE store_attempt'), undo: db.prepare('ROLLBACK TO store_attempt') };

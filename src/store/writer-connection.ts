@@ -14,17 +14,17 @@ export interface EventWriterStore {
 
 /**
  * A second connection to the server's (already migrated) database for the event writer, with the
- * store's settings: WAL, foreign keys, a busy timeout for the moments the main connection writes, and
- * synchronous = NORMAL. In WAL mode NORMAL keeps every commit across a crash of the process (the
- * commit is in the WAL file before the ack is sent) and the database consistent across a power cut,
- * where the last commits before the WAL's next sync may be lost (SQLite documentation, "PRAGMA synchronous").
+ * store's settings (WAL, foreign keys, a busy timeout for the moments the main connection writes) except
+ * synchronous = FULL. Its commits precede the acks that let devices drop their events, so each must be on
+ * disk before the ack: in WAL mode NORMAL survives a crash of the process but may lose the last commits on a
+ * power cut, while FULL syncs the WAL at every commit (SQLite documentation, "PRAGMA synchronous").
  */
 export function openEventWriterStore(location: string, busyTimeoutMs: number): EventWriterStore {
   const db = new Database(location, { fileMustExist: true });
   db.pragma('journal_mode = WAL');
   db.pragma('foreign_keys = ON');
   db.pragma(`busy_timeout = ${Math.max(0, Math.floor(busyTimeoutMs))}`);
-  db.pragma('synchronous = NORMAL');
+  db.pragma('synchronous = FULL');
   return {
     deviceEvents: createDeviceEventRepository(db),
     deviceStates: createDeviceStateRepository(db),

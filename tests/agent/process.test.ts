@@ -64,7 +64,7 @@ describe('agent as a process (embedded broker)', () => {
     await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-p1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
     await bus.stopBroker();
-    const r = await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir]);
+    const r = await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir, '--json']);
     expect(r.code).toBe(0);
     expect(JSON.parse(r.stdout)).toMatchObject({ ok: true, task: 'leaves' });
     const state = await callControl(s.endpoint(), 'GET', '/state');
@@ -81,7 +81,10 @@ describe('agent as a process (embedded broker)', () => {
     const first = await s.start();
     await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-q1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
-    expect((await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir])).code).toBe(0);
+    const text = await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir]);
+    expect(text.code).toBe(0);
+    // Without --json: a line for people.
+    expect(text.stdout).toMatch(/^switched to task leaves \(actuation [\d.]+ ms\)\n$/);
     await waitFor(() => events(s.id).some((e) => e.type === 'task-switched' && e.toTask === 'leaves'), 'switch stored');
     await first.kill();
     await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-q2', 2, tasks))));

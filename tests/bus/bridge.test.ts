@@ -89,7 +89,7 @@ for (const b of brokers) {
       await waitFor(() => rig.bus.bridge.deviceStates.get(id)?.online === false, 'will stored');
       expect(rig.bus.bridge.deviceStates.get(id)).toMatchObject({ online: false, releaseId: 'rel-7' });
       await rig.bus.bridge.clearRelease(id);
-      const cleaner = await mqtt.connectAsync(rig.deviceUrl, { ...rig.credentials(id), reconnectPeriod: 0 });
+      const cleaner = await mqtt.connectAsync(rig.deviceUrl, { ...rig.credentials(id), clientId: id, reconnectPeriod: 0 });
       await cleaner.publishAsync(deviceTopic(id, 'state'), Buffer.alloc(0), { qos: 1, retain: true });
       await cleaner.endAsync();
     });

@@ -15,7 +15,8 @@ beforeAll(async () => {
 afterAll(async () => broker.close());
 
 function connectAs(username: string, password: string): Promise<MqttClient> {
-  return mqtt.connectAsync(broker.url, { username, password, reconnectPeriod: 0, connectTimeout: 5000 });
+  // A device's client id is its user name; the server's account may use any.
+  return mqtt.connectAsync(broker.url, { username, password, clientId: username === server.username ? `srv-${Math.random()}` : username, reconnectPeriod: 0, connectTimeout: 5000 });
 }
 
 async function grantsOf(client: MqttClient, filters: string[]): Promise<number[]> {

@@ -1,3 +1,4 @@
+import { connect as tcpConnect } from 'node:net';
 import mqtt, { type MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { deviceTopic } from '../../src/protocol/index.js';
@@ -59,6 +60,38 @@ describe.skipIf(!mosquittoBinary)('Mosquitto with the Ocellus ACL (private broke
     await a.publishAsync(deviceTopic('dev-a', 'events'), 'own', { qos: 1 });
     await waitFor(() => seen.length > 0, 'own events delivered');
     expect(seen).toEqual([`${deviceTopic('dev-a', 'events')}=own`]);
+  });
+
+  it("forces the client id to the user name: dev-a's credentials under client id dev-b leave dev-b online", async () => {
+    const victim = await mqtt.connectAsync(broker.url, { clientId: 'dev-b', username: 'dev-b', password: 'pw-b', reconnectPeriod: 0 });
+    clients.push(victim);
+    let victimClosed = false;
+    victim.once('close', () => (victimClosed = true));
+    for (let i = 0; i < 5; i++) {
+      const spoof = await mqtt.connectAsync(broker.url, { clientId: 'dev-b', username: 'dev-a', password: 'pw-a', reconnectPeriod: 0 });
+      await spoof.endAsync();
+    }
+    await victim.publishAsync(deviceTopic('dev-b', 'state'), 'still here', { qos: 1 });
+    expect(victimClosed).toBe(false);
+    expect(victim.connected).toBe(true);
+  });
+
+  it('closes a connection whose CONNECT claims 200 MB (max_packet_size)', async () => {
+    const socket = tcpConnect(broker.port, '127.0.0.1');
+    await new Promise<void>((resolve) => socket.once('connect', () => resolve()));
+    socket.on('error', () => undefined);
+    const closed = new Promise<void>((resolve) => socket.once('close', () => resolve()));
+    // CONNECT (0x10) with a remaining length of 200 MiB as an MQTT variable-length integer (§2.2.3).
+    socket.write(Buffer.from([0x10, 0x80, 0x80, 0x80, 0x64]));
+    let sentBytes = 0;
+    const chunk = Buffer.alloc(64 * 1024);
+    while (!socket.destroyed && sentBytes < 16 * 1024 * 1024) {
+      socket.write(chunk);
+      sentBytes += chunk.length;
+      await new Promise((r) => setTimeout(r, 1));
+    }
+    await closed;
+    expect(sentBytes).toBeLessThan(16 * 1024 * 1024);
   });
 });
 

@@ -83,6 +83,26 @@ describe('command line against a running server', () => {
     const l1 = captureIo(work, env);
     expect(await device(['list', '--tag', 'row-2'], l1)).toBe(0);
     expect(l1.out()).toContain(`gh-07  ${deviceClass.id}`);
+
+    // Rotation prints a new password once and the old one stops working; revocation refuses the new one too.
+    const rot = captureIo(work, env);
+    expect(await device(['rotate-password', 'gh-07'], rot), rot.err()).toBe(0);
+    const rotated = /mqtt password: (\S+)/.exec(rot.out())![1]!;
+    expect(rotated).not.toBe(password);
+    expect(rot.out()).toContain('the server runs without a bus');
+    expect(rot.err()).toContain('shown only once');
+    expect(running.store.verifyDeviceCredentials('gh-07', password)).toBe(false);
+    expect(running.store.verifyDeviceCredentials('gh-07', rotated)).toBe(true);
+    const rev = captureIo(work, env);
+    expect(await device(['revoke', 'gh-07'], rev), rev.err()).toBe(0);
+    expect(rev.out()).toMatch(/device gh-07: credentials revoked at \d{4}-/);
+    expect(running.store.verifyDeviceCredentials('gh-07', rotated)).toBe(false);
+    const missing = captureIo(work, env);
+    expect(await device(['revoke', 'gh-99'], missing)).toBe(2);
+    expect(missing.err()).toContain('gh-99');
+    const noId = captureIo(work, env);
+    expect(await device(['rotate-password'], noId)).toBe(2);
+    expect(noId.err()).toContain('give the device id');
   });
 
   it('names the flag when usage is wrong, and says when the server cannot be reached', async () => {

@@ -82,7 +82,7 @@ describe('documents with history', () => {
 });
 
 describe('secrets at rest', () => {
-  it('stores device passwords as salted scrypt hashes and verifies them', () => {
+  it('stores device passwords as keyed hashes (HMAC-SHA256) and verifies them', () => {
     const dir = tempDir();
     const s = open(dir);
     const a = s.devices.enrol({ id: 'gh-01', deviceClassId: 'cam', tags: ['row-1'], actor: 'op', at })!;
@@ -90,12 +90,11 @@ describe('secrets at rest', () => {
     expect(s.devices.enrol({ id: 'gh-01', deviceClassId: 'cam', tags: [], actor: 'op', at })).toBeNull();
     expect(s.verifyDeviceCredentials('gh-01', a.password)).toBe(true);
     expect(s.verifyDeviceCredentials('gh-01', b.password)).toBe(false);
-    // Once verified, the password is remembered for speed; a different one is still refused.
     expect(s.verifyDeviceCredentials('gh-01', a.password)).toBe(true);
     expect(s.verifyDeviceCredentials('gh-01', `${a.password}x`)).toBe(false);
     expect(s.verifyDeviceCredentials('gh-99', a.password)).toBe(false);
     const hashes = sqliteHandle(s).prepare('SELECT password_hash FROM devices').all() as Array<{ password_hash: string }>;
-    expect(hashes.every((h) => h.password_hash.startsWith('scrypt$'))).toBe(true);
+    expect(hashes.every((h) => h.password_hash.startsWith('hmac-sha256$'))).toBe(true);
     expect(hashes[0]!.password_hash).not.toContain(a.password);
     sqliteHandle(s).pragma('wal_checkpoint(TRUNCATE)');
     expect(readFileSync(join(dir, 'ocellus.db')).includes(Buffer.from(a.password))).toBe(false);
@@ -153,7 +152,8 @@ describe('content-addressed weights', () => {
     const wrong = 'a'.repeat(64);
     expect(await blobs.put(Readable.from([bytes]), { sha256: wrong, maxBytes: 1000 })).toMatchObject({ ok: false, reason: 'hash-mismatch' });
     expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 8 })).toMatchObject({ ok: false, reason: 'too-large' });
-    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: 3 })).toMatchObject({ ok: false, reason: 'size-mismatch' });
+    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: 3 })).toMatchObject({ ok: false, reason: 'over-declared-size' });
+    expect(await blobs.put(Readable.from([bytes]), { sha256: sha, maxBytes: 1000, sizeBytes: bytes.length + 5 })).toMatchObject({ ok: false, reason: 'size-mismatch' });
     expect(blobs.sizeOf(sha)).toBeNull();
     expect(blobs.sizeOf(wrong)).toBeNull();
     expect(readdirSync(join(dir, 'blobs', 'tmp'))).toEqual([]);

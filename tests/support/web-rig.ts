@@ -22,6 +22,8 @@ export const hasChromium = existsSync(CHROMIUM_PATH);
 export const SCREENSHOT_DIR = join(process.cwd(), 'test-artifacts', 'console');
 
 export interface ConsoleRig {
+  /** Content-Security-Policy violations Chromium reported on any page opened through openPage. */
+  cspViolations: string[];
   server: RunningServer;
   api: ApiClient;
   adminToken: string;
@@ -95,7 +97,9 @@ export async function startConsoleRig(): Promise<ConsoleRig> {
     browser = await chromium.launch({ executablePath: CHROMIUM_PATH, args: CHROMIUM_ARGS });
     mkdirSync(SCREENSHOT_DIR, { recursive: true });
     const b = browser;
+    const cspViolations: string[] = [];
     return {
+      cspViolations,
       server,
       api,
       adminToken,
@@ -106,6 +110,10 @@ export async function startConsoleRig(): Promise<ConsoleRig> {
       async openPage(token = adminToken, viewport = { width: 1280, height: 800 }) {
         const context = await b.newContext({ viewport });
         const page = await context.newPage();
+        // Chromium reports a blocked script, style or request on the console; the console must cause none.
+        page.on('console', (message) => {
+          if (/Content Security Policy/i.test(message.text())) cspViolations.push(message.text());
+        });
         await page.goto(`${server.url}/`);
         await page.getByLabel('API token').fill(token);
         await page.getByRole('button', { name: 'Sign in' }).click();

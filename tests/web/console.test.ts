@@ -27,6 +27,19 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await rig?.close();
   });
 
+  it('is served with a Content-Security-Policy and frame-ancestors, and runs under it without a violation', async () => {
+    const res = await fetch(`${rig.server.url}/`);
+    expect(res.headers.get('content-security-policy')).toContain("frame-ancestors 'none'");
+    expect(res.headers.get('x-frame-options')).toBe('DENY');
+    const page = await rig.openPage();
+    for (const hash of ['#/profiles', '#/releases', '#/rollouts', '#/']) {
+      await page.goto(`${rig.server.url}/${hash}`);
+      await page.getByRole('navigation', { name: 'Pages' }).waitFor();
+    }
+    expect(rig.cspViolations).toEqual([]);
+    await page.context().close();
+  });
+
   it('the fleet page lists every enrolled robot with its class, connection and applied release, and shows a new one live', async () => {
     const page = await rig.openPage();
     for (const r of rig.robots) {

@@ -64,6 +64,39 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
     });
   });
 
+  /** Ends the device's live session, so old credentials or a revoked device are not left connected. */
+  async function endSession(deviceId: string): Promise<'closed' | 'none' | 'external-broker' | 'no-bus'> {
+    return deps.sessions ? deps.sessions.disconnect(deviceId) : 'no-bus';
+  }
+
+  route('devices.rotate-password', async (c) => {
+    const id = c.req.param('id') ?? '';
+    const at = deps.clock.now().toISOString();
+    const actor = actorOf(c);
+    const rotated = store.transaction(() => {
+      const r = store.devices.rotatePassword(id);
+      if (!r) throw notFound(`device '${id}'`);
+      recordChange(store, { at, actor, action: 'device.rotate-password', target: `device/${id}`, detail: null });
+      return r;
+    });
+    const session = await endSession(id);
+    return c.json({ device: view(rotated.device), mqtt: { username: id, password: rotated.password }, session });
+  });
+
+  route('devices.revoke', async (c) => {
+    const id = c.req.param('id') ?? '';
+    const at = deps.clock.now().toISOString();
+    const actor = actorOf(c);
+    const revoked = store.transaction(() => {
+      const d = store.devices.revoke(id, at);
+      if (!d) throw notFound(`device '${id}'`);
+      recordChange(store, { at, actor, action: 'device.revoke', target: `device/${id}`, detail: { revokedAt: d.revokedAt } });
+      return d;
+    });
+    const session = await endSession(id);
+    return c.json({ device: view(revoked), session });
+  });
+
   route('devices.assign', async (c) => {
     const id = c.req.param('id') ?? '';
     const body = requestBody(c, assignRequestSchema);

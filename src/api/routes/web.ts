@@ -9,8 +9,7 @@ import { roleAtLeast } from '../roles.js';
 import { ROUTES, API_BASE } from '../route-table.js';
 import type { Router } from '../routing.js';
 
-/** Open event streams beyond this are refused (503), so a misbehaving page cannot pile them up. */
-const MAX_EVENT_STREAMS = 200;
+import { METRIC_NAMES } from '../../metrics/registry.js';
 /** A comment-free heartbeat keeps proxies from closing a quiet stream. */
 const HEARTBEAT_MS = 25_000;
 
@@ -41,24 +40,61 @@ export function registerWebRoutes(app: Hono<AppEnv>, route: Router, deps: Resolv
     return c.json({ id: token.id, label: token.label, role: token.role, actor: principal.actor, allowed });
   });
 
+  // Streams open per token: one viewer's page (or script) cannot hold every stream the server allows.
+  const streamsPerToken = new Map<number, number>();
+  const refusedStreams = deps.metrics.counter(METRIC_NAMES.eventStreamsRefused, 'Event streams refused, by reason');
+  const revokeRoute = `${API_BASE}/tokens/:id/revoke`;
+
   route('events.stream', (c) => {
-    if (changes.listenerCount() >= MAX_EVENT_STREAMS) throw new HttpError(503, `too many open event streams (${MAX_EVENT_STREAMS})`);
+    const principal = c.get('principal');
+    if (principal?.kind !== 'token') throw new HttpError(401, 'authorization required: send a bearer token');
+    const tokenId = principal.token.id;
+    const { maxEventStreams, maxEventStreamsPerToken } = deps.limits;
+    if (changes.listenerCount() >= maxEventStreams) {
+      refusedStreams.inc({ reason: 'server-limit' });
+      throw new HttpError(503, `too many open event streams (${maxEventStreams})`);
+    }
+    const mine = streamsPerToken.get(tokenId) ?? 0;
+    if (mine >= maxEventStreamsPerToken) {
+      refusedStreams.inc({ reason: 'token-limit' });
+      throw new HttpError(429, `this token already has ${mine} open event streams (at most ${maxEventStreamsPerToken}); close one first`);
+    }
+    streamsPerToken.set(tokenId, mine + 1);
     return streamSSE(c, async function streamChanges(stream) {
       let nextId = 1;
       let closed = false;
+      let end = () => {};
+      const ended = new Promise<void>((resolve) => (end = resolve));
+      /** A revoked token's stream ends at once: checked when a token is revoked, and at every heartbeat. */
+      const endIfRevoked = () => {
+        if (deps.store.tokens.get(tokenId)?.revokedAt != null) end();
+      };
       const send = (event: string, data: unknown) => {
         if (closed) return;
         stream.writeSSE({ event, id: String(nextId++), data: JSON.stringify(data) }).catch(() => {
           closed = true;
         });
       };
-      const stop = changes.subscribe((change) => send('change', change));
+      const stop = changes.subscribe((change) => {
+        if (change.kind === 'api' && change.route === revokeRoute) endIfRevoked();
+        send('change', change);
+      });
       send('hello', { at: deps.clock.now().toISOString() });
-      const heartbeat = setInterval(() => send('heartbeat', {}), HEARTBEAT_MS);
-      await new Promise<void>((resolve) => stream.onAbort(resolve));
-      closed = true;
-      clearInterval(heartbeat);
-      stop();
+      const heartbeat = setInterval(() => {
+        endIfRevoked();
+        send('heartbeat', {});
+      }, HEARTBEAT_MS);
+      stream.onAbort(end);
+      try {
+        await ended;
+      } finally {
+        closed = true;
+        clearInterval(heartbeat);
+        stop();
+        const left = (streamsPerToken.get(tokenId) ?? 1) - 1;
+        if (left > 0) streamsPerToken.set(tokenId, left);
+        else streamsPerToken.delete(tokenId);
+      }
     });
   });
 

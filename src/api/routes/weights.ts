@@ -21,12 +21,15 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     const { sha256, sizeBytes } = model.document;
     const max = deps.limits.maxWeightsBytes;
     const declared = Number(c.req.header('content-length'));
+    if (Number.isFinite(declared) && declared > sizeBytes && declared <= max) {
+      throw new HttpError(413, `weights are larger than the ${sizeBytes} bytes model '${id}' declares`, { issues: [{ path: 'body', message: `${declared} bytes` }] });
+    }
     if (Number.isFinite(declared) && declared > max) {
       throw new HttpError(413, `weights are larger than the ${max}-byte limit`, { issues: [{ path: 'body', message: `${declared} bytes` }] });
     }
     const result = await blobs.put(streamChunks(c.req.raw.body), { sha256, sizeBytes, maxBytes: max });
     if (!result.ok) {
-      const status = result.reason === 'too-large' ? 413 : 400;
+      const status = result.reason === 'too-large' || result.reason === 'over-declared-size' ? 413 : 400;
       throw new HttpError(status, `weights refused for model '${id}' version ${model.version}`, { issues: [{ path: 'body', message: result.detail }] });
     }
     const at = deps.clock.now().toISOString();

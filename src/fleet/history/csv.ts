@@ -1,11 +1,23 @@
 import type { HistoryInterval } from './intervals.js';
 import type { UsageRow } from './usage.js';
 
-/** One CSV field (RFC 4180): quoted when it holds a comma, a quote or a line break; quotes doubled. */
+// Characters a spreadsheet reads as the start of a formula: = + - @ tab and carriage return (OWASP, "CSV Injection"),
+// and the NUL character (OWASP ASVS 5.0, requirement 1.2.10).
+const FORMULA_START = /^[=+\-@\t\r\0]/;
+
+/**
+ * One CSV field (RFC 4180): quoted when it holds a comma, a quote or a line break; quotes doubled.
+ * Text that a spreadsheet would run as a formula (device-reported strings reach here) is defused the way
+ * OWASP's CSV-injection guidance says: a single quote before it and the cell quoted. Numbers stay numbers,
+ * so a negative figure keeps its sign.
+ */
 export function csvField(value: unknown): string {
   if (value === null || value === undefined) return '';
+  if (typeof value === 'number' || typeof value === 'bigint') return String(value);
   const text = String(value);
-  return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
+  if (FORMULA_START.test(text)) return `"'${text.replace(/"/g, '""')}"`;
+  // A semicolon is quoted too: spreadsheets in many locales split on it, and a split cell could start a formula.
+  return /[",;\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
 }
 
 /** A CSV document (RFC 4180: CRLF line ends, a header row) from rows and the columns to take from each. */

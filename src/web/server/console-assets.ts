@@ -49,7 +49,14 @@ export function createConsoleAssets(bundleDir: string) {
       return sendFile(c, 'index.html', 'no-cache');
     },
     asset: async function serveAsset(c: Context): Promise<Response> {
-      return sendFile(c, decodeURIComponent(c.req.path).replace(/^\/+/, ''), 'public, max-age=31536000, immutable');
+      let relative: string;
+      try {
+        relative = decodeURIComponent(c.req.path).replace(/^\/+/, '');
+      } catch {
+        // A lone or malformed percent sign (/assets/%) is the client's mistake, not a fault of the server.
+        return c.json({ error: 'bad percent-encoding in the URL', issues: [{ path: 'url', message: c.req.path }] }, 400);
+      }
+      return sendFile(c, relative, 'public, max-age=31536000, immutable');
     },
   };
 }
