@@ -7,3 +7,7 @@ export * from './motion.js';
 export * from './network-cost.js';
 export * from './accelerator.js';
 export * from './frame-budget.js';
+export * from './spectra.js';
+export * from './radiometry.js';
+export * from './sensor-noise.js';
+export * from './scene-signal.js';
