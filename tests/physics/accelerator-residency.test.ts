@@ -66,8 +66,8 @@ describe('spilled tensors: charged on their write and on every read', () => {
     name: 'skip example',
     input: { channels: 16, height: 8, width: 8 },
     layers: [
-      { id: 'a', op: 'conv', out: 16, kernel: 1, bias: false },
-      { id: 'b', op: 'conv', out: 16, kernel: 1, bias: false },
+      { id: 'a', op: 'conv', out: 16, kernel: 1, stride: 1, groups: 1, bias: false },
+      { id: 'b', op: 'conv', out: 16, kernel: 1, stride: 1, groups: 1, bias: false },
       { id: 'sum', op: 'add', inputs: ['a', 'b'] },
     ],
   };
