@@ -14,6 +14,7 @@ export const FAIL_CODES = [
   'latency',
   'energy-per-frame',
   'average-power',
+  'throughput',
   'accuracy',
 ] as const;
 

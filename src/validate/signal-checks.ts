@@ -16,7 +16,7 @@ function settings(input: ValidationInput): string {
 
 /** How the light was described, for messages: the illuminant, the robot light, and the monochromatic stand-in. */
 function lightText(light: SceneLight): string {
-  const robot = light.light ? ` plus the robot's ${light.light.name}` : '';
+  const robot = light.light ? ` plus the robot light "${light.light.spec.id}" (${light.light.name})` : '';
   const assumed = light.assumedMonochromatic ? ' (the task describes no scene light, so one design wavelength is assumed)' : '';
   return `under ${light.ambientName}${robot}${assumed}`;
 }
