@@ -1,6 +1,7 @@
 // Agent bench: start-up time to a broker connection, switch overhead inside the agent, resident memory of an
 // agent process, and the bridge's event-storage rate. Everything runs on loopback with the simulated driver
 // at time scale 0, so switch figures are the agent's own overhead (actuation is reported separately).
+import { signedReleaseText } from '../src/protocol/release.js';
 import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createServer } from 'node:http';
@@ -105,7 +106,7 @@ export async function run(): Promise<BenchFigure[]> {
 
     // Switches: one agent with a release applied, alternating tasks through the loopback control endpoint.
     const agent = await startAgent('bench-switch');
-    await bridge.publishRelease('bench-switch', signRelease(release, keys.privateKeyPem, keys.publicKeyPem));
+    await bridge.publishRelease('bench-switch', signedReleaseText(signRelease(release, keys.privateKeyPem, keys.publicKeyPem)));
     const endpoint = { kind: 'tcp' as const, host: '127.0.0.1', port: agent.controlPort };
     for (;;) {
       const s = (await callControl(endpoint, 'GET', '/state')).body as { releaseId: string | null };

@@ -9,6 +9,7 @@ import { generateSigningKeyPair } from '../src/protocol/signing.js';
 import { createBlobStore, loadOrCreateSigningKey, openStore } from '../src/store/index.js';
 import type { BenchFigure } from './figure.js';
 import { seededRandom } from '../device-agent/sim-driver.js';
+import { sqliteHandle } from '../src/store/sqlite-handle.js';
 
 function percentile(sorted: number[], p: number): number {
   return sorted[Math.min(sorted.length - 1, Math.ceil((p / 100) * sorted.length) - 1)]!;
@@ -26,7 +27,7 @@ const TASKS = ['rows', 'leaves', 'fruit', 'dock'];
 /** Writes the synthetic fleet: devices, one release, one assignment each, and EVENTS_PER_DEVICE events each. */
 export function generate(dir: string, log: (line: string) => void): void {
   const store = openStore(dir);
-  const db = store.db;
+  const db = sqliteHandle(store);
   const at = new Date(START_MS - 86_400_000).toISOString();
   db.prepare('INSERT INTO releases (id, device_class_id, version, signed, created_at, created_by) VALUES (?, ?, ?, ?, ?, ?)').run(
     'bench-rel-1', 'bench-class', 1, '{"demoData":true}', at, 'bench (demo data)',

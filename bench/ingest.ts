@@ -5,11 +5,12 @@ import { join } from 'node:path';
 import { createInterface } from 'node:readline';
 import { fileURLToPath } from 'node:url';
 import { startBus } from '../src/bus/start-bus.js';
-import { createDeviceEventRepository, type NewDeviceEvent } from '../src/store/device-events.js';
+import type { NewDeviceEvent } from '../src/store/device-events.js';
 import { openStore } from '../src/store/index.js';
 import { startServer } from '../src/server/start-server.js';
 import { median, type BenchFigure } from './figure.js';
 import type { IngestFleetSettings } from './ingest-fleet.js';
+import { sqliteHandle } from '../src/store/sqlite-handle.js';
 
 const DEVICES = 40;
 const EVENTS_PER_DEVICE = 7500;
@@ -61,7 +62,7 @@ function bareInsertRate(rowsByDevice: Map<string, NewDeviceEvent[]>): number {
   const dir = mkdtempSync(join(tmpdir(), 'ocellus-bench-bare-'));
   const store = openStore(dir);
   try {
-    const repo = createDeviceEventRepository(store.db);
+    const repo = store.deviceEvents;
     const at = new Date().toISOString();
     let total = 0;
     const t0 = performance.now();
@@ -133,14 +134,14 @@ export async function run(): Promise<BenchFigure[]> {
       await new Promise((r) => setTimeout(r, 10));
     }
     await fleet.phase('drained');
-    const storedRows = server.store.db.prepare('SELECT device_id AS deviceId, seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
+    const storedRows = sqliteHandle(server.store).prepare('SELECT device_id AS deviceId, seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
     const rowsByDevice = new Map<string, NewDeviceEvent[]>();
     for (const { deviceId, ...row } of storedRows) {
       const list = rowsByDevice.get(deviceId);
       if (list) list.push(row);
       else rowsByDevice.set(deviceId, [row]);
     }
-    const events = createDeviceEventRepository(server.store.db);
+    const events = server.store.deviceEvents;
     const complete = devices.filter((d) => events.contiguousSeq(d.id) === EVENTS_PER_DEVICE + 1 && events.count(d.id) === EVENTS_PER_DEVICE + 1).length;
     const lost = EXPECTED - storedRows.length;
     const stats = bus.bridge.stats();

@@ -22,6 +22,7 @@ import { hashPassword, openStore, verifyPassword, type Store } from '../src/stor
 import { benchDeviceClass, benchTask } from './agent-fixture.js';
 import { median, type BenchFigure } from './figure.js';
 import type { RolloutFleetSettings } from './rollout-fleet.js';
+import { sqliteHandle } from '../src/store/sqlite-handle.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 const SIZES = [1000, 5000];
@@ -54,14 +55,14 @@ async function until(check: () => boolean, what: string, timeoutMs: number, ever
 function seedDevices(store: Store, ids: string[]): void {
   const hash = hashPassword(PASSWORD);
   const at = new Date().toISOString();
-  const insert = store.db.prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
+  const insert = sqliteHandle(store).prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
     VALUES (?, ?, '["bench"]', ?, NULL, ?, 'bench (demo data)')`);
   store.transaction(() => ids.forEach((id) => insert.run(id, benchDeviceClass.id, hash, at)));
 }
 
 /** The broker's check of device credentials: the real scrypt verification, remembered per (stored hash, password). */
 function memoAuthenticate(store: Store) {
-  const row = store.db.prepare('SELECT password_hash FROM devices WHERE id = ?').pluck();
+  const row = sqliteHandle(store).prepare('SELECT password_hash FROM devices WHERE id = ?').pluck();
   const known = new Map<string, boolean>();
   return (id: string, password: string) => {
     const hash = row.get(id) as string | undefined;
@@ -97,7 +98,7 @@ function cpuMeter(childPid: number | undefined): () => CpuUse {
 
 /** Where the rollout's time went, from stored times alone (ms after creation): read after the run, so it costs the run nothing. */
 function phases(store: Store, rolloutId: string, releaseId: string, createdMs: number): string {
-  const q = (sql: string, ...args: unknown[]) => store.db.prepare(sql).pluck().get(...args) as string | null;
+  const q = (sql: string, ...args: unknown[]) => sqliteHandle(store).prepare(sql).pluck().get(...args) as string | null;
   const after = (iso: string | null) => (iso === null ? '?' : String(Date.parse(iso) - Math.round(createdMs)));
   const firstAssigned = q('SELECT MIN(assigned_at) FROM rollout_devices WHERE rollout_id = ?', rolloutId);
   const firstState = q('SELECT MIN(updated_at) FROM device_state WHERE release_id = ?', releaseId);
@@ -186,7 +187,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     const service = createRolloutService(store);
     await engine.tick(); // the first pass refreshes calibration and drift: not part of a rollout
     engine.start();
-    const statusOf = store.db.prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
+    const statusOf = sqliteHandle(store).prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
     const values: number[] = [];
     for (const release of releases) {
       const request = rolloutRequestSchema.parse({
@@ -208,7 +209,7 @@ export async function measure(n: number): Promise<BenchFigure> {
       }, 'rollout completed', 600_000, 10);
       const value = performance.now() - t1;
       const used = cpu();
-      const running = store.db.prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
+      const running = sqliteHandle(store).prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
       if (running !== n) throw new Error(`${running} of ${n} devices report release ${release.id}`);
       values.push(value);
       log(`${n}: rollout of ${release.id} to completion ${value.toFixed(0)} ms (CPU server ${used.server} / fleet ${used.fleet} ms; ${running} devices report it)`);

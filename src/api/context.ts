@@ -1,6 +1,6 @@
 import type { MetricsRegistry } from '../metrics/registry.js';
 import type { ChangeFeed } from './change-feed.js';
-import type { ReleasePublisher } from '../fleet/rollout/assign.js';
+import type { ReleasePublisher } from '../protocol/release.js';
 import type { BlobStore } from '../store/blobs.js';
 import type { Store } from '../store/store.js';
 import type { TokenRecord } from '../store/tokens.js';

@@ -13,9 +13,8 @@ export function createHttpMetrics(registry: MetricsRegistry, store: Store): Midd
   registry.counter(METRIC_NAMES.validationFailures, 'Profile validations whose report failed');
   registry.counter(METRIC_NAMES.mqttRejects, 'MQTT connections and messages the broker or bridge refused');
   registry.gauge(METRIC_NAMES.devicesOnline, 'Devices whose last state says online', function devicesOnline() {
-    if (!store.db.open || !store.hasTable('device_state')) return [];
-    const row = store.db.prepare('SELECT COUNT(*) AS n FROM device_state WHERE online = 1').get() as { n: number };
-    return [{ value: row.n }];
+    if (!store.isOpen()) return [];
+    return [{ value: store.deviceStates.countOnline() }];
   });
 
   return async function recordHttpMetrics(c, next) {

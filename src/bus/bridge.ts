@@ -6,24 +6,19 @@ import { decodeMessage, encodeMessage } from '../protocol/decode.js';
 import { decodeEventsMessage } from '../protocol/decode-events.js';
 import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
-import type { SignedRelease } from '../protocol/release.js';
+import type { ReleasePublisher, SignedReleaseText } from '../protocol/release.js';
 import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
 import type { DeviceEventColumns } from '../store/device-events.js';
-import { createDeviceStateRepository, type DeviceStateRepository } from '../store/device-state.js';
+import type { DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
 import type { IngestBatch, IngestResult } from './event-batch.js';
 import { createInlineEventWriter, type EventWriter } from './event-writer.js';
 import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
 
-/** What the server's release-assignment code calls to deliver a release to one device. */
-export interface ReleasePublisher {
-  publishRelease(deviceId: string, signed: SignedRelease): Promise<void>;
-}
-
 export interface BridgeOptions {
   /** A client logged in as the server's own account; the bridge subscribes on every (re)connect. */
   mqttClient: MqttClient;
-  store: Pick<Store, 'db' | 'devices' | 'transaction'>;
+  store: Pick<Store, 'deviceStates' | 'deviceEvents' | 'devices' | 'transaction'>;
   clock: { now(): Date };
   /** Where batches are stored: by default on this thread through the store's connection; startBus hands in a worker. */
   eventWriter?: EventWriter;
@@ -69,7 +64,7 @@ type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, St
 export function createBridge(options: BridgeOptions): Bridge {
   const { mqttClient: client, store, clock } = options;
   const log = options.log ?? (() => {});
-  const states = createDeviceStateRepository(store.db);
+  const states = store.deviceStates;
   const writer = options.eventWriter ?? createInlineEventWriter(store);
   const rejects = createRejectCounter(options.metrics, log);
   const enrolled = new Set<string>();
@@ -191,18 +186,19 @@ export function createBridge(options: BridgeOptions): Bridge {
   client.on('connect', subscribe);
   if (client.connected) subscribe();
 
-  // A rollout hands the same signed release object for every device of a wave: it is encoded once, not per device.
-  // Signed releases are never changed after signing (a change would break the signature), so the cache stays true.
-  const encoded = new WeakMap<SignedRelease, Buffer>();
+  // A rollout hands the same stored release for every device of a wave: its text is turned into bytes once, not per device.
+  // Stored releases never change (a change would break the signature), so the cache stays true.
+  const encoded = new WeakMap<SignedReleaseText, Buffer>();
 
-  async function publishRelease(deviceId: string, signed: SignedRelease): Promise<void> {
-    let payload = encoded.get(signed);
+  async function publishRelease(deviceId: string, release: SignedReleaseText): Promise<void> {
+    let payload = encoded.get(release);
     if (!payload) {
-      payload = encodeMessage(signed);
-      encoded.set(signed, payload);
+      // The stored text as it is: never a re-serialization of the parsed copy.
+      payload = Buffer.from(release.raw, 'utf8');
+      encoded.set(release, payload);
     }
     if (payload.byteLength > MAX_PAYLOAD_BYTES.release) {
-      throw new RangeError(`release ${signed.release.id} is ${payload.byteLength} bytes; the limit is ${MAX_PAYLOAD_BYTES.release}`);
+      throw new RangeError(`release ${release.parsed.release.id} is ${payload.byteLength} bytes; the limit is ${MAX_PAYLOAD_BYTES.release}`);
     }
     await client.publishAsync(deviceTopic(deviceId, 'release'), payload, { qos: 1, retain: true });
   }

@@ -1,21 +1,17 @@
-// Worker thread of the event writer: its own better-sqlite3 connection to the server's database (WAL
-// lets it write while the main connection reads), writing the batches the bridge posts, one at a time.
-import Database from 'better-sqlite3';
+// Worker thread of the event writer: its own connection to the server's database (WAL lets it write
+// while the main connection reads), writing the batches the bridge posts, one at a time.
 import { parentPort, workerData } from 'node:worker_threads';
-import { createDeviceEventRepository } from '../store/device-events.js';
-import { createDeviceStateRepository } from '../store/device-state.js';
+import { openEventWriterStore } from '../store/writer-connection.js';
 import { createEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch } from './event-batch.js';
-import { openWriterConnection } from './event-writer-connection.js';
 
-const { dbPath, busyTimeoutMs } = workerData as { dbPath: string; busyTimeoutMs: number };
-const db: Database.Database = openWriterConnection(dbPath, busyTimeoutMs);
-const events = createDeviceEventRepository(db);
-const writer = { events, states: createDeviceStateRepository(db), cursor: createEventCursor(events), transaction: <T>(fn: () => T): T => db.transaction(fn)() };
+const { location, busyTimeoutMs } = workerData as { location: string; busyTimeoutMs: number };
+const store = openEventWriterStore(location, busyTimeoutMs);
+const writer = { events: store.deviceEvents, states: store.deviceStates, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {
-    db.close();
+    store.close();
     parentPort!.close();
     return;
   }

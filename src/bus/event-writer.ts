@@ -1,8 +1,6 @@
 import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
-import { createDeviceEventRepository } from '../store/device-events.js';
-import { createDeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
 import { createEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch, type IngestResult } from './event-batch.js';
@@ -15,9 +13,8 @@ export interface EventWriter {
 }
 
 /** Writes on the calling thread, through the store's own connection. */
-export function createInlineEventWriter(store: Pick<Store, 'db' | 'transaction'>): EventWriter {
-  const events = createDeviceEventRepository(store.db);
-  const writer = { events, states: createDeviceStateRepository(store.db), cursor: createEventCursor(events), transaction: store.transaction };
+export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'transaction'>): EventWriter {
+  const writer = { events: store.deviceEvents, states: store.deviceStates, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),
@@ -41,14 +38,14 @@ type Reply = { ready: true } | { id: number; ok: true; result: IngestResult } | 
  * another in the order given. If the worker dies, the batches in hand fail (their devices resend them)
  * and the next write starts a new worker.
  */
-export async function startWorkerEventWriter(options: { dbPath: string; busyTimeoutMs?: number; log?: (line: string) => void }): Promise<EventWriter> {
+export async function startWorkerEventWriter(options: { location: string; busyTimeoutMs?: number; log?: (line: string) => void }): Promise<EventWriter> {
   const log = options.log ?? (() => {});
   const waiting = new Map<number, { resolve(r: IngestResult): void; reject(e: Error): void }>();
   let nextId = 1;
   let closing = false;
 
   function spawn(): Promise<Worker> {
-    const worker = new Worker(workerBootstrap(), { eval: true, workerData: { dbPath: options.dbPath, busyTimeoutMs: options.busyTimeoutMs ?? 5000 } });
+    const worker = new Worker(workerBootstrap(), { eval: true, workerData: { location: options.location, busyTimeoutMs: options.busyTimeoutMs ?? 5000 } });
     return new Promise<Worker>((resolve, reject) => {
       let ready = false;
       worker.on('message', (m: Reply) => {

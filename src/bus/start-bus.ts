@@ -1,7 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import mqtt from 'mqtt';
 import type { MetricsRegistry } from '../metrics/registry.js';
-import { signedReleaseSchema } from '../protocol/release.js';
 import type { Store } from '../store/store.js';
 import { createBridge, type Bridge } from './bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from './broker.js';
@@ -67,7 +66,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
   client.on('error', (e) => log(`bus: ${e.message}`));
   const eventWriter = options.eventWriter === 'inline'
     ? createInlineEventWriter(options.store)
-    : await startWorkerEventWriter({ dbPath: options.store.db.name, log }).catch(async (e: unknown) => {
+    : await startWorkerEventWriter({ location: options.store.location, log }).catch(async (e: unknown) => {
         await client.endAsync(true);
         await broker?.close();
         throw e;
@@ -93,14 +92,19 @@ export async function startBus(options: BusOptions): Promise<Bus> {
 async function republishAssignedReleases(store: Store, bridge: Bridge, log: (line: string) => void): Promise<void> {
   for (const device of store.devices.list()) {
     if (!device.assignedReleaseId) continue;
-    const record = store.releases.get(device.assignedReleaseId);
-    const parsed = signedReleaseSchema.safeParse(record?.signed);
-    if (!parsed.success) {
-      log(`bus: release ${device.assignedReleaseId} of device ${device.id} cannot be republished (missing or unreadable)`);
+    let record;
+    try {
+      record = store.releases.get(device.assignedReleaseId);
+    } catch (e) {
+      log(`bus: release ${device.assignedReleaseId} of device ${device.id} cannot be republished: ${(e as Error).message}`);
       continue;
     }
-    // Republish the stored object as signed: a parsed copy could differ from what the signature covers.
-    await bridge.publishRelease(device.id, record!.signed as typeof parsed.data);
+    if (!record) {
+      log(`bus: release ${device.assignedReleaseId} of device ${device.id} cannot be republished (not stored)`);
+      continue;
+    }
+    // The stored text goes out byte for byte: a re-serialized parsed copy could differ from what was signed.
+    await bridge.publishRelease(device.id, record);
   }
 }
 

@@ -137,7 +137,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
     })));
     say(`enrolled ${robots.length} robots: ${robots.map((r) => r.deviceId).join(', ')}`);
     // Counts in the summary are this run's: a reused data folder holds earlier runs' events.
-    const baseline = readStoredCounts(server.store.db);
+    const baseline = readStoredCounts(server.store);
     for (const r of robots) await r.agent.start();
     // The first release goes to every robot directly: there is nothing running to protect yet.
     for (const r of robots) await api.json('POST', `/api/v1/devices/${r.deviceId}/assign`, { releaseId: firstReleases.get(r.demoClass.deviceClassId) });
@@ -189,7 +189,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       summary: async function summary(): Promise<DemoSummary> {
         let rollout: RolloutSummary | null = null;
         if (rolloutId) rollout = summarizeRollout(await api.json('GET', `/api/v1/rollouts/${rolloutId}`));
-        const now = readStoredCounts(server.store.db);
+        const now = readStoredCounts(server.store);
         return {
           elapsedS: (performance.now() - started) / 1000,
           robots: robots.length,

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { Store } from '../store/store.js';
 
 /** What the demo reports every few seconds and at the end. */
 export interface DemoSummary {
@@ -26,15 +26,13 @@ export interface RolloutSummary {
 }
 
 /** Counts from the server's database: events by type and devices online. */
-export function readStoredCounts(db: Database.Database): Pick<DemoSummary, 'switches' | 'releasesApplied' | 'eventsStored' | 'robotsOnline'> {
-  const rows = db.prepare('SELECT type, COUNT(*) AS n FROM device_events GROUP BY type').all() as Array<{ type: string; n: number }>;
-  const byType = new Map(rows.map((r) => [r.type, r.n]));
-  const online = (db.prepare('SELECT COUNT(*) AS n FROM device_state WHERE online = 1').get() as { n: number }).n;
+export function readStoredCounts(store: Pick<Store, 'deviceEvents' | 'deviceStates'>): Pick<DemoSummary, 'switches' | 'releasesApplied' | 'eventsStored' | 'robotsOnline'> {
+  const byType = store.deviceEvents.countByType();
   return {
-    switches: byType.get('task-switched') ?? 0,
-    releasesApplied: byType.get('release-applied') ?? 0,
-    eventsStored: rows.reduce((sum, r) => sum + r.n, 0),
-    robotsOnline: online,
+    switches: byType['task-switched'] ?? 0,
+    releasesApplied: byType['release-applied'] ?? 0,
+    eventsStored: Object.values(byType).reduce((sum, n) => sum + n, 0),
+    robotsOnline: store.deviceStates.countOnline(),
   };
 }
 

@@ -63,3 +63,22 @@ export const signedReleaseSchema = z.strictObject({
   keyId: z.string(),
 });
 export type SignedRelease = z.infer<typeof signedReleaseSchema>;
+
+/**
+ * A signed release as it travels: `raw` is the exact text that was stored and is sent (the bytes on the bus
+ * are these, never a re-serialization of `parsed`), `parsed` its reading.
+ */
+export interface SignedReleaseText {
+  raw: string;
+  parsed: SignedRelease;
+}
+
+/** The text form of a freshly signed release (what storing it would keep). */
+export function signedReleaseText(signed: SignedRelease): SignedReleaseText {
+  return { raw: JSON.stringify(signed), parsed: signed };
+}
+
+/** Delivers a signed release to one device; the bus does it with a retained message on the device's release topic. */
+export interface ReleasePublisher {
+  publishRelease(deviceId: string, release: SignedReleaseText): Promise<void>;
+}

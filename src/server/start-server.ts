@@ -1,7 +1,7 @@
 import type { AddressInfo } from 'node:net';
 import { serve, type ServerType } from '@hono/node-server';
 import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
-import type { ReleasePublisher } from '../fleet/rollout/assign.js';
+import type { ReleasePublisher } from '../protocol/release.js';
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';

@@ -49,6 +49,8 @@ export interface DeviceEventRepository {
   seqsAbove(deviceId: string, seq: number): number[];
   list(deviceId: string, options?: { afterSeq?: number; type?: string; limit?: number }): StoredDeviceEvent[];
   count(deviceId?: string): number;
+  /** Stored events by type, over every device or one. */
+  countByType(deviceId?: string): Record<string, number>;
 }
 
 function toRecord(row: Row): StoredDeviceEvent {
@@ -66,6 +68,8 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
     AND (@type IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
   const countAll = db.prepare('SELECT COUNT(*) AS n FROM device_events');
   const countOne = db.prepare('SELECT COUNT(*) AS n FROM device_events WHERE device_id = ?');
+  const typesAll = db.prepare('SELECT type, COUNT(*) AS n FROM device_events GROUP BY type');
+  const typesOne = db.prepare('SELECT type, COUNT(*) AS n FROM device_events WHERE device_id = ? GROUP BY type');
 
   return {
     insert: function insert(deviceId, events, receivedAt) {
@@ -93,6 +97,10 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
     },
     count: function count(deviceId) {
       return ((deviceId === undefined ? countAll.get() : countOne.get(deviceId)) as { n: number }).n;
+    },
+    countByType: function countByType(deviceId) {
+      const rows = (deviceId === undefined ? typesAll.all() : typesOne.all(deviceId)) as Array<{ type: string; n: number }>;
+      return Object.fromEntries(rows.map((r) => [r.type, r.n]));
     },
   };
 }

@@ -1,14 +1,27 @@
 import type Database from 'better-sqlite3';
+import { signedReleaseSchema, type SignedRelease, type SignedReleaseText } from '../protocol/release.js';
 
-/** A stored release: the signed form exactly as it was signed. Releases never change once stored. */
-export interface ReleaseRecord {
+/**
+ * A stored release. `raw` is the signed release's text exactly as it was stored: what every publisher sends
+ * and the API serves, byte for byte. `parsed` is its reading, for looking inside; it is never re-serialized
+ * to be sent, because parsing may add defaults the signature does not cover. Releases never change once stored.
+ */
+export interface ReleaseRecord extends SignedReleaseText {
   id: string;
   deviceClassId: string;
   version: number;
   createdAt: string;
   createdBy: string;
-  /** The signed release (`{release, signature, keyId}` of src/protocol/release.ts), parsed from storage. */
-  signed: unknown;
+}
+
+export interface NewRelease {
+  id: string;
+  deviceClassId: string;
+  version: number;
+  createdAt: string;
+  createdBy: string;
+  /** The signed release; its JSON text is what is stored and later sent. */
+  signed: SignedRelease;
 }
 
 interface Row {
@@ -20,24 +33,17 @@ interface Row {
   created_by: string;
 }
 
-function toRecord(row: Row): ReleaseRecord {
-  return {
-    id: row.id,
-    deviceClassId: row.device_class_id,
-    version: row.version,
-    createdAt: row.created_at,
-    createdBy: row.created_by,
-    signed: JSON.parse(row.signed),
-  };
-}
-
 export interface ReleaseRepository {
   /** The version the next release of a device class gets: one more than the highest so far. */
   nextVersion(deviceClassId: string): number;
-  insert(record: ReleaseRecord): ReleaseRecord;
+  insert(record: NewRelease): ReleaseRecord;
+  /** The stored release, or null; throws naming the release when its stored text no longer reads as a signed release. */
   get(id: string): ReleaseRecord | null;
   list(filter?: { deviceClassId?: string }): ReleaseRecord[];
 }
+
+/** Readings kept per release id (a rollout reads its release for every batch); a bounded number, oldest dropped first. */
+const PARSED_CACHE_SIZE = 256;
 
 export function createReleaseRepository(db: Database.Database): ReleaseRepository {
   const maxVersion = db.prepare('SELECT MAX(version) AS v FROM releases WHERE device_class_id = ?');
@@ -47,6 +53,35 @@ export function createReleaseRepository(db: Database.Database): ReleaseRepositor
   const oneRow = db.prepare('SELECT * FROM releases WHERE id = ?');
   const allRows = db.prepare('SELECT * FROM releases ORDER BY device_class_id, version');
   const classRows = db.prepare('SELECT * FROM releases WHERE device_class_id = ? ORDER BY version');
+  const cache = new Map<string, ReleaseRecord>();
+
+  function toRecord(row: Row): ReleaseRecord {
+    const known = cache.get(row.id);
+    if (known && known.raw === row.signed) return known;
+    let json: unknown;
+    try {
+      json = JSON.parse(row.signed);
+    } catch (e) {
+      throw new Error(`stored release '${row.id}' is not JSON: ${(e as Error).message}`);
+    }
+    const parsed = signedReleaseSchema.safeParse(json);
+    if (!parsed.success) {
+      const first = parsed.error.issues[0];
+      throw new Error(`stored release '${row.id}' does not read as a signed release at ${first?.path.join('.') || '(root)'}: ${first?.message ?? 'invalid'}`);
+    }
+    const record: ReleaseRecord = {
+      id: row.id,
+      deviceClassId: row.device_class_id,
+      version: row.version,
+      createdAt: row.created_at,
+      createdBy: row.created_by,
+      raw: row.signed,
+      parsed: parsed.data,
+    };
+    if (cache.size >= PARSED_CACHE_SIZE) cache.delete(cache.keys().next().value!);
+    cache.set(row.id, record);
+    return record;
+  }
 
   function get(id: string): ReleaseRecord | null {
     const row = oneRow.get(id) as Row | undefined;

@@ -1,3 +1,4 @@
+import { signedReleaseText } from '../../src/protocol/release.js';
 import { join } from 'node:path';
 import mqtt from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -7,6 +8,7 @@ import { MOSQUITTO_SKIP_NOTE, MOSQUITTO_URL, demoRelease, demoTask, demoWeights,
 import { spawnAgent, type AgentProcess } from '../support/agent-process-rig.js';
 import { agentConfig, startBusRig, startWeightsServer, writeProcessConfig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
 import { MOSQUITTO_BINARY_SKIP_NOTE, mosquittoBinary, startPrivateMosquitto, type PrivateMosquitto } from '../support/bus-mosquitto-rig.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const rows = demoWeights('rows-net m');
 const leaves = demoWeights('leaf-net m');
@@ -21,7 +23,7 @@ beforeAll(async () => {
 afterAll(async () => web.close());
 
 function storedSeqs(bus: BusRig, id: string): number[] {
-  return bus.store.db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as number[];
+  return sqliteHandle(bus.store).prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as number[];
 }
 
 /** Removes the retained messages a test left on a shared broker. */
@@ -52,11 +54,11 @@ describe.skipIf(!mosquittoUp)('agent process over the system Mosquitto (127.0.0.
     const first = spawnAgent(['--config', configPath]);
     procs.push(first);
     await first.waitForOutput(/agent: connected to/, 'agent connected');
-    await bus.bridge.publishRelease(id, sign(demoRelease('rel-m1', 1, tasks)));
+    await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-m1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(id)?.releaseId === 'rel-m1', 'rel-m1 applied');
     await first.kill();
     await waitFor(() => bus.bridge.deviceStates.get(id)?.online === false, 'last will marks it offline');
-    await bus.bridge.publishRelease(id, sign(demoRelease('rel-m2', 2, tasks)));
+    await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-m2', 2, tasks))));
     const second = spawnAgent(['--config', configPath]);
     procs.push(second);
     await waitFor(() => bus.bridge.deviceStates.get(id)?.releaseId === 'rel-m2', 'rel-m2 applied after the restart');

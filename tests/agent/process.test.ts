@@ -1,3 +1,4 @@
+import { signedReleaseText } from '../../src/protocol/release.js';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { demoRelease, demoTask, demoWeights, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
 import { agentConfig, startBusRig, startWeightsServer, writeProcessConfig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
@@ -6,6 +7,7 @@ import { callControl } from '../../device-agent/control-client.js';
 import type { ControlEndpoint } from '../../device-agent/control-server.js';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const rows = demoWeights('rows-net p');
 const leaves = demoWeights('leaf-net p');
@@ -28,7 +30,7 @@ afterAll(async () => {
 });
 
 function events(id: string): Array<Record<string, unknown>> {
-  return (bus.store.db.prepare('SELECT event FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[]).map((e) => JSON.parse(e));
+  return (sqliteHandle(bus.store).prepare('SELECT event FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[]).map((e) => JSON.parse(e));
 }
 
 function setUp(label: string) {
@@ -59,7 +61,7 @@ describe('agent as a process (embedded broker)', () => {
   it('switches task with the broker gone, then delivers the events once the broker is back', async () => {
     const s = setUp('offline');
     await s.start();
-    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-p1', 1, tasks)));
+    await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-p1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
     await bus.stopBroker();
     const r = await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir]);
@@ -77,12 +79,12 @@ describe('agent as a process (embedded broker)', () => {
   it('converges on a release assigned while it was off, after re-applying its last task on restart', async () => {
     const s = setUp('restart');
     const first = await s.start();
-    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-q1', 1, tasks)));
+    await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-q1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
     expect((await runAgentCommand(['task', 'leaves', '--data-dir', s.dataDir])).code).toBe(0);
     await waitFor(() => events(s.id).some((e) => e.type === 'task-switched' && e.toTask === 'leaves'), 'switch stored');
     await first.kill();
-    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-q2', 2, tasks)));
+    await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-q2', 2, tasks))));
     await s.start();
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.releaseId === 'rel-q2', 'rel-q2 applied after restart');
     const all = events(s.id);
@@ -96,7 +98,7 @@ describe('agent as a process (embedded broker)', () => {
   it('loses no event and stores none twice when the broker restarts mid-stream', async () => {
     const s = setUp('stream');
     await s.start();
-    await bus.bridge.publishRelease(s.id, sign(demoRelease('rel-s1', 1, tasks)));
+    await bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-s1', 1, tasks))));
     await waitFor(() => bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
     let moving = false;
     for (let round = 0; round < 3; round++) {
@@ -108,8 +110,8 @@ describe('agent as a process (embedded broker)', () => {
     }
     const state = (await callControl(s.endpoint(), 'GET', '/state')).body as { lastSeq: number };
     expect(state.lastSeq).toBeGreaterThanOrEqual(450);
-    await waitFor(() => bus.store.db.prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get(s.id) === state.lastSeq, 'every event acked', 30_000);
-    const seqs = bus.store.db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(s.id) as number[];
+    await waitFor(() => sqliteHandle(bus.store).prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get(s.id) === state.lastSeq, 'every event acked', 30_000);
+    const seqs = sqliteHandle(bus.store).prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(s.id) as number[];
     expect(seqs).toEqual(Array.from({ length: state.lastSeq }, (_v, i) => i + 1));
     expect(events(s.id).filter((e) => e.type === 'motion')).toHaveLength(450);
   });

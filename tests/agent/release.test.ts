@@ -4,6 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { generateSigningKeyPair, signRelease, type SignedRelease } from '../../src/protocol/index.js';
 import { demoRelease, demoTask, demoWeights, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
 import { agentConfig, startAgent, startBusRig, startWeightsServer, type AgentRig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const rows = demoWeights('rows-net v1');
 const leaves = demoWeights('leaf-net v1');
@@ -38,12 +39,12 @@ async function newAgent(label: string, failure?: Parameters<typeof startAgent>[1
   return { id, rig };
 }
 
-const storedTypes = (id: string) => bus.store.db.prepare('SELECT type FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[];
+const storedTypes = (id: string) => sqliteHandle(bus.store).prepare('SELECT type FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[];
 const storedEvents = (id: string, type: string) =>
-  (bus.store.db.prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e));
+  (sqliteHandle(bus.store).prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e));
 
 async function assign(id: string, signed: SignedRelease | unknown) {
-  await bus.bridge.publishRelease(id, signed as SignedRelease);
+  await bus.bridge.publishRelease(id, { raw: JSON.stringify(signed), parsed: signed as SignedRelease });
 }
 
 describe('agent and releases (embedded broker, real HTTP weights server)', () => {

@@ -6,7 +6,6 @@ import { createApiClient, type ApiClient } from '../../src/api-client/api-client
 import { createClassRelease, loadScenario } from '../../src/demo/load-scenario.js';
 import { DEMO_CATALOG_DIR, DEMO_CLASSES } from '../../src/demo/scenario.js';
 import { startServer, type RunningServer } from '../../src/server/start-server.js';
-import { createDeviceStateRepository } from '../../src/store/device-state.js';
 import { releaseWeights } from '../../device-agent/weights-cache.js';
 import { tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
 import { spawnAgent, type AgentProcess } from '../support/agent-process-rig.js';
@@ -48,7 +47,7 @@ describe('agent process against the real server (HTTP API, signed release, embed
     procs.push(agent);
     await agent.waitForOutput(/agent: connected to/, 'agent connected');
     await api.json('POST', `/api/v1/devices/${id}/assign`, { releaseId: signed.release.id });
-    const states = createDeviceStateRepository(server.store.db);
+    const states = server.store.deviceStates;
     await waitFor(() => states.get(id)?.releaseId === signed.release.id, 'the release applied on the device', 30_000);
     expect(states.get(id)).toMatchObject({ online: true, activeTask: signed.release.defaultTask });
     for (const model of releaseWeights(signed.release)) expect(existsSync(join(dataDir, 'weights', model.sha256))).toBe(true);

@@ -1,6 +1,6 @@
 /** GET /api/v1/devices/:id lists the device's drift episodes (newest first), open and cleared. Demo data. */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createDriftRepository, type DriftRecord } from '../../src/store/drift.js';
+import type { DriftRecord } from '../../src/store/drift.js';
 import { createHarness, deviceClass, removeDir, seedCatalog, tempDataDir, type Harness } from '../support/api-fixtures.js';
 
 let h: Harness;
@@ -19,7 +19,7 @@ afterAll(() => {
 
 describe("a device's drift episodes", () => {
   it('come with the device, newest first, cleared ones with their end; other devices stay out', async () => {
-    const drift = createDriftRepository(h.store.db);
+    const drift = h.store.drift;
     const common = { deviceId: 'gh-drift-01', deviceClassId: deviceClass.id, tolerance: 0.15 };
     // 1.30 ÷ 1.02 − 1 = 0.2745: beyond a 15 % tolerance (arithmetic).
     const latency = drift.onset({ ...common, quantity: 'latency', onsetAt: '2026-03-01T08:00:00.000Z', deviceFactor: 1.3, classFactor: 1.02, deviation: 1.3 / 1.02 - 1 });

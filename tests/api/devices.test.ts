@@ -1,18 +1,17 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { ASSIGN_CAUTION } from '../../src/api/index.js';
-import type { SignedRelease } from '../../src/protocol/release.js';
+import type { SignedRelease, SignedReleaseText } from '../../src/protocol/release.js';
 import { verifyRelease } from '../../src/protocol/verify-release.js';
-import { createDeviceStateRepository } from '../../src/store/device-state.js';
 import { createHarness, deviceClass, goodProfile, removeDir, seedCatalog, tempDataDir, type Harness } from '../support/api-fixtures.js';
 
 let h: Harness;
-const sent: Array<{ deviceId: string; signed: SignedRelease }> = [];
+const sent: Array<{ deviceId: string; raw: string }> = [];
 let failSending = false;
 /** Stands in for the bus: records what would be published (the bus tests cover the broker itself). */
 const publisher = {
-  async publishRelease(deviceId: string, signed: SignedRelease) {
+  async publishRelease(deviceId: string, release: SignedReleaseText) {
     if (failSending) throw new Error('broker unreachable');
-    sent.push({ deviceId, signed });
+    sent.push({ deviceId, raw: release.raw });
   },
 };
 
@@ -73,7 +72,7 @@ describe('online state from the bus bridge', () => {
     await enrol('gh-01');
     await enrol('gh-02');
     await enrol('gh-03');
-    const states = createDeviceStateRepository(h.store.db);
+    const states = h.store.deviceStates;
     const at = '2025-03-01T10:00:00.000Z';
     states.putState('gh-01', { online: true, releaseId: null, releaseVersion: null, activeTask: null }, at);
     states.putState('gh-02', { online: false, releaseId: null, releaseVersion: null, activeTask: null }, at);
@@ -106,7 +105,9 @@ describe('assigning a release to one device', () => {
     expect(body.caution).toBe(ASSIGN_CAUTION);
     expect(sent).toHaveLength(1);
     expect(sent[0]!.deviceId).toBe('gh-01');
-    expect(verifyRelease(sent[0]!.signed, h.publicKeyPem, deviceClass.id).ok).toBe(true);
+    expect(verifyRelease(JSON.parse(sent[0]!.raw), h.publicKeyPem, deviceClass.id).ok).toBe(true);
+    // The bytes sent are the stored bytes the API serves, not a re-serialized copy.
+    expect(sent[0]!.raw).toBe(await (await h.call('GET', `/api/v1/releases/${signed.release.id}`)).text());
     const device = (await (await h.call('GET', '/api/v1/devices/gh-01')).json()) as { assignedReleaseId: string; assignments: unknown[] };
     expect(device.assignedReleaseId).toBe(signed.release.id);
     expect(device.assignments).toHaveLength(1);

@@ -4,6 +4,7 @@ import { startBus, type Bus } from '../../src/bus/start-bus.js';
 import { MAX_PAYLOAD_BYTES, PROTOCOL_VERSION, deviceTopic, type StateMessage } from '../../src/protocol/index.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { MOSQUITTO_SKIP_NOTE, MOSQUITTO_URL, mosquittoUp, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 function state(online: boolean, releaseId: string | null): StateMessage {
   return {
@@ -101,7 +102,7 @@ for (const b of brokers) {
       expect(d.acks.at(-1)).toBe(2);
       await d.client.publishAsync(deviceTopic(id, 'events'), events([1, 2, 3]), { qos: 1 });
       await waitFor(() => d.acks.at(-1) === 4, 'ack after the gap filled');
-      expect(rig.store.db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id)).toEqual([1, 2, 3, 4]);
+      expect(sqliteHandle(rig.store).prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id)).toEqual([1, 2, 3, 4]);
       await d.client.endAsync();
     });
 
@@ -112,7 +113,7 @@ for (const b of brokers) {
       const client = await mqtt.connectAsync(rig.deviceUrl, { ...rig.server, reconnectPeriod: 0 });
       await client.publishAsync(deviceTopic(ghost, 'events'), events([1]), { qos: 1 });
       await waitFor(() => rig.bus.bridge.stats().rejected['unknown-device'] > before, 'unknown device counted');
-      expect(rig.store.db.prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get(ghost)).toBe(0);
+      expect(sqliteHandle(rig.store).prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get(ghost)).toBe(0);
       await client.endAsync();
     });
   });

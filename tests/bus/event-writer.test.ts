@@ -3,6 +3,7 @@ import type { IngestBatch } from '../../src/bus/event-batch.js';
 import { createInlineEventWriter, startWorkerEventWriter, type EventWriter } from '../../src/bus/event-writer.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { tempDir } from '../support/agent-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const dirs: Array<{ remove(): void }> = [];
 afterAll(() => dirs.forEach((d) => d.remove()));
@@ -21,7 +22,7 @@ function batch(deviceId: string, seqs: number[]): IngestBatch {
 }
 
 const writers: Array<{ name: string; open(store: Store): Promise<EventWriter> }> = [
-  { name: 'on a worker thread with its own connection', open: (store) => startWorkerEventWriter({ dbPath: store.db.name }) },
+  { name: 'on a worker thread with its own connection', open: (store) => startWorkerEventWriter({ location: store.location }) },
   { name: 'on the calling thread', open: async (store) => createInlineEventWriter(store) },
 ];
 
@@ -34,12 +35,12 @@ for (const w of writers) {
       store.devices.enrol({ id: 'gh-w-01', deviceClassId: 'gh-scout-a', tags: [], actor: 'test', at: AT });
       const writer = await w.open(store);
       try {
-        const count = () => store.db.prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get('gh-w-01');
+        const count = () => sqliteHandle(store).prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get('gh-w-01');
         expect(await writer.write(batch('gh-w-01', [1, 2, 4]))).toMatchObject({ acks: [['gh-w-01', 2]], eventsStored: 3, eventsDuplicate: 0 });
         expect(count()).toBe(3);
         expect(await writer.write(batch('gh-w-01', [2, 3]))).toMatchObject({ acks: [['gh-w-01', 4]], eventsStored: 1, eventsDuplicate: 1 });
         expect(count()).toBe(4);
-        expect(store.db.prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get('gh-w-01')).toBe(4);
+        expect(sqliteHandle(store).prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get('gh-w-01')).toBe(4);
       } finally {
         await writer.close();
         store.close();
@@ -62,7 +63,7 @@ for (const w of writers) {
           profileId: null, profileRevision: null, moving: false, pending: null, refused: null, lastSeq: 3,
         }]);
         await expect(writer.write(failing)).rejects.toThrow(/bind/);
-        expect(store.db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all('gh-w-02')).toEqual([1, 2]);
+        expect(sqliteHandle(store).prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all('gh-w-02')).toEqual([1, 2]);
         expect((await writer.write(batch('gh-w-02', [4]))).acks).toEqual([['gh-w-02', 2]]);
         expect((await writer.write(batch('gh-w-02', [3]))).acks).toEqual([['gh-w-02', 4]]);
       } finally {

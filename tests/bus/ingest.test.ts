@@ -6,6 +6,7 @@ import { startBus, type Bus } from '../../src/bus/start-bus.js';
 import { PROTOCOL_VERSION, deviceTopic } from '../../src/protocol/index.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 /** Demo data: a telemetry reading of a greenhouse scout, as an agent writes it (JSON.stringify of the logged event). */
 const telemetryText = (seq: number, frames = 10) =>
@@ -43,7 +44,7 @@ describe('bridge ingest of telemetry batches (embedded broker)', () => {
     const sent = [texts[0], ` ${texts[1]}`, `\n${texts[2]}`];
     await d.client.publishAsync(deviceTopic(id, 'events'), `{"v":${PROTOCOL_VERSION},"events":[${sent.join(',')}]}`, { qos: 1 });
     await waitFor(() => d.acks.at(-1) === 3, 'ack of the batch');
-    const stored = store.db.prepare('SELECT event FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id);
+    const stored = sqliteHandle(store).prepare('SELECT event FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id);
     expect(stored).toEqual(texts);
     await d.client.endAsync();
   });
@@ -55,7 +56,7 @@ describe('bridge ingest of telemetry batches (embedded broker)', () => {
     const batch = [1, 2, 3, 4].map((seq) => telemetryText(seq, seq === 3 ? -1 : 10));
     await d.client.publishAsync(deviceTopic(id, 'events'), `{"v":${PROTOCOL_VERSION},"events":[${batch.join(',')}]}`, { qos: 1 });
     await waitFor(() => bus.bridge.stats().rejected['wrong-schema'] === before + 1, 'the batch counted as wrong-schema');
-    expect(store.db.prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get(id)).toBe(0);
+    expect(sqliteHandle(store).prepare('SELECT COUNT(*) FROM device_events WHERE device_id = ?').pluck().get(id)).toBe(0);
     expect(d.acks).toEqual([]);
     await d.client.endAsync();
   });

@@ -5,12 +5,11 @@
  */
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { recordAssignments, type ParsedReleases } from '../../src/fleet/rollout/assign.js';
-import { createEventRangeReader } from '../../src/fleet/history/event-range.js';
 import { createAssignmentDispatcher } from '../../src/fleet/rollout/dispatch.js';
-import type { SignedRelease } from '../../src/protocol/release.js';
-import { createRolloutRepository } from '../../src/store/rollouts.js';
+import type { SignedReleaseText } from '../../src/protocol/release.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { demoDeviceClass, demoRelease, demoTask, demoWeights, sign, tempDir } from '../support/agent-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const tasks = { rows: demoTask('rows-net', demoWeights('batch rows-net'), 0.5, 4) };
 let dir: { path: string; remove(): void };
@@ -31,7 +30,7 @@ afterEach(() => {
 const input = (deviceId: string, withinTransaction?: () => void) => ({
   deviceId, releaseId: 'gh-batch-1', actor: 'test operator', cause: 'rollout:test', at, ...(withinTransaction ? { withinTransaction } : {}),
 });
-const assignedIds = () => store.db.prepare('SELECT device_id FROM assignments ORDER BY device_id').pluck().all();
+const assignedIds = () => sqliteHandle(store).prepare('SELECT device_id FROM assignments ORDER BY device_id').pluck().all();
 
 describe('batched assignment records', () => {
   it('leaves out alone an item whose bookkeeping throws; the others land, with their audit entries', () => {
@@ -59,11 +58,11 @@ describe('batched assignment records', () => {
   });
 
   it('stops sending a wave when the rollout is paused between batches; what was recorded was sent', async () => {
-    const repo = createRolloutRepository(store.db);
+    const repo = store.rollouts;
     const sent: string[] = [];
     /** Stands in for the bus: records what would be published, and the operator pauses after the first send. */
     const publisher = {
-      async publishRelease(deviceId: string, _signed: SignedRelease) {
+      async publishRelease(deviceId: string, _release: SignedReleaseText) {
         sent.push(deviceId);
         repo.setStatus('ro-batch', 'paused', at, { kind: 'operator', by: 'test operator', at });
       },
@@ -72,7 +71,7 @@ describe('batched assignment records', () => {
       id: 'ro-batch', releaseId: 'gh-batch-1', deviceClassId: demoDeviceClass.id, spec: {}, waveCount: 1, createdAt: at, createdBy: 'test operator',
       devices: ['gh-b-01', 'gh-b-02', 'gh-b-03'].map((deviceId) => ({ deviceId, wave: 0 })),
     });
-    const dispatcher = createAssignmentDispatcher({ store, publisher, repo, ranges: createEventRangeReader(store.db), batchSize: 1, maxSendsInFlight: 10, log: () => {} });
+    const dispatcher = createAssignmentDispatcher({ store, publisher, repo, ranges: store.eventRanges, batchSize: 1, maxSendsInFlight: 10, log: () => {} });
     await dispatcher.dispatch(r, repo.devices(r.id), false, at);
     await dispatcher.settled();
     expect(sent).toEqual(['gh-b-01']);

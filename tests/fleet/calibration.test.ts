@@ -6,6 +6,7 @@ import { createDriftMonitor } from '../../src/fleet/calibration/drift.js';
 import { latencyVerdict } from '../../src/fleet/rollout/gate.js';
 import { waitFor } from '../support/agent-fixtures.js';
 import { startFleetRig, type FleetRig } from '../support/fleet-rig.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 /** Demo data: three ordinary units and one whose hidden efficiency is 1.23 (23 % slower and hungrier than predicted). */
 const units = [
@@ -18,7 +19,7 @@ const WINDOWS = 40;
 
 let rig: FleetRig;
 const telemetryCount = (id: string) =>
-  (rig.store.db.prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'telemetry'").get(id) as { n: number }).n;
+  (sqliteHandle(rig.store).prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'telemetry'").get(id) as { n: number }).n;
 
 beforeAll(async () => {
   // The engine's own drift check runs rarely here, so the test decides when drift is checked.

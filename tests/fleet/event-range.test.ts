@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createEventRangeReader } from '../../src/fleet/history/event-range.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { tempDir } from '../support/agent-fixtures.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 // Events of one device with gaps in its numbering (lost or not yet resent) and uneven spacing in time:
 // the seq range of a time window must equal a full scan's answer (a brute-force check, common practice).
@@ -12,7 +12,7 @@ const stored: Array<{ seq: number; ms: number }> = [];
 
 beforeAll(() => {
   store = openStore(dir.path);
-  const insert = store.db.prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+  const insert = sqliteHandle(store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
   let ms = START_MS;
   let a = 12345;
   const random = () => ((a = (a * 1103515245 + 12345) % 2147483648) / 2147483648);
@@ -40,7 +40,7 @@ function scan(fromMs: number, toMs: number): { loSeq: number; hiSeq: number } {
 
 describe('seq range of a time window by interpolation and bisection over the primary key', () => {
   it('agrees with a full scan on 2,000 random windows, including ones before, after and between all events', () => {
-    const reader = createEventRangeReader(store.db);
+    const reader = store.eventRanges;
     const endMs = stored.at(-1)!.ms;
     let b = 777;
     const random = () => ((b = (b * 1103515245 + 12345) % 2147483648) / 2147483648);

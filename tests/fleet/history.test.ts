@@ -4,6 +4,7 @@ import { createHistoryReader, type HistoryInterval } from '../../src/fleet/histo
 import { openStore } from '../../src/store/index.js';
 import { waitFor } from '../support/agent-fixtures.js';
 import { startFleetRig, type FleetAgent, type FleetRig } from '../support/fleet-rig.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 let rig: FleetRig;
 let unit: FleetAgent;
@@ -11,7 +12,7 @@ const DEVICE = 'hist-1';
 
 type SwitchRow = { seq: number; ts: string; event: string };
 const switches = () =>
-  (rig.store.db.prepare("SELECT seq, ts, event FROM device_events WHERE device_id = ? AND type = 'task-switched' ORDER BY seq").all(DEVICE) as SwitchRow[]).map((r) => ({
+  (sqliteHandle(rig.store).prepare("SELECT seq, ts, event FROM device_events WHERE device_id = ? AND type = 'task-switched' ORDER BY seq").all(DEVICE) as SwitchRow[]).map((r) => ({
     seq: r.seq,
     ts: r.ts,
     ...(JSON.parse(r.event) as { toTask: string; profileId: string; profileRevision: number; releaseId: string; reason: string }),
@@ -121,10 +122,10 @@ describe('history of which profile ran when (from task-switched events)', () => 
 
   it('usage per day and task sums the telemetry windows: seconds, frames and energy in joules', async () => {
     await waitFor(
-      () => (rig.store.db.prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'telemetry'").get(DEVICE) as { n: number }).n >= 3,
+      () => (sqliteHandle(rig.store).prepare("SELECT COUNT(*) AS n FROM device_events WHERE device_id = ? AND type = 'telemetry'").get(DEVICE) as { n: number }).n >= 3,
       'telemetry stored',
     );
-    const rows = rig.store.db.prepare("SELECT ts, event FROM device_events WHERE device_id = ? AND type = 'telemetry' ORDER BY seq").all(DEVICE) as Array<{ ts: string; event: string }>;
+    const rows = sqliteHandle(rig.store).prepare("SELECT ts, event FROM device_events WHERE device_id = ? AND type = 'telemetry' ORDER BY seq").all(DEVICE) as Array<{ ts: string; event: string }>;
     const t = rows.map((r) => JSON.parse(r.event) as { frames: number; windowS: number; frameEnergyMjMean: number });
     // The window ends just after the last window read here, so later telemetry does not count.
     const from = new Date(Date.parse(rows[0]!.ts) - 1).toISOString();

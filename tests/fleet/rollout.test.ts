@@ -4,6 +4,7 @@ import { planWaves } from '../../src/fleet/rollout/spec.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import { waitFor } from '../support/agent-fixtures.js';
 import { startFleetRig, type FleetAgent, type FleetRig } from '../support/fleet-rig.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const DEVICES = 50;
 const ids = Array.from({ length: DEVICES }, (_, i) => `gh-row-${String(i).padStart(2, '0')}`);
@@ -16,7 +17,7 @@ const agents = new Map<string, FleetAgent>();
 
 const reportedRelease = (id: string) => rig.bridge.deviceStates.get(id)?.releaseId ?? null;
 const rolloutOf = async (id: string) => (await rig.call('GET', `/api/v1/rollouts/${id}`)).body;
-const assignmentsByCause = (cause: string) => rig.store.db.prepare('SELECT device_id AS d, COUNT(*) AS n FROM assignments WHERE cause = ? GROUP BY device_id').all(cause) as Array<{ d: string; n: number }>;
+const assignmentsByCause = (cause: string) => sqliteHandle(rig.store).prepare('SELECT device_id AS d, COUNT(*) AS n FROM assignments WHERE cause = ? GROUP BY device_id').all(cause) as Array<{ d: string; n: number }>;
 
 beforeAll(async () => {
   rig = await startFleetRig({ tickMs: 50, calibrationEveryMs: 500 });

@@ -84,7 +84,7 @@ describe('restarting the server on the same data folder', () => {
     const store = running.store;
     await running.close();
     running = null;
-    expect(store.db.open).toBe(false);
+    expect(store.isOpen()).toBe(false);
     expect(readdirSync(`${dir}/blobs/tmp`)).toEqual([]);
   });
 });

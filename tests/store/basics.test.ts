@@ -6,6 +6,7 @@ import { Readable } from 'node:stream';
 import { afterEach, describe, expect, it } from 'vitest';
 import { applyMigrations, createBlobStore, loadOrCreateSigningKey, migrations, openStore, type Store } from '../../src/store/index.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
+import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
 const dirs: string[] = [];
 const stores: Store[] = [];
@@ -30,13 +31,13 @@ describe('opening the store', () => {
   it('uses WAL with foreign keys on and records each migration once across reopenings', () => {
     const dir = tempDir();
     const s1 = open(dir);
-    expect(s1.db.pragma('journal_mode', { simple: true })).toBe('wal');
-    expect(s1.db.pragma('foreign_keys', { simple: true })).toBe(1);
+    expect(sqliteHandle(s1).pragma('journal_mode', { simple: true })).toBe('wal');
+    expect(sqliteHandle(s1).pragma('foreign_keys', { simple: true })).toBe(1);
     s1.close();
     const s2 = open(dir);
-    const rows = s2.db.prepare('SELECT version FROM schema_migrations').all();
+    const rows = sqliteHandle(s2).prepare('SELECT version FROM schema_migrations').all();
     expect(rows).toEqual(migrations.map((m) => ({ version: m.version })));
-    expect(applyMigrations(s2.db)).toEqual([]);
+    expect(applyMigrations(sqliteHandle(s2))).toEqual([]);
   });
 
   it('refuses a migration list whose versions do not increase', () => {
@@ -93,17 +94,17 @@ describe('secrets at rest', () => {
     expect(s.verifyDeviceCredentials('gh-01', a.password)).toBe(true);
     expect(s.verifyDeviceCredentials('gh-01', `${a.password}x`)).toBe(false);
     expect(s.verifyDeviceCredentials('gh-99', a.password)).toBe(false);
-    const hashes = s.db.prepare('SELECT password_hash FROM devices').all() as Array<{ password_hash: string }>;
+    const hashes = sqliteHandle(s).prepare('SELECT password_hash FROM devices').all() as Array<{ password_hash: string }>;
     expect(hashes.every((h) => h.password_hash.startsWith('scrypt$'))).toBe(true);
     expect(hashes[0]!.password_hash).not.toContain(a.password);
-    s.db.pragma('wal_checkpoint(TRUNCATE)');
+    sqliteHandle(s).pragma('wal_checkpoint(TRUNCATE)');
     expect(readFileSync(join(dir, 'ocellus.db')).includes(Buffer.from(a.password))).toBe(false);
   });
 
   it('stores bearer tokens as sha256 and stops accepting a revoked one', () => {
     const s = open(tempDir());
     const { token, secret } = s.tokens.create({ role: 'engineer', label: 'ci', actor: 'admin', at });
-    const stored = s.db.prepare('SELECT hash FROM tokens').get() as { hash: string };
+    const stored = sqliteHandle(s).prepare('SELECT hash FROM tokens').get() as { hash: string };
     expect(stored.hash).toBe(createHash('sha256').update(secret).digest('hex'));
     expect(s.tokens.authenticate(secret)?.role).toBe('engineer');
     expect(s.tokens.revoke(token.id, at)?.revokedAt).toBe(at);

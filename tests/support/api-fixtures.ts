@@ -4,7 +4,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createApp, createSigner } from '../../src/api/index.js';
-import type { ReleasePublisher } from '../../src/fleet/rollout/assign.js';
+import type { ReleasePublisher } from '../../src/protocol/release.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../../src/metrics/registry.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import { createBlobStore, loadOrCreateSigningKey, openStore, type Role, type Store } from '../../src/store/index.js';

@@ -4,7 +4,6 @@
  * page go to test-artifacts/console/.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createDriftRepository } from '../../src/store/drift.js';
 import { CHROMIUM_PATH, hasChromium, startConsoleRig, until, type ConsoleRig } from '../support/web-rig.js';
 
 if (!hasChromium) console.warn(`web console tests skipped: no Chromium at ${CHROMIUM_PATH} (apt-get install -y chromium)`);
@@ -203,7 +202,7 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await robot.agent.setTask('leaf-inspection');
     // One cleared and one open drift episode, as the drift monitor would store them (demo data; with one robot
     // per class in this rig the monitor itself never compares, so it leaves them as they are).
-    const drift = createDriftRepository(rig.server.store.db);
+    const drift = rig.server.store.drift;
     const episode = { deviceId: robot.deviceId, deviceClassId: robot.demoClass.deviceClassId, tolerance: 0.15 };
     const cleared = drift.onset({ ...episode, quantity: 'energy', onsetAt: '2026-03-01T08:00:00.000Z', deviceFactor: 0.8, classFactor: 1, deviation: -0.2 });
     drift.clear(cleared.id, '2026-03-01T08:40:00.000Z');

@@ -4,7 +4,6 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createApp, createChangeFeed, createSigner, type ChangeFeed } from '../../src/api/index.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
-import { createDeviceEventRepository } from '../../src/store/device-events.js';
 import { createBlobStore, loadOrCreateSigningKey } from '../../src/store/index.js';
 import { createHarness, deviceClass, removeDir, seedCatalog, tempDataDir, type Harness } from '../support/api-fixtures.js';
 
@@ -128,7 +127,7 @@ describe('event stream of fleet changes', () => {
 
 describe("a device's events in a window", () => {
   beforeAll(() => {
-    const events = createDeviceEventRepository(h.store.db);
+    const events = h.store.deviceEvents;
     const rows = [
       { seq: 1, ts: '2026-03-02T08:00:00.000Z', type: 'agent-started', body: { agentVersion: '0.1.0' } },
       { seq: 2, ts: '2026-03-02T08:00:01.000Z', type: 'release-applied', body: { releaseId: 'gh-test-scout-v1', version: 1 } },

@@ -3,7 +3,6 @@ import { CALIBRATION_MINIMUM, RECENT_WINDOWS_PER_DEVICE } from '../../fleet/cali
 import { createCalibrator } from '../../fleet/calibration/calibrator.js';
 import { DEFAULT_DRIFT_TOLERANCE } from '../../fleet/calibration/drift.js';
 import { driftQuerySchema, reportQuerySchema } from '../../fleet/queries.js';
-import { createDriftRepository } from '../../store/drift.js';
 import { readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError, notFound } from '../errors.js';
@@ -20,7 +19,7 @@ const METHOD = {
 /** Measured ÷ predicted inference latency and energy per device class and device, drift episodes, calibrated reports. */
 export function registerCalibrationRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
-  const drift = createDriftRepository(store.db);
+  const drift = store.drift;
 
   route('calibration.list', (c) => {
     const calibrator = createCalibrator(store);

@@ -1,6 +1,4 @@
-import { createEventRangeReader, type EventRangeReader } from '../../fleet/history/event-range.js';
 import { resolveWindow } from '../../fleet/queries.js';
-import { createDeviceEventRepository, type DeviceEventRepository } from '../../store/device-events.js';
 import { readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { deviceEventsQuerySchema } from './device-events-query.js';
@@ -15,7 +13,6 @@ const DEFAULT_LIMIT = 2000;
  */
 export function registerDeviceEventsRoute(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
-  let repos: { events: DeviceEventRepository; range: EventRangeReader } | null = null;
 
   route('devices.events', (c) => {
     const id = c.req.param('id') ?? '';
@@ -24,9 +21,7 @@ export function registerDeviceEventsRoute(route: Router, deps: ResolvedDeps): vo
     const w = resolveWindow(q, deps.clock.now().getTime());
     if (!w.ok) throw badRequest('invalid event window', [{ path: w.path, message: w.message }]);
     const window = { from: new Date(w.fromMs).toISOString(), to: new Date(w.toMs).toISOString() };
-    // The bus's migration makes the table; a server without a bus yet has no events to show.
-    if (!store.hasTable('device_events')) return c.json({ deviceId: id, ...window, events: [], truncated: false });
-    repos ??= { events: createDeviceEventRepository(store.db), range: createEventRangeReader(store.db) };
+    const repos = { events: store.deviceEvents, range: store.eventRanges };
     const limit = q.limit ?? DEFAULT_LIMIT;
     const { loSeq, hiSeq } = repos.range.seqRange(id, w.fromMs, w.toMs);
     const rows = repos.events

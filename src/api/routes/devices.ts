@@ -1,7 +1,5 @@
 import { assignRelease } from '../../fleet/rollout/assign.js';
 import type { DeviceRecord } from '../../store/devices.js';
-import { createDeviceStateRepository, type DeviceStateRepository } from '../../store/device-state.js';
-import { createDriftRepository } from '../../store/drift.js';
 import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
 import { readJson, readQuery } from '../body.js';
@@ -18,18 +16,12 @@ export const ASSIGN_CAUTION =
 /** Devices: enrolment (credentials shown once), listing, and manual release assignment. */
 export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
-  const drift = createDriftRepository(store.db);
-  let states: DeviceStateRepository | null = null;
-  /** The bus bridge's device_state table, once its migration has run; null before that. */
-  function stateRepo(): DeviceStateRepository | null {
-    if (!states && store.hasTable('device_state')) states = createDeviceStateRepository(store.db);
-    return states;
-  }
+  const drift = store.drift;
 
   function view(d: DeviceRecord) {
-    const state = stateRepo()?.get(d.id) ?? null;
+    const state = store.deviceStates.get(d.id);
     // reportedState: the device's latest state message (active task, applied and pending release), for fleet lists.
-    return { ...d, online: stateRepo() ? (state?.online ?? false) : null, lastSeenAt: state?.lastSeenAt ?? null, reportedState: state?.state ?? null };
+    return { ...d, online: state?.online ?? false, lastSeenAt: state?.lastSeenAt ?? null, reportedState: state?.state ?? null };
   }
 
   route('devices.enrol', async (c) => {
@@ -65,7 +57,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
     return c.json({
       ...view(device),
       assignedRelease: assigned ? { id: assigned.id, version: assigned.version, deviceClassId: assigned.deviceClassId } : null,
-      reported: stateRepo()?.get(id) ?? null,
+      reported: store.deviceStates.get(id),
       assignments: store.devices.assignments(id),
       // Newest first: episodes where this device's measured ÷ predicted ratio left its class's.
       drift: drift.list({ deviceId: id, limit: 20 }),
@@ -89,7 +81,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
     }
     return c.json({
       assignment: result.assignment,
-      release: { id: result.release.release.id, version: result.release.release.version, applyPolicy: result.release.release.applyPolicy },
+      release: { id: result.release.parsed.release.id, version: result.release.parsed.release.version, applyPolicy: result.release.parsed.release.applyPolicy },
       publish: result.publish,
       caution: ASSIGN_CAUTION,
     });

@@ -43,7 +43,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
     return c.json(
       list.map((r) => {
-        const release = (r.signed as { release: Release }).release;
+        const release = r.parsed.release;
         return {
           id: r.id,
           deviceClassId: r.deviceClassId,
@@ -62,7 +62,8 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
   route('releases.read', (c) => {
     const r = store.releases.get(c.req.param('id') ?? '');
     if (!r) throw notFound(`release '${c.req.param('id')}'`);
-    return c.json(r.signed);
+    // The stored text, byte for byte: what the signature was made over and what devices receive.
+    return c.body(r.raw, 200, { 'content-type': 'application/json; charset=UTF-8' });
   });
 
   for (const key of ['releases.replace', 'releases.patch', 'releases.delete']) {

@@ -2,7 +2,6 @@ import { releaseSchema, type Release } from '../../protocol/release.js';
 import type { Store } from '../../store/store.js';
 import type { Calibration } from '../../validate/input.js';
 import { CALIBRATION_MINIMUM, RECENT_WINDOWS_PER_DEVICE, fitThroughOrigin, isEnough, type RatioFit, type RatioSample, type SampleCounts } from './fit.js';
-import { createEventRangeReader } from '../history/event-range.js';
 
 /** A fitted calibration: measured ÷ predicted inference latency and energy, with what it rests on. */
 export interface CalibrationFit extends SampleCounts {
@@ -68,14 +67,19 @@ function fitOf(samples: DeviceSamples[], minimum: SampleCounts): CalibrationFit 
  * release shipped for that task, weighted by the window's frames, over each device's latest
  * RECENT_WINDOWS_PER_DEVICE windows. Releases are read once per call and cached.
  */
-export function createCalibrator(store: Pick<Store, 'db' | 'devices' | 'releases'>): Calibrator {
-  const reader = createEventRangeReader(store.db);
+export function createCalibrator(store: Pick<Store, 'eventRanges' | 'devices' | 'releases'>): Calibrator {
+  const reader = store.eventRanges;
   const releases = new Map<string, Release | null>();
 
   function releaseOf(id: string): Release | null {
     if (!releases.has(id)) {
-      const parsed = releaseSchema.safeParse((store.releases.get(id)?.signed as { release?: unknown } | undefined)?.release);
-      releases.set(id, parsed.success ? parsed.data : null);
+      let release: Release | null = null;
+      try {
+        release = store.releases.get(id)?.parsed.release ?? null;
+      } catch {
+        // An unreadable stored release predicts nothing: its telemetry is left out of the fit.
+      }
+      releases.set(id, release);
     }
     return releases.get(id)!;
   }

@@ -1,4 +1,4 @@
-import { createDriftRepository, type DriftQuantity, type DriftRecord } from '../../store/drift.js';
+import type { DriftQuantity, DriftRecord } from '../../store/drift.js';
 import type { Store } from '../../store/store.js';
 import { CALIBRATION_MINIMUM, isEnough, type RatioSample } from './fit.js';
 import { createCalibrator, type DeviceSamples } from './calibrator.js';
@@ -44,10 +44,10 @@ const QUANTITIES: ReadonlyArray<{ quantity: DriftQuantity; pick: (s: DeviceSampl
  * raises one record per onset, not one per check. Needs enough data on both sides (CALIBRATION_MINIMUM; the
  * rest of the class needs the class's windows and frames from at least two devices).
  */
-export function createDriftMonitor(deps: { store: Pick<Store, 'db' | 'devices' | 'releases' | 'transaction'>; clock: { now(): Date }; tolerance?: number }): DriftMonitor {
+export function createDriftMonitor(deps: { store: Pick<Store, 'eventRanges' | 'drift' | 'devices' | 'releases' | 'transaction'>; clock: { now(): Date }; tolerance?: number }): DriftMonitor {
   const { store, clock } = deps;
   const tolerance = deps.tolerance ?? DEFAULT_DRIFT_TOLERANCE;
-  const repo = createDriftRepository(store.db);
+  const repo = store.drift;
   const restMinimum = { ...CALIBRATION_MINIMUM.deviceClass, devices: 2 };
 
   return {

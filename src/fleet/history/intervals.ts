@@ -1,6 +1,6 @@
 import type { AssignmentRecord } from '../../store/devices.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader, type EventRangeReader, type RangeEvent } from './event-range.js';
+import type { EventRangeReader, RangeEvent } from '../../store/event-ranges.js';
 
 /** The server-side change that put an interval's release on the device. */
 export interface IntervalCause {
@@ -112,8 +112,8 @@ export function deviceHistory(reader: EventRangeReader, assignments: readonly As
   return starts.map((s, i) => intervalOf(deviceId, s.e, s.start, i + 1 < starts.length ? starts[i + 1]!.start : openEnd, assignments));
 }
 
-export function createHistoryReader(store: Pick<Store, 'db' | 'devices'>): HistoryReader {
-  const reader = createEventRangeReader(store.db);
+export function createHistoryReader(store: Pick<Store, 'eventRanges' | 'devices'>): HistoryReader {
+  const reader = store.eventRanges;
   const one = (deviceId: string, w: HistoryWindow) => deviceHistory(reader, store.devices.assignments(deviceId), deviceId, w);
   const everyDevice = (w: HistoryWindow, keep: (i: HistoryInterval) => boolean) =>
     store.devices.list().flatMap((d) => one(d.id, w).filter(keep));

@@ -1,5 +1,5 @@
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader, type EventRangeReader } from './event-range.js';
+import type { EventRangeReader } from '../../store/event-ranges.js';
 
 /** Time, frames and energy one device spent on one task in one UTC day, summed from its telemetry. */
 export interface UsageRow {
@@ -48,7 +48,7 @@ export interface UsageReader {
   device(deviceId: string, fromMs: number, toMs: number): UsageRow[];
 }
 
-export function createUsageReader(store: Pick<Store, 'db'>): UsageReader {
-  const reader = createEventRangeReader(store.db);
+export function createUsageReader(store: Pick<Store, 'eventRanges'>): UsageReader {
+  const reader = store.eventRanges;
   return { device: (deviceId, fromMs, toMs) => usageOf(reader, deviceId, fromMs, toMs) };
 }

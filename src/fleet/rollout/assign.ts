@@ -1,13 +1,8 @@
-import type { Statement } from 'better-sqlite3';
-import { signedReleaseSchema, type SignedRelease } from '../../protocol/release.js';
+import type { ReleasePublisher } from '../../protocol/release.js';
 import type { AssignmentRecord, DeviceRecord } from '../../store/devices.js';
 import type { ReleaseRecord } from '../../store/releases.js';
 import type { Store } from '../../store/store.js';
 
-/** Sends a signed release to one device (the bus implements it with a retained message on the device's release topic). */
-export interface ReleasePublisher {
-  publishRelease(deviceId: string, signed: SignedRelease): Promise<void>;
-}
 
 export interface AssignInput {
   deviceId: string;
@@ -29,20 +24,19 @@ export interface AssignInput {
 export type PublishOutcome = { status: 'sent' } | { status: 'not-sent'; reason: string };
 
 export type AssignResult =
-  | { ok: true; assignment: AssignmentRecord; release: SignedRelease; publish: PublishOutcome }
+  | { ok: true; assignment: AssignmentRecord; release: ReleaseRecord; publish: PublishOutcome }
   | { ok: false; code: 'device-not-found' | 'release-not-found' | 'class-mismatch'; message: string };
 
 type Prepared =
-  | { ok: true; input: AssignInput; at: string; device: DeviceRecord; record: ReleaseRecord; signed: SignedRelease }
+  | { ok: true; input: AssignInput; at: string; device: DeviceRecord; record: ReleaseRecord }
   | Extract<AssignResult, { ok: false }>;
 
-/** Looks up the device and the release and checks they fit; each release is parsed once (`parsed`). */
+/** Looks up the device and the release and checks they fit; each release is read once per batch (`parsed`). */
 function prepare(store: Store, input: AssignInput, parsed: ParsedReleases): Prepared {
   const at = input.at ?? new Date().toISOString();
   const device = store.devices.get(input.deviceId);
   if (!device) return { ok: false, code: 'device-not-found', message: `no device '${input.deviceId}' is enrolled` };
-  const known = parsed.get(input.releaseId);
-  const record = known?.record ?? store.releases.get(input.releaseId);
+  const record = parsed.get(input.releaseId) ?? store.releases.get(input.releaseId);
   if (!record) return { ok: false, code: 'release-not-found', message: `no release '${input.releaseId}' is stored` };
   if (record.deviceClassId !== device.deviceClassId) {
     return {
@@ -51,10 +45,9 @@ function prepare(store: Store, input: AssignInput, parsed: ParsedReleases): Prep
       message: `release '${record.id}' is for device class '${record.deviceClassId}'; device '${device.id}' is a '${device.deviceClassId}'`,
     };
   }
-  // Releases never change once stored, so one batch reads and checks each release once.
-  const signed = known?.signed ?? signedReleaseSchema.parse(record.signed);
-  if (!known) parsed.set(record.id, { record, signed });
-  return { ok: true, input, at, device, record, signed };
+  // Releases never change once stored, so one batch reads each release once.
+  parsed.set(record.id, record);
+  return { ok: true, input, at, device, record };
 }
 
 /** The device row, the assignment history row, the audit entry and the caller's own bookkeeping. Call inside a transaction. */
@@ -72,10 +65,11 @@ function record(store: Store, p: Extract<Prepared, { ok: true }>): AssignmentRec
   return a;
 }
 
-async function send(publisher: ReleasePublisher | undefined, deviceId: string, signed: SignedRelease): Promise<PublishOutcome> {
+async function send(publisher: ReleasePublisher | undefined, deviceId: string, release: ReleaseRecord): Promise<PublishOutcome> {
   if (!publisher) return { status: 'not-sent', reason: 'no bus connected to this server' };
   try {
-    await publisher.publishRelease(deviceId, signed);
+    // The stored text, byte for byte, as it was signed.
+    await publisher.publishRelease(deviceId, release);
     return { status: 'sent' };
   } catch (e) {
     return { status: 'not-sent', reason: e instanceof Error ? e.message : String(e) };
@@ -92,7 +86,7 @@ export async function assignRelease(store: Store, publisher: ReleasePublisher | 
   const p = prepare(store, input, new Map());
   if (!p.ok) return p;
   const assignment = store.transaction(() => record(store, p));
-  return { ok: true, assignment, release: p.signed, publish: await send(publisher, p.device.id, p.signed) };
+  return { ok: true, assignment, release: p.record, publish: await send(publisher, p.device.id, p.record) };
 }
 
 /** One item of a batch whose `withinTransaction` threw: nothing of it was recorded or sent. */
@@ -100,50 +94,28 @@ export type NotRecorded = { ok: false; code: 'not-recorded'; message: string; er
 
 /** A recorded assignment waiting to be sent, or why an item was not recorded. */
 export type RecordedAssignment =
-  | { ok: true; assignment: AssignmentRecord; release: SignedRelease; deviceId: string }
+  | { ok: true; assignment: AssignmentRecord; release: ReleaseRecord; deviceId: string }
   | Extract<AssignResult, { ok: false }>
   | NotRecorded;
 
-/** Parsed releases by id, kept by a caller across batches (a rollout's release is parsed once, not per batch). */
-export type ParsedReleases = Map<string, { record: ReleaseRecord; signed: SignedRelease }>;
+/** Stored releases by id, kept by a caller across batches (a rollout's release is read once, not per batch). */
+export type ParsedReleases = Map<string, ReleaseRecord>;
 
 /**
  * The recording half of a batch: every record in ONE transaction, each item in its own savepoint so an item
  * whose `withinTransaction` throws is left out alone. Nothing is sent. Results come in the order of the inputs;
- * recorded items of one release share one parsed signed release object (`parsed`, which the caller may keep).
+ * recorded items of one release share one stored release object (`parsed`, which the caller may keep).
  */
 export function recordAssignments(store: Store, inputs: readonly AssignInput[], parsed: ParsedReleases = new Map()): RecordedAssignment[] {
   const prepared = inputs.map((input) => prepare(store, input, parsed));
-  const item = savepointsOf(store.db);
   return store.transaction(() =>
     prepared.map((p): RecordedAssignment => {
       if (!p.ok) return p;
-      item.begin.run();
-      try {
-        const assignment = record(store, p);
-        item.release.run();
-        return { ok: true, assignment, release: p.signed, deviceId: p.device.id };
-      } catch (error) {
-        // An error that made SQLite abandon the whole transaction leaves no savepoint to return to: the batch fails.
-        if (!store.db.inTransaction) throw error;
-        item.rollback.run();
-        item.release.run();
-        return { ok: false, code: 'not-recorded', message: error instanceof Error ? error.message : String(error), error };
-      }
+      const a = store.attempt(() => record(store, p));
+      if (a.ok) return { ok: true, assignment: a.value, release: p.record, deviceId: p.device.id };
+      return { ok: false, code: 'not-recorded', message: a.error instanceof Error ? a.error.message : String(a.error), error: a.error };
     }),
   );
-}
-
-/** A batch item's savepoint statements, prepared once per database (cheaper than a nested transaction per item). */
-const itemSavepoints = new WeakMap<Store['db'], { begin: Statement; release: Statement; rollback: Statement }>();
-
-function savepointsOf(db: Store['db']) {
-  let s = itemSavepoints.get(db);
-  if (!s) {
-    s = { begin: db.prepare('SAVEPOINT assign_item'), release: db.prepare('RELEASE assign_item'), rollback: db.prepare('ROLLBACK TO assign_item') };
-    itemSavepoints.set(db, s);
-  }
-  return s;
 }
 
 /** The sending half: every recorded item's release is sent at once (not one after another); outcomes in input order. */

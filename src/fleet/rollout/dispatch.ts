@@ -1,7 +1,8 @@
 import type { RolloutDeviceRecord, RolloutRecord, RolloutRepository } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
-import { recordAssignments, sendAssignments, type AssignInput, type ParsedReleases, type RecordedAssignment, type ReleasePublisher } from './assign.js';
-import type { EventRangeReader } from '../history/event-range.js';
+import { recordAssignments, sendAssignments, type AssignInput, type ParsedReleases, type RecordedAssignment } from './assign.js';
+import type { ReleasePublisher } from '../../protocol/release.js';
+import type { EventRangeReader } from '../../store/event-ranges.js';
 
 export interface DispatchDeps {
   store: Store;

@@ -1,10 +1,9 @@
 import { releaseSchema, type Release } from '../../protocol/release.js';
-import { createRolloutRepository, type RolloutDeviceRecord, type RolloutRecord } from '../../store/rollouts.js';
+import type { RolloutDeviceRecord, RolloutRecord } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
-import type { ReleasePublisher } from './assign.js';
+import type { ReleasePublisher } from '../../protocol/release.js';
 import { createCalibrator } from '../calibration/calibrator.js';
 import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from '../calibration/drift.js';
-import { createEventRangeReader } from '../history/event-range.js';
 import { createAssignmentDispatcher } from './dispatch.js';
 import { createFactsReader } from './facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './gate.js';
@@ -68,9 +67,9 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const log = deps.log ?? (() => {});
   const tickMs = deps.tickMs ?? 200;
   const calibrationEveryMs = deps.calibrationEveryMs ?? 10_000;
-  const repo = createRolloutRepository(store.db);
-  const facts = createFactsReader(store.db);
-  const ranges = createEventRangeReader(store.db);
+  const repo = store.rollouts;
+  const facts = createFactsReader(store.rolloutFacts);
+  const ranges = store.eventRanges;
   const drift = createDriftMonitor({ store, clock, tolerance: deps.driftTolerance ?? DEFAULT_DRIFT_TOLERANCE });
   const dispatcher = createAssignmentDispatcher({
     store,
@@ -96,7 +95,9 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   function releaseOf(id: string): Release {
     let r = releases.get(id);
     if (!r) {
-      r = releaseSchema.parse((store.releases.get(id)?.signed as { release?: unknown } | undefined)?.release);
+      const stored = store.releases.get(id);
+      if (!stored) throw new Error(`release '${id}' of a rollout is not stored`);
+      r = stored.parsed.release;
       releases.set(id, r);
     }
     return r;

@@ -1,9 +1,8 @@
 import { randomBytes } from 'node:crypto';
 import type { InputIssue } from '../../schema/issues.js';
 import type { DeviceRecord } from '../../store/devices.js';
-import { createRolloutRepository, HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../../store/rollouts.js';
+import { HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
-import { createEventRangeReader } from '../history/event-range.js';
 import { planWaves, waveIndexes, type RolloutRequest } from './spec.js';
 
 /** Shown with every rollout: it changes what robots see. */
@@ -86,8 +85,8 @@ function resolveTargets(store: Store, request: RolloutRequest, deviceClassId: st
 }
 
 export function createRolloutService(store: Store, options: { newId?: () => string } = {}): RolloutService {
-  const repo = createRolloutRepository(store.db);
-  const ranges = createEventRangeReader(store.db);
+  const repo = store.rollouts;
+  const ranges = store.eventRanges;
   const newId = options.newId ?? (() => `ro-${randomBytes(5).toString('hex')}`);
 
   /** Which of the devices another rollout holds. Usually no rollout holds any: then no device needs a look of its own. */
