@@ -72,7 +72,7 @@ export interface SpectralFactors {
   /** photonsPerJ ÷ efficacy: photons per lumen-second; null when the light has no lux. */
   photonsPerLmS: number | null;
   electronsPerLmS: number | null;
-  /** Lowest and highest wavelength that yields electrons (photons, if none), nm; null when nothing does. */
+  /** Lowest and highest wavelength where the light counts at least 0.1 % of its peak (electrons, or photons if none), nm. */
   bandNm: [number, number] | null;
 }
 
@@ -90,10 +90,8 @@ export function spectralFactors(illuminant: Illuminant, path: SpectralPath): Spe
   let visible = 0;
   let photons = 0;
   let electrons = 0;
-  let lo = NaN;
-  let hi = NaN;
-  let loP = NaN;
-  let hiP = NaN;
+  const counted = new Float64Array(GRID_POINTS);
+  let peak = 0;
   for (let k = 0; k < GRID_POINTS; k++) {
     const l = SPECTRUM_MIN_NM + k * GRID_STEP_NM;
     const w = k === 0 || k === GRID_POINTS - 1 ? 0.5 : 1; // trapezoid weights
@@ -106,18 +104,27 @@ export function spectralFactors(illuminant: Illuminant, path: SpectralPath): Spe
     visible += s * photopicEfficiency(l);
     photons += s * tr * ppj;
     electrons += s * resp * ppj;
-    if (resp > 0) {
-      if (Number.isNaN(lo)) lo = l;
-      hi = l;
-    }
-    if (tr > 0) {
-      if (Number.isNaN(loP)) loP = l;
-      hiP = l;
-    }
+    // The band is judged on electrons when any are made, else on photons reaching the sensor.
+    counted[k] = s * (resp > 0 ? resp : tr * 1e-12) * ppj;
+    if (counted[k]! > peak) peak = counted[k]!;
   }
   if (!(power > 0)) return finish(0, 0, 0, null);
-  const band: [number, number] | null = !Number.isNaN(lo) ? [lo, hi] : !Number.isNaN(loP) ? [loP, hiP] : null;
-  return finish(photons / power, electrons / power, (LUMINOUS_EFFICACY_LM_PER_W * visible) / power, band);
+  return finish(photons / power, electrons / power, (LUMINOUS_EFFICACY_LM_PER_W * visible) / power, bandOf(counted, peak));
+}
+
+/** Lowest and highest grid wavelength where the counted light is at least BAND_SHARE of its peak. */
+export const BAND_SHARE = 1e-3;
+function bandOf(counted: Float64Array, peak: number): [number, number] | null {
+  if (!(peak > 0)) return null;
+  let lo = -1;
+  let hi = -1;
+  for (let k = 0; k < counted.length; k++) {
+    if (counted[k]! >= BAND_SHARE * peak) {
+      if (lo < 0) lo = k;
+      hi = k;
+    }
+  }
+  return [SPECTRUM_MIN_NM + lo * GRID_STEP_NM, SPECTRUM_MIN_NM + hi * GRID_STEP_NM];
 }
 
 function finish(photonsPerJ: number, electronsPerJ: number, efficacy: number, bandNm: [number, number] | null): SpectralFactors {
