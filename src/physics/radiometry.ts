@@ -179,3 +179,47 @@ export function cos4FallOff(fieldAngleRad: number): number {
 export function cornerFieldAngleRad(sensorWidthMm: number, sensorHeightMm: number, focalLengthMm: number): number {
   return Math.atan(Math.hypot(sensorWidthMm, sensorHeightMm) / 2 / focalLengthMm);
 }
+
+export interface PixelLightConversion {
+  photons: number;
+  electrons: number;
+  /** Photons per lux-second per µm² of pixel; null for light with no visible part. */
+  photonsPerLuxSUm2: number | null;
+  bandNm: [number, number] | null;
+}
+
+/**
+ * Photons and electrons of one pixel for light on the sensor, given as an illuminance (lux) or a band-integrated
+ * irradiance (W/m²) of an illuminant, through an optical path (QE, IR cut). Throws RangeError for an illuminance
+ * of light with no visible part, where lux says nothing about its power.
+ */
+export function convertLightAtPixel(
+  illuminant: Illuminant,
+  level: { illuminanceLx: number } | { irradianceWM2: number },
+  pixelPitchUm: number,
+  exposureMs: number,
+  path: SpectralPath,
+): PixelLightConversion {
+  const f = spectralFactors(illuminant, path);
+  const photonsPerLuxSUm2 = f.photonsPerLmS === null ? null : countFromIlluminance(f.photonsPerLmS, 1, 1, MS_PER_S_UNIT);
+  if ('illuminanceLx' in level) {
+    if (f.photonsPerLmS === null || f.electronsPerLmS === null) {
+      throw new RangeError('this light has no visible part, so an illuminance in lux says nothing about its power: give its irradiance in W/m²');
+    }
+    return {
+      photons: countFromIlluminance(f.photonsPerLmS, level.illuminanceLx, pixelPitchUm, exposureMs),
+      electrons: countFromIlluminance(f.electronsPerLmS, level.illuminanceLx, pixelPitchUm, exposureMs),
+      photonsPerLuxSUm2,
+      bandNm: f.bandNm,
+    };
+  }
+  return {
+    photons: countFromIrradiance(f.photonsPerJ, level.irradianceWM2, pixelPitchUm, exposureMs),
+    electrons: countFromIrradiance(f.electronsPerJ, level.irradianceWM2, pixelPitchUm, exposureMs),
+    photonsPerLuxSUm2,
+    bandNm: f.bandNm,
+  };
+}
+
+/** One second, in the milliseconds countFromIlluminance takes. */
+const MS_PER_S_UNIT = 1_000;
