@@ -64,6 +64,6 @@ export function demoRolloutRequest(releaseId: string, deviceIds: readonly string
     waves: [1, '50%'],
     gate: { applyTimeoutS: 60, telemetryFrames: 30, telemetryTimeoutS: 60, latencyTolerance: 0.25 },
     offline: { waitS: 30, then: 'fail' },
-    note: 'demo data: revised fruit-counting profile for scout A (shorter exposure)',
+    note: 'demo data: revised fruit-counting profile for scout A (longer exposure under the grow lights)',
   };
 }
