@@ -23,6 +23,8 @@ export interface AgentDeps {
   /** Replaces mqtt.connect (e.g. to count connections in a test). */
   mqttConnect?: MqttConnect;
   log?: (line: string) => void;
+  /** Called with the state after each change (coalesced), e.g. to tell the robot over its own middleware. */
+  onStateChange?: (state: StateMessage) => void;
 }
 
 export interface Agent {
@@ -31,6 +33,8 @@ export interface Agent {
   stop(): Promise<void>;
   state(): StateMessage;
   setTask(task: string): Promise<TaskResult>;
+  /** A task announced by the robot's middleware: like setTask, and an unknown name is also reported as a switch-failed event. */
+  robotTask(task: string): Promise<TaskResult>;
   setMotion(moving: boolean): void;
   connected(): boolean;
   controlEndpoint(): ControlEndpoint | null;
@@ -65,7 +69,7 @@ export function createAgent(deps: AgentDeps): Agent {
     outbox!.kick();
   }
 
-  function buildState(online: boolean): StateMessage {
+  function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {
     const v = runner!.view();
     const task = v.running?.task ?? (v.release && v.activeTask ? v.release.tasks[v.activeTask] : undefined);
     return {
@@ -82,12 +86,14 @@ export function createAgent(deps: AgentDeps): Agent {
       pending: v.pending,
       refused: v.refused,
       lastSeq: events!.lastSeq(),
+      ...(!online && offlineReason ? { offlineReason } : {}),
     };
   }
 
   function publishState() {
     stateScheduled = null;
-    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false)));
+    link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false, 'connection-lost')));
+    deps.onStateChange?.(buildState(link?.connected() ?? false));
   }
 
   function changed() {
@@ -134,6 +140,8 @@ export function createAgent(deps: AgentDeps): Agent {
 
   return {
     start: async function start() {
+      // The hardware is read first: a camera that cannot be reached stops the start with its reason.
+      await driver.start?.();
       mkdirSync(config.dataDir, { recursive: true });
       events = openEventLog(config.dataDir, clock, { log });
       const username = config.username ?? config.deviceId;
@@ -149,7 +157,7 @@ export function createAgent(deps: AgentDeps): Agent {
       const restoring = runner.restore();
       link = openLink({
         deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
-        willPayload: JSON.stringify(buildState(false)), reconnectMs: config.reconnectMs, log, onMessage,
+        willPayload: JSON.stringify(buildState(false, 'connection-lost')), reconnectMs: config.reconnectMs, keepaliveS: config.keepaliveS, log, onMessage,
         ...(deps.mqttConnect ? { mqttConnect: deps.mqttConnect } : {}),
         onConnected: () => {
           log(`agent: connected to ${config.brokerUrl} as ${username}`);
@@ -185,13 +193,14 @@ export function createAgent(deps: AgentDeps): Agent {
       await runner?.idle();
       await releases?.settle();
       outbox?.close();
-      await link?.close(runner ? JSON.stringify(buildState(false)) : undefined);
+      await link?.close(runner ? JSON.stringify(buildState(false, 'shutdown')) : undefined);
       await control?.close();
       events?.close();
       await driver.close?.();
     },
     state: () => buildState(link?.connected() ?? false),
     setTask: (task) => runner!.setTask(task, 'local'),
+    robotTask: (task) => runner!.setTask(task, 'local', true),
     setMotion: (moving) => runner!.setMotion(moving),
     connected: () => link?.connected() ?? false,
     controlEndpoint: () => control?.endpoint ?? null,

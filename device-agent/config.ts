@@ -4,6 +4,14 @@ import { idSchema } from '../src/schema/common.js';
 import { formatPath, type InputIssue } from '../src/schema/issues.js';
 import { DRIVER_STEPS } from './driver.js';
 
+/** A program and its arguments: an array in the JSON file, or one string split at spaces (flags, environment). No shell runs it. */
+const commandSchema = z.preprocess(
+  (v) => (typeof v === 'string' ? v.trim().split(/\s+/).filter(Boolean) : v),
+  z.array(z.string().min(1)).min(1, 'needs at least the program to run'),
+);
+/** A ROS 2 topic name: absolute, slash-separated words (ROS 2 topic and service name rules). */
+const rosTopic = () => z.string().regex(/^\/[A-Za-z][A-Za-z0-9_]*(\/[A-Za-z][A-Za-z0-9_]*)*$/, 'must be an absolute ROS 2 topic name such as /robot/task');
+
 /** Every setting of the agent. The same names serve the JSON file; flags are --kebab-case, env is OCELLUS_AGENT_SNAKE_CASE. */
 export const agentSettingsSchema = z.strictObject({
   deviceId: z.string().regex(DEVICE_ID_PATTERN, 'must be 1-64 characters of A-Z, a-z, 0-9, ".", "_" or "-"'),
@@ -17,7 +25,8 @@ export const agentSettingsSchema = z.strictObject({
   /** PEM file of the server's Ed25519 public key, which every release must be signed with. */
   publicKeyPath: z.string().min(1),
   dataDir: z.string().min(1),
-  driver: z.enum(['sim']).default('sim'),
+  /** What moves the camera and accelerator: see device-agent/README.md, "Drivers". */
+  driver: z.enum(['sim', 'v4l2', 'libcamera', 'command']).default('sim'),
   controlHost: z.enum(['127.0.0.1', '::1', 'localhost']).default('127.0.0.1'),
   /** Loopback port of the control endpoint; 0 picks a free one (written to <dataDir>/control.json). */
   controlPort: z.number().int().min(0).max(65535).default(7717),
@@ -27,12 +36,48 @@ export const agentSettingsSchema = z.strictObject({
   ackTimeoutMs: z.number().int().min(100).default(2000),
   cacheMaxBytes: z.number().int().positive().default(2 * 1024 ** 3),
   reconnectMs: z.number().int().min(100).default(1000),
+  /** MQTT keep-alive: the broker drops the connection (and publishes the last will) after 1.5 × this without a packet. */
+  keepaliveS: z.number().int().min(1).max(65535).default(30),
   /** Simulated driver only. */
   simTimeScale: z.number().min(0).default(1),
   simEfficiency: z.number().positive().default(1),
   simSeed: z.number().int().default(1),
   simFailStep: z.enum(DRIVER_STEPS).optional(),
   simFailTask: z.string().min(1).optional(),
+  /** V4L2 driver: the camera's device node, the v4l2-ctl program, the gain control, the read-back tolerance. */
+  v4l2Device: z.string().min(1).default('/dev/video0'),
+  v4l2Ctl: z.string().min(1).default('v4l2-ctl'),
+  v4l2GainControl: z.string().regex(/^(auto|[a-z0-9_]+)$/, 'must be "auto" or a V4L2 control name such as analogue_gain').default('auto'),
+  v4l2TolerancePct: z.number().min(0).max(50).default(2),
+  /** libcamera-style driver: the controls file the camera process reads, and the file it writes back what it applied. */
+  libcameraControlsFile: z.string().min(1).optional(),
+  libcameraAppliedFile: z.string().min(1).optional(),
+  libcameraTolerancePct: z.number().min(0).max(50).default(2),
+  /** Command driver (and the accelerator steps of the v4l2 and libcamera drivers): program and arguments, settings as JSON on stdin. */
+  cameraCommand: commandSchema.optional(),
+  weightsCommand: commandSchema.optional(),
+  memoryCommand: commandSchema.optional(),
+  /** Time limit of each driver command and v4l2-ctl run. */
+  commandTimeoutMs: z.number().int().min(100).max(600_000).default(10_000),
+  /** Where the robot's task comes from besides the local control endpoint (which always stays). */
+  taskSource: z.enum(['local', 'ros2']).default('local'),
+  /** ROS 2 task source: the rosbridge v2 WebSocket, the topics and their types. */
+  rosbridgeUrl: z.string().regex(/^wss?:\/\/[^/]+/, 'must be a ws:// or wss:// URL (rosbridge_server, e.g. ws://127.0.0.1:9090)').default('ws://127.0.0.1:9090'),
+  rosTaskTopic: rosTopic().default('/robot/task'),
+  rosMotionTopic: rosTopic().optional(),
+  rosStatusTopic: rosTopic().default('/ocellus/status'),
+  rosReconnectMs: z.number().int().min(50).default(1000),
+  rosReconnectMaxMs: z.number().int().min(50).default(30_000),
+}).superRefine((s, ctx) => {
+  if (s.driver === 'command' && !s.cameraCommand) {
+    ctx.addIssue({ code: 'custom', path: ['cameraCommand'], message: 'driver "command" needs cameraCommand (the program that applies camera settings)' });
+  }
+  if (s.driver === 'libcamera' && !s.libcameraControlsFile) {
+    ctx.addIssue({ code: 'custom', path: ['libcameraControlsFile'], message: 'driver "libcamera" needs libcameraControlsFile (where the camera process reads its controls)' });
+  }
+  if (s.rosReconnectMaxMs < s.rosReconnectMs) {
+    ctx.addIssue({ code: 'custom', path: ['rosReconnectMaxMs'], message: `must be at least rosReconnectMs (${s.rosReconnectMs})` });
+  }
 });
 
 export type AgentSettings = z.output<typeof agentSettingsSchema>;
@@ -41,7 +86,10 @@ type Key = keyof AgentSettings;
 /** What createAgent needs: the settings, with the public key read from its file. */
 export type AgentConfig = Omit<AgentSettings, 'publicKeyPath'> & { publicKeyPem: string };
 
-const NUMBER_KEYS = new Set<Key>(['controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'simTimeScale', 'simEfficiency', 'simSeed']);
+const NUMBER_KEYS = new Set<Key>([
+  'controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'keepaliveS', 'simTimeScale', 'simEfficiency', 'simSeed',
+  'v4l2TolerancePct', 'libcameraTolerancePct', 'commandTimeoutMs', 'rosReconnectMs', 'rosReconnectMaxMs',
+]);
 const KEYS = Object.keys(agentSettingsSchema.shape) as Key[];
 
 export const flagOf = (key: string) => `--${key.replace(/[A-Z]/g, (c) => `-${c.toLowerCase()}`)}`;

@@ -1,4 +1,4 @@
-import type { ReleaseTask } from '../src/protocol/release.js';
+import type { Release, ReleaseTask } from '../src/protocol/release.js';
 import type { DeviceClass } from '../src/schema/device-class.js';
 import type { CameraSettings, MemoryPartition } from '../src/schema/profile.js';
 
@@ -51,5 +51,11 @@ export interface ProfileDriver {
   loadWeights(path: string, sha256: string, target: ProfileTarget): Promise<void>;
   applyCamera(settings: CameraSettings, target: ProfileTarget): Promise<void>;
   readTelemetry(): TelemetrySample | null;
+  /** Reads what the hardware offers before anything is applied (a camera's control list); throws when it cannot. */
+  start?(): Promise<void>;
+  /** Why this device cannot run the release (a control it lacks, a setting outside its calibration), or null. */
+  checkRelease?(release: Release): string | null;
+  /** Milliseconds spent so far waiting for external tools (v4l2-ctl, commands), to tell them from the agent's own time. */
+  toolMs?(): number;
   close?(): Promise<void>;
 }

@@ -14,8 +14,11 @@ import { createAgent } from './agent.js';
 import { resolveAgentSettings, envOf, flagOf, agentSettingsSchema } from './config.js';
 import { callControl } from './control-client.js';
 import type { ControlEndpoint } from './control-server.js';
-import { createSimDriver } from './sim-driver.js';
 import { systemClock } from './clock.js';
+import { selectDriver } from './drivers/select-driver.js';
+import { HELP } from './help.js';
+import { selectTaskSource } from './task-sources/select-source.js';
+import type { TaskSource } from './task-sources/task-source.js';
 
 const USAGE = `usage:
   ocellus-agent [run] [options]              start the agent
@@ -72,18 +75,16 @@ async function run(argv: string[]): Promise<void> {
   } catch (e) {
     fail(`${publicKeyPath}: cannot read the server's public key (${(e as Error).message})`);
   }
-  const driver = createSimDriver({
-    clock: systemClock, timeScale: settings.simTimeScale, efficiency: settings.simEfficiency, seed: settings.simSeed,
-    ...(settings.simFailStep ? { failStep: settings.simFailStep } : {}),
-    ...(settings.simFailTask ? { failTask: settings.simFailTask } : {}),
-  });
   const log = (line: string) => process.stdout.write(`${new Date().toISOString()} ${line}\n`);
-  const agent = createAgent({ config: { ...settings, publicKeyPem }, driver, log });
+  const driver = await selectDriver(resolved.settings, systemClock, log);
+  let source: TaskSource | null = null;
+  const agent = createAgent({ config: { ...settings, publicKeyPem }, driver, log, onStateChange: (state) => source?.report(state) });
+  source = await selectTaskSource(resolved.settings, { setTask: (task) => agent.robotTask(task), setMotion: (moving) => agent.setMotion(moving), log });
   let stopping = false;
   const stop = () => {
     if (stopping) return;
     stopping = true;
-    agent.stop().then(
+    Promise.resolve(source?.close()).then(() => agent.stop()).then(
       () => process.exit(0),
       (e: unknown) => fail(`agent: stop failed: ${(e as Error).message}`, 1),
     );
@@ -94,6 +95,10 @@ async function run(argv: string[]): Promise<void> {
   await agent.start();
   const ep = agent.controlEndpoint();
   log(`agent: control endpoint ${ep?.kind === 'unix' ? ep.socketPath : `http://${ep?.host}:${ep?.port}`}`);
+  if (source) {
+    source.start();
+    log(`agent: task source ${source.name}`);
+  }
 }
 
 const [command, ...rest] = process.argv.slice(2);
@@ -111,7 +116,7 @@ switch (command) {
     break;
   case 'help':
   case '--help':
-    process.stdout.write(`${USAGE}\n`);
+    process.stdout.write(`${USAGE}\n\n${HELP}\n`);
     break;
   case 'run':
     await run(rest).catch((e: unknown) => fail(`agent: ${(e as Error).message}`, 1));

@@ -155,6 +155,8 @@ export function createProfileRunner(deps: RunnerDeps) {
       if (!saved) return;
       const verdict = verifyRelease(saved.signed, deps.publicKeyPem, deps.deviceClassId);
       if (!verdict.ok) return refuse(verdict.releaseId, `the release stored on this device no longer verifies (${verdict.reason}: ${verdict.detail})`);
+      const unfit = driver.checkRelease?.(verdict.release);
+      if (unfit) return refuse(verdict.release.id, `the release stored on this device does not fit its hardware (${driver.name}): ${unfit}`);
       applied = { release: verdict.release, raw: saved.signed };
       const taskName = saved.activeTask !== null && verdict.release.tasks[saved.activeTask] ? saved.activeTask : verdict.release.defaultTask;
       activeTask = taskName;
@@ -193,6 +195,8 @@ export function createProfileRunner(deps: RunnerDeps) {
       if (!release.tasks[release.defaultTask]) {
         return refuse(release.id, `defaultTask ${release.defaultTask} is not one of the release's tasks`, contentKey);
       }
+      const unfit = driver.checkRelease?.(release);
+      if (unfit) return refuse(release.id, `this device cannot run it (${driver.name}): ${unfit}`, contentKey);
       if (applied?.release.id === release.id && running) {
         if (pending) (pending = null), deps.changed();
         return;
@@ -204,13 +208,14 @@ export function createProfileRunner(deps: RunnerDeps) {
       await prepare(pending);
     },
 
-    setTask: function setTask(task: string, reason: 'local' | 'command'): Promise<TaskResult> {
+    /** `report`: an unknown task name also becomes a switch-failed event (commands and robot topics have no reply to carry it). */
+    setTask: function setTask(task: string, reason: 'local' | 'command', report = reason === 'command'): Promise<TaskResult> {
       return exclusive(async (): Promise<TaskResult> => {
         const t0 = clock.monotonicMs();
         if (!applied) return { status: 409, body: { ok: false, error: 'no release is applied yet, so there is no task to switch to' } };
         if (!applied.release.tasks[task]) {
           const error = `task ${task} is not in release ${applied.release.id}; it has: ${Object.keys(applied.release.tasks).join(', ')}`;
-          if (reason === 'command') deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
+          if (report) deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
           return { status: 404, body: { ok: false, error } };
         }
         if (task === activeTask && running?.taskName === task) return { status: 200, body: { ok: true, task, unchanged: true, overheadMs: 0, actuationMs: 0 } };
@@ -228,7 +233,7 @@ export function createProfileRunner(deps: RunnerDeps) {
         switched(fromTask, to, reason, overheadMs, outcome.actuationMs);
         deps.releases.saveTask(applied.release.id, task);
         deps.changed();
-        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs } };
+        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs, toolMs: outcome.toolMs } };
       });
     },
 

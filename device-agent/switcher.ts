@@ -1,9 +1,10 @@
 import type { AgentClock } from './clock.js';
 import { DRIVER_STEPS, type DriverStep, type ProfileDriver, type ProfileTarget } from './driver.js';
 
+/** `toolMs`: the part of actuation spent waiting for external tools (v4l2-ctl, commands), when the driver reports it. */
 export type SwitchOutcome =
-  | { ok: true; overheadMs: number; actuationMs: number; stepsRun: DriverStep[] }
-  | { ok: false; step: DriverStep; error: string; restored: boolean; overheadMs: number; actuationMs: number };
+  | { ok: true; overheadMs: number; actuationMs: number; toolMs: number; stepsRun: DriverStep[] }
+  | { ok: false; step: DriverStep; error: string; restored: boolean; overheadMs: number; actuationMs: number; toolMs: number };
 
 function sameCamera(a: ProfileTarget, b: ProfileTarget): boolean {
   const x = a.task.camera;
@@ -34,6 +35,8 @@ function run(driver: ProfileDriver, step: DriverStep, target: ProfileTarget): Pr
  */
 export async function switchProfile(driver: ProfileDriver, from: ProfileTarget | null, to: ProfileTarget, clock: AgentClock): Promise<SwitchOutcome> {
   const started = clock.monotonicMs();
+  const toolBefore = driver.toolMs?.() ?? 0;
+  const toolMs = () => (driver.toolMs?.() ?? 0) - toolBefore;
   let actuationMs = 0;
   const tried: DriverStep[] = [];
   for (const step of DRIVER_STEPS) {
@@ -47,11 +50,11 @@ export async function switchProfile(driver: ProfileDriver, from: ProfileTarget |
       const error = e instanceof Error ? e.message : String(e);
       const restored = from ? await restore(driver, tried, from) : false;
       const overheadMs = Math.max(0, clock.monotonicMs() - started - actuationMs);
-      return { ok: false, step, error, restored, overheadMs, actuationMs };
+      return { ok: false, step, error, restored, overheadMs, actuationMs, toolMs: toolMs() };
     }
     actuationMs += clock.monotonicMs() - t0;
   }
-  return { ok: true, overheadMs: Math.max(0, clock.monotonicMs() - started - actuationMs), actuationMs, stepsRun: tried };
+  return { ok: true, overheadMs: Math.max(0, clock.monotonicMs() - started - actuationMs), actuationMs, toolMs: toolMs(), stepsRun: tried };
 }
 
 async function restore(driver: ProfileDriver, steps: DriverStep[], previous: ProfileTarget): Promise<boolean> {

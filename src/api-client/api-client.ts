@@ -16,6 +16,8 @@ export interface ApiClient {
   readonly baseUrl: string;
   /** JSON request; a non-2xx answer throws ApiError with the server's issues. */
   json<T>(method: string, path: string, body?: unknown): Promise<T>;
+  /** GET of a binary answer (e.g. a recording); a non-2xx answer throws ApiError like json(). */
+  bytes(path: string): Promise<Uint8Array>;
   /** Raw request (a streamed upload); returns the response whatever its status. */
   raw(method: string, path: string, init: { body: ReadableStream<Uint8Array> | Uint8Array<ArrayBuffer>; headers?: Record<string, string> }): Promise<Response>;
 }
@@ -61,6 +63,14 @@ export function createApiClient(baseUrl: string, token: string): ApiClient {
         throw new ApiError(res.status, message, issues, parsed);
       }
       return parsed as T;
+    },
+    bytes: async function bytes(path) {
+      const res = await send('GET', path, { headers: auth });
+      if (!res.ok) {
+        const { message, issues } = describe('GET', path, res.status, res.statusText, await readBody(res));
+        throw new ApiError(res.status, message, issues, null);
+      }
+      return new Uint8Array(await res.arrayBuffer());
     },
     raw: function raw(method, path, init) {
       // A stream body needs half-duplex in Node's fetch (the request is sent before the response is read).

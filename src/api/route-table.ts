@@ -1,5 +1,5 @@
 import type { z } from 'zod';
-import { driftQuerySchema, historyQuerySchema, reportQuerySchema, rolloutQuerySchema } from '../fleet/queries.js';
+import { deviceHistoryQuerySchema, driftQuerySchema, historyQuerySchema, reportQuerySchema, rolloutQuerySchema } from '../fleet/queries.js';
 import { rolloutRequestSchema } from '../fleet/rollout/spec.js';
 import { deviceClassSchema } from '../schema/device-class.js';
 import { modelSchema } from '../schema/model.js';
@@ -112,7 +112,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'rollouts.resume', method: 'post', path: `${API_BASE}/rollouts/:id/resume`, access: 'operator', mutates: true, summary: 'Resume a paused rollout: failed devices of the current wave pass their gate again', tag: 'rollouts' },
   { key: 'rollouts.abort', method: 'post', path: `${API_BASE}/rollouts/:id/abort`, access: 'operator', mutates: true, summary: 'Stop a rollout for good; devices keep what they have', tag: 'rollouts' },
   { key: 'rollouts.rollback', method: 'post', path: `${API_BASE}/rollouts/:id/rollback`, access: 'operator', mutates: true, summary: "Re-assign every moved device's previous release and track until each runs it", tag: 'rollouts' },
-  { key: 'devices.history', method: 'get', path: `${D}/:id/history`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Which task profile a device ran when, with the change that caused it (JSON, or CSV with Accept: text/csv or format=csv)', tag: 'history' },
+  { key: 'devices.history', method: 'get', path: `${D}/:id/history`, access: 'viewer', mutates: false, query: deviceHistoryQuerySchema, summary: 'Which task profile a device ran when, with the change that caused it, and when it was offline (JSON; CSV with Accept: text/csv or format=csv; an MCAP recording of intervals, switches, telemetry and connection changes with format=mcap)', tag: 'history' },
   { key: 'devices.events', method: 'get', path: `${D}/:id/events`, access: 'viewer', mutates: false, query: deviceEventsQuerySchema, summary: "A device's stored events in a time window (device clock, default the last day), oldest first; type= keeps one kind", tag: 'history' },
   { key: 'devices.usage', method: 'get', path: `${D}/:id/usage`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Seconds, frames and energy per UTC day and task, from telemetry', tag: 'history' },
   { key: 'history.task', method: 'get', path: `${API_BASE}/history/tasks/:id`, access: 'viewer', mutates: false, query: historyQuerySchema, summary: 'Every device\'s intervals running one task', tag: 'history' },

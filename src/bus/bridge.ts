@@ -11,6 +11,7 @@ import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/top
 import type { DeviceEventColumns } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
+import type { ConnectionSighting, KeepaliveNotes } from './connection-notes.js';
 import type { IngestBatch, IngestResult } from './event-batch.js';
 import { createInlineEventWriter, type EventWriter } from './event-writer.js';
 import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
@@ -18,11 +19,13 @@ import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
 export interface BridgeOptions {
   /** A client logged in as the server's own account; the bridge subscribes on every (re)connect. */
   mqttClient: MqttClient;
-  store: Pick<Store, 'deviceStates' | 'deviceEvents' | 'devices' | 'transaction'>;
+  store: Pick<Store, 'deviceStates' | 'deviceEvents' | 'deviceConnections' | 'devices' | 'transaction'>;
   clock: { now(): Date };
   /** Where batches are stored: by default on this thread through the store's connection; startBus hands in a worker. */
   eventWriter?: EventWriter;
   metrics?: MetricsRegistry;
+  /** The embedded broker's notes of devices dropped for missed keep-alives (an external broker gives none). */
+  keepaliveNotes?: Pick<KeepaliveNotes, 'takeMissed'>;
   log?: (line: string) => void;
 }
 
@@ -31,6 +34,7 @@ export interface BridgeStats {
   eventsStored: number;
   eventsDuplicate: number;
   statesStored: number;
+  connectionChanges: number;
   acksSent: number;
   rejected: Record<BridgeRejectReason, number>;
 }
@@ -51,7 +55,8 @@ export interface Bridge extends ReleasePublisher {
   close(): Promise<void>;
 }
 
-type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, StateMessage> };
+type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, StateMessage>; connections: Array<[string, ConnectionSighting]> };
+const emptyPending = (): Pending => ({ events: new Map(), states: new Map(), connections: [] });
 
 /**
  * The server side of the bus: stores every device's state and events and acknowledges events.
@@ -68,8 +73,8 @@ export function createBridge(options: BridgeOptions): Bridge {
   const writer = options.eventWriter ?? createInlineEventWriter(store);
   const rejects = createRejectCounter(options.metrics, log);
   const enrolled = new Set<string>();
-  const counts = { messages: 0, eventsStored: 0, eventsDuplicate: 0, statesStored: 0, acksSent: 0 };
-  let pending: Pending = { events: new Map(), states: new Map() };
+  const counts = { messages: 0, eventsStored: 0, eventsDuplicate: 0, statesStored: 0, connectionChanges: 0, acksSent: 0 };
+  let pending: Pending = emptyPending();
   let scheduled: NodeJS.Immediate | null = null;
   let writing: Promise<void> | null = null;
   let closed = false;
@@ -88,7 +93,17 @@ export function createBridge(options: BridgeOptions): Bridge {
     rejects.record(reason, topic, detail);
   }
 
-  function onMessage(topic: string, payload: Buffer) {
+  function sightingOf(deviceId: string, state: StateMessage, retained: boolean): ConnectionSighting {
+    const at = clock.now().toISOString();
+    const base = { online: state.online, at, releaseId: state.releaseId, task: state.activeTask };
+    if (state.online) return base;
+    // A retained offline state delivered on subscribing is old news: the device went while the server was away.
+    if (retained) return { ...base, hint: 'retained' };
+    if (options.keepaliveNotes?.takeMissed(deviceId)) return { ...base, hint: 'keepalive-missed' };
+    return state.offlineReason ? { ...base, hint: state.offlineReason } : base;
+  }
+
+  function onMessage(topic: string, payload: Buffer, packet?: { retain?: boolean }) {
     if (closed) return;
     counts.messages += 1;
     const where = parseDeviceTopic(topic);
@@ -101,6 +116,7 @@ export function createBridge(options: BridgeOptions): Bridge {
       const decoded = decodeMessage('state', payload);
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
       pending.states.set(where.deviceId, decoded.value);
+      pending.connections.push([where.deviceId, sightingOf(where.deviceId, decoded.value, packet?.retain === true)]);
     } else {
       const decoded = decodeEventsMessage(payload);
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
@@ -128,9 +144,9 @@ export function createBridge(options: BridgeOptions): Bridge {
     scheduled = null;
     if (writing) return;
     const batch = pending;
-    pending = { events: new Map(), states: new Map() };
+    pending = emptyPending();
     if (batch.events.size === 0 && batch.states.size === 0) return;
-    const ingest: IngestBatch = { at: clock.now().toISOString(), events: [...batch.events], states: [...batch.states] };
+    const ingest: IngestBatch = { at: clock.now().toISOString(), events: [...batch.events], states: [...batch.states], connections: batch.connections };
     writing = writer
       .write(ingest)
       .then(
@@ -148,6 +164,7 @@ export function createBridge(options: BridgeOptions): Bridge {
     counts.eventsStored += result.eventsStored;
     counts.eventsDuplicate += result.eventsDuplicate;
     counts.statesStored += result.statesStored;
+    counts.connectionChanges += result.connectionChanges;
     for (const [deviceId, upTo] of result.acks) {
       // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
       client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });

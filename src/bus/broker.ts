@@ -21,6 +21,8 @@ export interface EmbeddedBrokerOptions {
    * in at once: a device that connected before the server subscribed would publish into nothing.
    */
   devicesAdmitted?: Promise<void>;
+  /** Told when the broker drops a device for silence (nothing within 1.5 × its keep-alive); its last will follows. */
+  onKeepaliveMissed?: (deviceId: string) => void;
   log?: (line: string) => void;
 }
 
@@ -89,6 +91,10 @@ export async function startEmbeddedBroker(options: EmbeddedBrokerOptions): Promi
       // A null subscription makes aedes answer with the failure code 0x80 (MQTT 3.1.1 §3.9.3).
       done(null, null);
     },
+  });
+  aedes.on('keepaliveTimeout', function keepaliveMissed(client) {
+    const principal = principals.get(client);
+    if (principal?.kind === 'device') options.onKeepaliveMissed?.(principal.deviceId);
   });
   const server: Server = createServer((socket) => aedes.handle(socket));
   await new Promise<void>((resolve, reject) => {

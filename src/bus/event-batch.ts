@@ -1,6 +1,8 @@
 import type { StateMessage } from '../protocol/messages.js';
+import type { DeviceConnectionRepository } from '../store/device-connections.js';
 import type { DeviceEventColumns, DeviceEventRepository } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
+import { recordConnectionChanges, type ConnectionSighting } from './connection-notes.js';
 import type { EventCursor } from './event-cursor.js';
 
 /** What the bridge received in one turn of the event loop, in a form that crosses to a worker thread. */
@@ -9,6 +11,8 @@ export interface IngestBatch {
   at: string;
   events: Array<[deviceId: string, events: DeviceEventColumns]>;
   states: Array<[deviceId: string, state: StateMessage]>;
+  /** Every state message of the batch in arrival order (states above keep only each device's latest). */
+  connections?: Array<[deviceId: string, seen: ConnectionSighting]>;
 }
 
 /** What one committed batch changed: each device's new ack (highest contiguous seq), and counts. */
@@ -17,22 +21,25 @@ export interface IngestResult {
   eventsStored: number;
   eventsDuplicate: number;
   statesStored: number;
+  /** Connection changes recorded (came online, went offline). */
+  connectionChanges: number;
 }
 
 export interface BatchWriter {
   events: DeviceEventRepository;
   states: DeviceStateRepository;
+  connections: DeviceConnectionRepository;
   cursor: EventCursor;
   transaction<T>(fn: () => T): T;
 }
 
 /**
  * Stores one batch in one transaction: events (each (device, seq) once), each device's contiguous
- * cursor, and device states. After a rollback the cursor forgets what it held in memory, so an ack
+ * cursor, connection changes and device states. After a rollback the cursor forgets what it held in memory, so an ack
  * never covers an event that was not stored; the error is thrown on.
  */
 export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
-  const result: IngestResult = { acks: [], eventsStored: 0, eventsDuplicate: 0, statesStored: 0 };
+  const result: IngestResult = { acks: [], eventsStored: 0, eventsDuplicate: 0, statesStored: 0, connectionChanges: 0 };
   const withState = new Set(batch.states.map(([deviceId]) => deviceId));
   try {
     return w.transaction(() => {
@@ -43,6 +50,8 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
         result.acks.push([deviceId, w.cursor.advance(deviceId, columns.seqs)]);
         if (!withState.has(deviceId)) w.states.touch(deviceId, batch.at);
       }
+      // Before the states: a change is judged against what was stored until now.
+      if (batch.connections) result.connectionChanges = recordConnectionChanges(batch.connections, w.states, w.connections);
       for (const [deviceId, state] of batch.states) {
         if (state.online) w.states.putState(deviceId, state, batch.at);
         // The last will carries what the device ran when it connected; keep the fuller record, mark it offline.

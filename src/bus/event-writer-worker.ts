@@ -7,7 +7,7 @@ import { writeBatch, type IngestBatch } from './event-batch.js';
 
 const { location, busyTimeoutMs } = workerData as { location: string; busyTimeoutMs: number };
 const store = openEventWriterStore(location, busyTimeoutMs);
-const writer = { events: store.deviceEvents, states: store.deviceStates, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {

@@ -13,8 +13,8 @@ export interface EventWriter {
 }
 
 /** Writes on the calling thread, through the store's own connection. */
-export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'transaction'>): EventWriter {
-  const writer = { events: store.deviceEvents, states: store.deviceStates, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'deviceConnections' | 'transaction'>): EventWriter {
+  const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),

@@ -4,6 +4,7 @@ import type { MetricsRegistry } from '../metrics/registry.js';
 import type { Store } from '../store/store.js';
 import { createBridge, type Bridge } from './bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from './broker.js';
+import { createKeepaliveNotes } from './connection-notes.js';
 import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
 
 export interface BusOptions {
@@ -40,6 +41,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
   let account: { url: string; username: string; password: string };
   let admitDevices = () => {};
   const devicesAdmitted = new Promise<void>((resolve) => (admitDevices = resolve));
+  const keepaliveNotes = createKeepaliveNotes();
   if (options.external) {
     account = options.external;
   } else {
@@ -51,6 +53,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
       // scrypt on the thread pool: a fleet connecting at once does not stall the event loop (and the ingest) for seconds.
       authenticate: (deviceId, password) => options.store.devices.verifyCredentialsAsync(deviceId, password),
       devicesAdmitted,
+      onKeepaliveMissed: keepaliveNotes.noteMissed,
       log,
     });
     account = { url: broker.url, ...serverUser };
@@ -71,7 +74,7 @@ export async function startBus(options: BusOptions): Promise<Bus> {
         await broker?.close();
         throw e;
       });
-  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, keepaliveNotes, ...(options.metrics ? { metrics: options.metrics } : {}) });
   // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
   await bridge.subscribed();
   admitDevices();

@@ -5,6 +5,7 @@ import { analyzeNetwork } from '../physics/network-cost.js';
 import { BYTES_PER_ELEMENT, InputError, precisionSchema } from '../schema/index.js';
 import type { DocumentKind, Precision } from '../schema/index.js';
 import { guard, optionalNumber, parseFlags, printJson, UsageError } from './args.js';
+import { costFigures } from './cost-figures.js';
 import { EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
 import { num, table } from './text.js';
@@ -14,7 +15,8 @@ export const usage = `usage: ocellus cost <network.json> [--device-class FILE [-
   layers counted, as in Howard et al. 2017). With a device class, also the roofline latency and energy of one
   inference; the SRAM is split half and half between weight and activation buffers unless the flags say otherwise.
   --precision sets the bytes per activation without a device class (default int8).
-  JSON keys: macs, params, peak_activation_bytes, layers[{id, op, out_shape[c,h,w], macs, params}];
+  JSON keys: macs, params, batch_norm_params (not in params), peak_activation_bytes,
+             layers[{id, op, out_shape[c,h,w], macs, params, weight_bytes, input_bytes, output_bytes}];
              with a device class also latency_ms, energy_mj, dram_bytes, compute_bound_layers
 `;
 
@@ -74,12 +76,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       precision = deviceClass.accelerator.precision;
     }
 
-    const result: Record<string, unknown> = {
-      macs: analysis.macs,
-      params: analysis.params,
-      peak_activation_bytes: analysis.peakActivationElements * BYTES_PER_ELEMENT[precision],
-      layers: analysis.layers.map((l) => ({ id: l.id, op: l.op, out_shape: l.outShape, macs: l.macs, params: l.params })),
-    };
+    const result: Record<string, unknown> = costFigures(analysis, precision);
     let costRows: [string, string][] = [];
     if (deviceClass) {
       const sramKib = deviceClass.accelerator.sramKib;

@@ -12,6 +12,7 @@ interface CommandEntry {
 export const commands: Record<string, CommandEntry> = {
   check: { summary: 'validate every profile under files or folders', load: () => import('./check.js') },
   cost: { summary: 'MACs, parameters and (with a device class) latency and energy of a network', load: () => import('./cost.js') },
+  'import-network': { summary: 'read an .onnx model file and write the network document its weights describe', load: () => import('./import-network.js') },
   optics: { summary: 'hyperfocal distance, depth of field, diffraction and blur circles', load: () => import('./optics.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },

@@ -11,6 +11,10 @@ export const historyQuerySchema = z.strictObject({
 });
 export type HistoryQuery = z.infer<typeof historyQuerySchema>;
 
+/** A device's history window; format=mcap also gives it as an MCAP recording. */
+export const deviceHistoryQuerySchema = historyQuerySchema.extend({ format: z.enum(['json', 'csv', 'mcap']).optional() });
+export type DeviceHistoryQuery = z.infer<typeof deviceHistoryQuerySchema>;
+
 export const rolloutQuerySchema = z.strictObject({
   status: z.enum(ROLLOUT_STATUSES).optional(),
   limit: z.coerce.number().int().min(1).max(1000).optional(),

@@ -11,3 +11,5 @@ export * from './spectra.js';
 export * from './radiometry.js';
 export * from './sensor-noise.js';
 export * from './scene-signal.js';
+export * from './special-functions.js';
+export * from './mtf.js';

@@ -90,13 +90,3 @@ export function focusForRangeMm(nearMm: number, farMm: number): number {
 export function sensorDiagonalMm(widthMm: number, heightMm: number): number {
   return Math.hypot(widthMm, heightMm);
 }
-
-/** Magnification of a thin lens focused at an object distance s: m = f/(s − f) (Gaussian lens equation). */
-export function magnificationAtFocus(focalLengthMm: number, focusDistanceMm: number): number {
-  return focusDistanceMm > focalLengthMm ? focalLengthMm / (focusDistanceMm - focalLengthMm) : Infinity;
-}
-
-/** Working f-number at magnification m: N_w = N·(1 + m) (thin lens, pupil magnification 1). */
-export function workingFNumber(fNumber: number, magnification: number): number {
-  return fNumber * (1 + magnification);
-}

@@ -9,7 +9,7 @@
 import type { DeviceClass } from '../schema/device-class.js';
 import type { Illuminant, RobotLight } from '../schema/light.js';
 import type { Task } from '../schema/task.js';
-import { magnificationAtFocus, workingFNumber } from './optics.js';
+import { magnificationAtFocus, workingFNumber } from './mtf.js';
 import {
   countFromIlluminance,
   countFromIrradiance,

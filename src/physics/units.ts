@@ -62,3 +62,12 @@ export const radToDeg = (rad: number): number => (rad * 180) / Math.PI;
 /** Amplitude ratio in decibels: 20·log10(ratio) (IEC 60027-3 field quantity). */
 export const ratioToDb = (ratio: number): number => 20 * Math.log10(ratio);
 export const dbToRatio = (db: number): number => 10 ** (db / 20);
+
+// Focus and camera controls
+/** Dioptre = reciprocal metre (ISO 80000-3 uses m⁻¹ for vergence; common practice in optics); 0 D is focus at infinity. */
+export const mToDioptres = (m: number): number => 1 / m;
+export const dioptresToM = (dioptres: number): number => (dioptres === 0 ? Infinity : 1 / dioptres);
+/** V4L2 `exposure_time_absolute` counts 100 µs units (Linux kernel V4L2 camera control reference, V4L2_CID_EXPOSURE_ABSOLUTE). */
+export const V4L2_EXPOSURE_UNIT_US = 100;
+export const usToV4l2ExposureUnits = (us: number): number => us / V4L2_EXPOSURE_UNIT_US;
+export const v4l2ExposureUnitsToUs = (units: number): number => units * V4L2_EXPOSURE_UNIT_US;

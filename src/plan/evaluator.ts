@@ -66,12 +66,14 @@ export function evaluateAt(t: PlanTables, m: number, p: number, e: number, f: nu
     mask |= BIT['pixels-on-feature'];
     overshoot += overshootBelow(featurePx, task.pixelsPerFeatureMin);
   }
-  const fs = f * t.S + s;
-  const blurPx = t.worstBlurPx[fs]!;
+  const fse = (f * t.S + s) * t.E + e;
+  const blurPx = t.worstBlurPx[fse]!;
+  const mfse = m * t.F * t.S * t.E + fse;
+  const modelBlurPx = t.modelBlurPx[mfse]!;
   const tolerated = t.toleratedBlurPx[m]!;
-  if (!(blurPx <= tolerated)) {
+  if (!(modelBlurPx <= tolerated)) {
     mask |= BIT['blur-over-range'];
-    overshoot += overshootAbove(blurPx, tolerated);
+    overshoot += overshootAbove(modelBlurPx, tolerated);
   }
   const motionPx = t.motionBlurPx[e]!;
   const motionLimit = t.motionLimitPx[m]!;
@@ -79,7 +81,7 @@ export function evaluateAt(t: PlanTables, m: number, p: number, e: number, f: nu
     mask |= BIT['motion-blur'];
     overshoot += overshootAbove(motionPx, motionLimit);
   }
-  const fseg = (fs * t.E + e) * t.G + g;
+  const fseg = fse * t.G + g;
   const snrDb = t.snrDarkDb[fseg]!;
   if (!(snrDb >= task.minSnrDb)) {
     mask |= BIT['snr-dark'];
@@ -118,10 +120,11 @@ export function evaluateAt(t: PlanTables, m: number, p: number, e: number, f: nu
     overshoot += overshootAbove(busiestMs, t.framePeriodMs);
   }
   // Predicted accuracy: the lower of the accuracy at the worst blur and at the dark-scene SNR, where known.
-  const byBlur = t.accuracyAtBlur[m * t.F * t.S + fs]!;
+  const byBlur = t.accuracyAtBlur[mfse]!;
   const bySnr = t.accuracyAtSnr[m * t.F * t.S * t.E * t.G + fseg]!;
   const accuracy = Number.isNaN(byBlur) ? bySnr : Number.isNaN(bySnr) ? byBlur : bySnr < byBlur ? bySnr : byBlur;
-  if (!Number.isNaN(accuracy) && !(accuracy >= task.minAccuracy)) {
+  // A blur beyond the measured curve fails accuracy, as in the validator: the curve says nothing there.
+  if ((!Number.isNaN(accuracy) && !(accuracy >= task.minAccuracy)) || (!Number.isNaN(byBlur) && modelBlurPx > t.curveEndPx[m]!)) {
     mask |= BIT.accuracy;
     overshoot += overshootBelow(accuracy, task.minAccuracy);
   }

@@ -43,8 +43,8 @@ function parseInput(input: PlanInput): { task: Task; deviceClass: DeviceClass; c
   return { task: task.value, deviceClass: deviceClass.value, candidates };
 }
 
-/** Models the search can use; the rest are skipped with the validator's reason. */
-function plannedModels(deviceClass: DeviceClass, candidates: ModelCandidate[]): { models: PlannedModel[]; skipped: (SkippedModel & { code: string })[] } {
+/** Models the search can use: measured for the task, of the accelerator's precision, costable; the rest are skipped with the validator's reason. */
+function plannedModels(task: Task, deviceClass: DeviceClass, candidates: ModelCandidate[]): { models: PlannedModel[]; skipped: (SkippedModel & { code: string })[] } {
   const models: PlannedModel[] = [];
   const skipped: (SkippedModel & { code: string })[] = [];
   const precision = deviceClass.accelerator.precision;
@@ -52,6 +52,8 @@ function plannedModels(deviceClass: DeviceClass, candidates: ModelCandidate[]): 
     const skip = (code: string, reason: string) => skipped.push({ modelId: model.id, code, reason });
     if (models.some((m) => m.model.id === model.id)) {
       skip('duplicate-model', `model ${model.id} is listed more than once; the first is used`);
+    } else if (model.measuredForTaskIds && !model.measuredForTaskIds.includes(task.id)) {
+      skip('model-task', `model ${model.id} was measured for ${model.measuredForTaskIds.join(', ')}, not for task ${task.id}`);
     } else if (model.precision !== precision) {
       skip('model-precision', `model ${model.id} is ${model.precision} but the accelerator of ${deviceClass.id} runs ${precision}`);
     } else if (model.networkId !== network.id) {
@@ -82,7 +84,7 @@ export function plan(input: PlanInput): PlanResult {
   const { task, deviceClass, candidates } = parseInput(input);
   const options = input.options ?? {};
   const resolved = resolveOptions(options);
-  const { models, skipped } = plannedModels(deviceClass, candidates);
+  const { models, skipped } = plannedModels(task, deviceClass, candidates);
   const axes = { modelIds: models.map((m) => m.model.id), ...searchAxes(task, deviceClass, options, resolved) };
   const tables = buildTables(task, deviceClass, models, axes, options.calibration);
   const total = candidateCount(tables);

@@ -3,11 +3,10 @@
  * partitions, built from the task, the device class and the options. Pure; bad options throw an
  * InputError naming the option.
  */
-import { airyDiameterUm, blurCircleMm, totalBlurPx } from '../physics/optics.js';
-import { mToMm, sToUs } from '../physics/units.js';
+import { sToUs } from '../physics/units.js';
 import { InputError } from '../schema/index.js';
 import type { DeviceClass, InputIssue, Task } from '../schema/index.js';
-import { sampleDistancesM } from '../validate/index.js';
+import { imageSetup, worstCombinedBlurPx } from '../validate/index.js';
 import { refinedFocusM } from './focus.js';
 import { clampList, gainLadder, geometricLadder, memoryPartitions } from './ladders.js';
 import { DEFAULT_PLAN_OPTIONS } from './types.js';
@@ -16,19 +15,13 @@ import type { PlanOptions, ResolvedPlanOptions, SearchAxes } from './types.js';
 /** Focus settings are written to 0.1 mm (10,000 steps per metre), finer than lens actuators step (common practice). */
 export const FOCUS_STEPS_PER_M = 10_000;
 
-/** Worst total blur (defocus and diffraction in quadrature) over the validator's sampled working range, px. */
+/**
+ * Worst combined blur over the validator's sampled range with the camera still (optics and pixel only), sensor px:
+ * what the focus axis minimises.
+ */
 export function worstTotalBlurPx(task: Task, deviceClass: DeviceClass, fNumber: number, focusM: number): number {
-  const { lens, sensor } = deviceClass;
-  const airyUm = airyDiameterUm(sensor.designWavelengthNm, fNumber);
-  const focusMm = mToMm(focusM);
-  const distancesM = sampleDistancesM(task.nearDistanceM, task.farDistanceM, focusM);
-  let worst = -Infinity;
-  for (let i = 0; i < distancesM.length; i++) {
-    const px = totalBlurPx(blurCircleMm(lens.focalLengthMm, fNumber, focusMm, mToMm(distancesM[i]!)), airyUm, sensor.pixelPitchUm);
-    // The first sample seeds the maximum, as the validator's reduce does.
-    if (i === 0 || px > worst) worst = px;
-  }
-  return worst;
+  const still = imageSetup({ ...task, maxRelativeSpeedMPerS: 0, maxYawRateDegPerS: 0, maxPitchRateDegPerS: 0 }, deviceClass, 0, deviceClass.sensor.widthPx);
+  return worstCombinedBlurPx(task, still, fNumber, focusM);
 }
 
 function roundFocusM(m: number): number {
@@ -39,8 +32,8 @@ function roundFocusM(m: number): number {
 /**
  * Focus distances to try: the one that minimises the worst total blur over the range (closed form refined
  * by golden-section search), then `spread` fractions either side, all at or beyond the nearest focus.
- * Diffraction adds the same spot at every distance, so the best focus is the same at every f-number;
- * the widest stop is used to find it.
+ * Defocus dominates how the blur changes with focus, so the best focus found at the widest stop is used at every
+ * f-number (diffraction and the pixel add nearly the same blur at every distance).
  */
 export function focusAxisM(task: Task, deviceClass: DeviceClass, spread: readonly number[]): number[] {
   const { lens } = deviceClass;

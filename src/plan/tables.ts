@@ -1,10 +1,11 @@
 /**
  * Figures precomputed per factor of the search space, with the same physics calls, in the same order,
  * as the validator makes them, so that every candidate's figures come out identical to validate()'s:
- *  - optics per (f-number, focus): worst total blur over the sampled range;
+ *  - image per (f-number, focus, exposure): worst combined blur (one MTF of defocus, diffraction, pixel and
+ *    motion) over the sampled range, sensor px, and per model in the unit of its curve;
  *  - signal per (f-number, focus, exposure, gain): dark-corner SNR and bright-centre share of saturation
  *    (the working f-number depends on the focus), from the scene's light integrated once;
- *  - motion per exposure; model accuracy per (model, optics) and per (model, signal);
+ *  - motion per exposure; model accuracy per (model, image) and per (model, signal);
  *  - compute per (model, memory partition): inference cost, then the frame budget (latency, energy with idle
  *    draw and the robot light, power, throughput) per exposure.
  * Each table is a flat typed array; the inner loop only looks figures up.
@@ -12,15 +13,14 @@
 import { acceleratorTotals } from '../physics/accelerator.js';
 import type { AcceleratorTotals } from '../physics/accelerator.js';
 import { acceleratorIdlePowerMw, frameBudget } from '../physics/frame-budget.js';
-import { motionBlurPx } from '../physics/motion.js';
+import { smearPx } from '../physics/motion.js';
 import type { NetworkAnalysis } from '../physics/network-cost.js';
 import { objectPixelSizeMm } from '../physics/optics.js';
 import { brightPixel, darkPixel, sceneLight } from '../physics/scene-signal.js';
 import { mToMm, sToUs } from '../physics/units.js';
 import type { DeviceClass, Model, Network, Task } from '../schema/index.js';
-import { MIN_CALIBRATION_SAMPLES, accuracyAtBlur, accuracyAtSnr, toleratedBlurPx } from '../validate/index.js';
+import { MIN_CALIBRATION_SAMPLES, accuracyAtBlur, accuracyAtSnr, curvesFor, downscaleFactor, imageSetup, toleratedBlurPx, worstCombinedBlurPx } from '../validate/index.js';
 import type { Calibration } from '../validate/index.js';
-import { worstTotalBlurPx } from './search-space.js';
 import type { SearchAxes } from './types.js';
 
 export interface PlannedModel {
@@ -41,16 +41,18 @@ export interface PlanTables {
   F: number;
   S: number;
   G: number;
-  // per model
+  // per model; tolerated blur and the curve's last blur in the unit of the model's curve (Infinity: no curve)
   pixelsOnFeaturePx: Float64Array;
   toleratedBlurPx: Float64Array;
+  curveEndPx: Float64Array;
   motionLimitPx: Float64Array;
   // per exposure
   motionBlurPx: Float64Array;
   framePeriodUs: number;
-  // per (f, s)
+  // per (f, s, e): worst combined blur, sensor px
   worstBlurPx: Float64Array;
-  // per (m, f, s); NaN when the model has no accuracy-vs-blur curve
+  // per (m, f, s, e): the same in the model's unit, and the accuracy there (NaN without an accuracy-vs-blur curve)
+  modelBlurPx: Float64Array;
   accuracyAtBlur: Float64Array;
   // per (f, s, e, g); NaN SNR when it cannot be estimated
   snrDarkDb: Float64Array;
@@ -89,30 +91,47 @@ export function buildTables(
 
   const pixelsOnFeaturePx = new Float64Array(M);
   const toleratedBlur = new Float64Array(M);
+  const curveEnd = new Float64Array(M);
   const motionLimitPx = new Float64Array(M);
+  const inputPerSensorPx = new Float64Array(M);
   const footprintMm = objectPixelSizeMm(mToMm(task.farDistanceM), sensor.pixelPitchUm, lens.focalLengthMm);
   const sensorPx = task.featureSizeMm / footprintMm;
+  const curves = models.map(({ model }) => curvesFor(model, task.id));
   models.forEach(({ model }, m) => {
     const scale = sensor.widthPx > model.inputWidthPx ? model.inputWidthPx / sensor.widthPx : 1;
     pixelsOnFeaturePx[m] = sensorPx * scale;
-    toleratedBlur[m] = toleratedBlurPx(model, task.minAccuracy).blurPx;
-    motionLimitPx[m] = task.maxMotionBlurPx ?? toleratedBlur[m]!;
+    const tolerance = toleratedBlurPx(curves[m]!, task.minAccuracy);
+    toleratedBlur[m] = tolerance.blurPx;
+    const blurCurve = curves[m]!.accuracyVsBlur;
+    curveEnd[m] = blurCurve ? blurCurve[blurCurve.length - 1]!.blurPx : Infinity;
+    const downscale = downscaleFactor(sensor.widthPx, model.inputWidthPx);
+    // The validator's conversions: input px = sensor px ÷ downscale; a tolerance in input px covers downscale sensor px.
+    inputPerSensorPx[m] = tolerance.unit === 'input-px' ? downscale : 1;
+    motionLimitPx[m] = task.maxMotionBlurPx ?? (tolerance.unit === 'input-px' ? tolerance.blurPx * downscale : tolerance.blurPx);
   });
 
+  const setups = axes.exposuresUs.map((e) => imageSetup(task, deviceClass, e, sensor.widthPx));
   const motion = new Float64Array(E);
-  axes.exposuresUs.forEach((e, i) => {
-    motion[i] = motionBlurPx(task.maxRelativeSpeedMPerS, e, lens.focalLengthMm, task.nearDistanceM, sensor.pixelPitchUm);
+  setups.forEach((setup, i) => {
+    motion[i] = smearPx(setup.motion, setup.smearTimeUs, setup.focalLengthMm, task.nearDistanceM, setup.pixelPitchUm);
   });
 
-  const worstBlur = new Float64Array(F * S);
-  const accBlur = new Float64Array(M * F * S);
+  const worstBlur = new Float64Array(F * S * E);
+  const modelBlur = new Float64Array(M * F * S * E);
+  const accBlur = new Float64Array(M * F * S * E);
   for (let f = 0; f < F; f++) {
     for (let s = 0; s < S; s++) {
-      const w = worstTotalBlurPx(task, deviceClass, axes.fNumbers[f]!, axes.focusDistancesM[s]!);
-      worstBlur[f * S + s] = w;
-      models.forEach(({ model }, m) => {
-        accBlur[(m * F + f) * S + s] = model.accuracyVsBlur ? accuracyAtBlur(model.accuracyVsBlur, w).y : NaN;
-      });
+      for (let e = 0; e < E; e++) {
+        const fse = (f * S + s) * E + e;
+        const w = worstCombinedBlurPx(task, setups[e]!, axes.fNumbers[f]!, axes.focusDistancesM[s]!);
+        worstBlur[fse] = w;
+        for (let m = 0; m < M; m++) {
+          const inUnit = inputPerSensorPx[m] === 1 ? w : w / inputPerSensorPx[m]!;
+          const blurCurve = curves[m]!.accuracyVsBlur;
+          modelBlur[m * F * S * E + fse] = inUnit;
+          accBlur[m * F * S * E + fse] = blurCurve ? accuracyAtBlur(blurCurve, inUnit).y : NaN;
+        }
+      }
     }
   }
 
@@ -138,8 +157,8 @@ export function buildTables(
           }
           snr[i] = snrDb;
           clipping[i] = percent;
-          models.forEach(({ model }, m) => {
-            accSnr[m * F * S * E * G + i] = model.accuracyVsSnr && !Number.isNaN(snrDb) ? accuracyAtSnr(model.accuracyVsSnr, snrDb).y : NaN;
+          curves.forEach((c, m) => {
+            accSnr[m * F * S * E * G + i] = c.accuracyVsSnr && !Number.isNaN(snrDb) ? accuracyAtSnr(c.accuracyVsSnr, snrDb).y : NaN;
           });
         }
       }
@@ -180,9 +199,9 @@ export function buildTables(
 
   return {
     task, deviceClass, axes, models, M, P, E, F, S, G,
-    pixelsOnFeaturePx, toleratedBlurPx: toleratedBlur, motionLimitPx,
+    pixelsOnFeaturePx, toleratedBlurPx: toleratedBlur, curveEndPx: curveEnd, motionLimitPx,
     motionBlurPx: motion, framePeriodUs: sToUs(1 / task.frameRateHz),
-    worstBlurPx: worstBlur, accuracyAtBlur: accBlur,
+    worstBlurPx: worstBlur, modelBlurPx: modelBlur, accuracyAtBlur: accBlur,
     snrDarkDb: snr, clippingPercent: clipping, accuracyAtSnr: accSnr,
     energyMj, averagePowerW: powerW, latencyMs, busiestStageMs: busiestMs, framePeriodMs,
   };

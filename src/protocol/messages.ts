@@ -24,6 +24,11 @@ export const stateMessageSchema = z.strictObject({
   /** The last release this device refused, and why. */
   refused: z.strictObject({ releaseId: z.string().max(64).nullable(), reason: z.string().max(2000) }).nullable(),
   lastSeq: count,
+  /**
+   * On an offline state only: 'shutdown' when the agent published it itself before a clean disconnect,
+   * 'connection-lost' in the last will the broker publishes when the connection drops. Absent from older agents.
+   */
+  offlineReason: z.enum(['shutdown', 'connection-lost']).optional(),
 });
 export type StateMessage = z.infer<typeof stateMessageSchema>;
 

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { cameraControlsSchema } from './camera-controls.js';
 import { finite, fraction, idSchema, nonNegative, positive, positiveInt, precisionSchema } from './common.js';
 import { fractionCurveSchema, robotLightSchema } from './light.js';
 
@@ -59,6 +60,15 @@ export const sensorSchema = z.strictObject({
   /** Power while exposing and reading out, on top of the readout energy per pixel, and between frames. */
   activePowerMw: nonNegative().default(0),
   idlePowerMw: nonNegative().default(0),
+  /** How rows are exposed: all at once ("global"), or one after another during readout ("rolling"). */
+  shutter: z.enum(['global', 'rolling']).default('global'),
+  /**
+   * Time between the starts of two successive rows of a rolling shutter, µs. When left out it follows from
+   * readoutMsPerFrame / heightPx (the rows are read out evenly over the frame readout).
+   */
+  lineTimeUs: positive().optional(),
+  /** Share of the pixel's area that collects light (a square active area of side pitch·√fillFactor); 1 for back-side illuminated sensors. */
+  fillFactor: fraction().refine((v) => v > 0, { message: 'must be greater than 0' }).default(1),
 });
 
 export const ispSchema = z.strictObject({
@@ -124,6 +134,8 @@ export const deviceClassSchema = z.strictObject({
       });
     })
     .optional(),
+  /** Calibration tables from physical settings to the module's control codes (focus, gain, iris). */
+  controls: cameraControlsSchema.optional(),
 });
 
 export type DeviceClass = z.infer<typeof deviceClassSchema>;

@@ -7,6 +7,26 @@ const increasing = <T>(key: keyof T & string) => (points: T[]) =>
 export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction() });
 export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction() });
 
+/** The pixels a blur curve is measured in: the sensor's, or the network input's after the downscale. */
+export const blurUnitSchema = z.enum(['sensor-px', 'input-px']);
+export type BlurUnit = z.infer<typeof blurUnitSchema>;
+
+const blurCurveSchema = z
+  .array(blurCurvePointSchema)
+  .min(2)
+  .refine(increasing<{ blurPx: number }>('blurPx'), { message: 'points must be in strictly increasing blurPx' });
+const snrCurveSchema = z
+  .array(snrCurvePointSchema)
+  .min(2)
+  .refine(increasing<{ snrDb: number }>('snrDb'), { message: 'points must be in strictly increasing snrDb' });
+
+/** Curves measured for one task, where they differ from the model's own. */
+export const taskCurvesSchema = z.strictObject({
+  taskId: idSchema,
+  accuracyVsBlur: blurCurveSchema.optional(),
+  accuracyVsSnr: snrCurveSchema.optional(),
+});
+
 export const modelSchema = z.strictObject({
   kind: z.literal('model').optional(),
   id: idSchema,
@@ -20,18 +40,35 @@ export const modelSchema = z.strictObject({
   inputHeightPx: positiveInt(),
   networkId: idSchema,
   precision: precisionSchema,
-  /** Accuracy measured by the user on their own data at increasing total blur (pixels, blur-spot diameter). */
-  accuracyVsBlur: z
-    .array(blurCurvePointSchema)
-    .min(2)
-    .refine(increasing<{ blurPx: number }>('blurPx'), { message: 'points must be in strictly increasing blurPx' })
-    .optional(),
+  /**
+   * Accuracy measured by the user on their own data at increasing blur: the diameter of the uniform disc with the
+   * same MTF50 as the whole image chain, in `blurUnit` pixels.
+   */
+  accuracyVsBlur: blurCurveSchema.optional(),
+  /**
+   * Pixels of the accuracy-vs-blur curves. New documents should say "input-px" (the network's input after the
+   * downscale). Left out, a curve is read as "sensor-px", which is what files written before this field meant,
+   * and the validator says so.
+   */
+  blurUnit: blurUnitSchema.optional(),
   /** Accuracy measured at increasing signal-to-noise ratio (dB). */
-  accuracyVsSnr: z
-    .array(snrCurvePointSchema)
-    .min(2)
-    .refine(increasing<{ snrDb: number }>('snrDb'), { message: 'points must be in strictly increasing snrDb' })
-    .optional(),
+  accuracyVsSnr: snrCurveSchema.optional(),
+  /**
+   * Tasks the model was trained and measured for. A profile pairing it with another task fails `model-task`, and
+   * the planner leaves it out. Left out (files written before this field), every task is allowed with a warning.
+   */
+  measuredForTaskIds: z.array(idSchema).min(1).optional(),
+  /** Curves per task where they differ from the model's own (each task must be among measuredForTaskIds). */
+  taskCurves: z.array(taskCurvesSchema).optional(),
+}).superRefine((m, ctx) => {
+  const seen = new Set<string>();
+  m.taskCurves?.forEach((c, i) => {
+    if (seen.has(c.taskId)) ctx.addIssue({ code: 'custom', path: ['taskCurves', i, 'taskId'], message: `task ${c.taskId} has curves twice` });
+    seen.add(c.taskId);
+    if (!m.measuredForTaskIds?.includes(c.taskId)) {
+      ctx.addIssue({ code: 'custom', path: ['taskCurves', i, 'taskId'], message: `task ${c.taskId} is not among measuredForTaskIds` });
+    }
+  });
 });
 
 export type Model = z.infer<typeof modelSchema>;

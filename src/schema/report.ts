@@ -12,6 +12,8 @@ export const checkSchema = z.object({
   unit: z.string(),
   path: z.string(),
   message: z.string(),
+  /** The figures the check used, by name (a figure that could not be computed is null). */
+  figures: z.record(z.string(), z.number().nullable()).optional(),
 });
 export type Check = z.infer<typeof checkSchema>;
 

@@ -24,6 +24,8 @@ export interface EventRangeReader {
   firstFrom(deviceId: string, type: string, seq: number): RangeEvent | null;
   /** The latest events of a type, newest first. */
   latest(deviceId: string, type: string, limit: number): RangeEvent[];
+  /** The last event of any type before a seq, or null. */
+  lastAnyBefore(deviceId: string, seq: number): RangeEvent | null;
   /** Highest stored seq of a device (0 when none). */
   maxSeq(deviceId: string): number;
 }
@@ -53,6 +55,7 @@ export function createEventRangeReader(db: Database.Database): EventRangeReader 
   const typedRange = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq >= ? AND seq < ? ORDER BY seq');
   const typedBefore = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq < ? ORDER BY seq DESC LIMIT 1');
   const typedFrom = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? AND seq >= ? ORDER BY seq LIMIT 1');
+  const anyBefore = db.prepare('SELECT seq, ts, event FROM device_events WHERE device_id = ? AND seq < ? ORDER BY seq DESC LIMIT 1');
   const typedLatest = db.prepare('SELECT seq, ts, event FROM device_events WHERE type = ? AND device_id = ? ORDER BY seq DESC LIMIT ?');
 
   /**
@@ -113,6 +116,10 @@ export function createEventRangeReader(db: Database.Database): EventRangeReader 
     },
     latest: function latest(deviceId, type, limit) {
       return (typedLatest.all(type, deviceId, limit) as Row[]).map(toEvent);
+    },
+    lastAnyBefore: function lastAnyBefore(deviceId, seq) {
+      const row = anyBefore.get(deviceId, seq) as Row | undefined;
+      return row ? toEvent(row) : null;
     },
     maxSeq: function maxSeq(deviceId) {
       return (highest.get(deviceId) as { seq: number } | undefined)?.seq ?? 0;

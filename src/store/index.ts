@@ -22,3 +22,5 @@ export type { EventRangeReader, RangeEvent, SeqRange } from './event-ranges.js';
 export type { RolloutFactsRepository, OpenRolloutDevice, GateEvent } from './rollout-facts.js';
 export type { DriftRepository, DriftRecord, DriftQuantity } from './drift.js';
 export type { RolloutRepository, RolloutRecord, RolloutDeviceRecord } from './rollouts.js';
+export type { DeviceConnectionRepository, ConnectionChange, ConnectionCause, NewConnectionChange } from './device-connections.js';
+export { CONNECTION_CAUSES } from './device-connections.js';

@@ -178,6 +178,22 @@ export const migrations: Migration[] = [
       CREATE INDEX drift_events_by_device ON drift_events (device_id, quantity, id);
     `,
   },
+  {
+    version: 4,
+    name: 'bus bridge: device connection changes seen by the server',
+    sql: `
+      CREATE TABLE device_connections (
+        id INTEGER PRIMARY KEY AUTOINCREMENT,
+        device_id TEXT NOT NULL,
+        at TEXT NOT NULL,
+        online INTEGER NOT NULL CHECK (online IN (0, 1)),
+        cause TEXT NOT NULL,
+        release_id TEXT,
+        task TEXT
+      );
+      CREATE INDEX device_connections_by_device ON device_connections (device_id, at, id);
+    `,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

@@ -2,6 +2,7 @@ import Database from 'better-sqlite3';
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { createAuditRepository, type AuditRepository } from './audit.js';
+import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
 import { createDeviceRepository, type DeviceRepository } from './devices.js';
@@ -32,6 +33,8 @@ export interface Store {
   /** The bus bridge's records: each device's latest retained state, and the events devices sent. */
   readonly deviceStates: DeviceStateRepository;
   readonly deviceEvents: DeviceEventRepository;
+  /** Each device's connection changes as the server saw them (online, offline and why). */
+  readonly deviceConnections: DeviceConnectionRepository;
   /** Reads of a device's events by time range and type (history, calibration, rollouts). */
   readonly eventRanges: EventRangeReader;
   readonly rollouts: RolloutRepository;
@@ -91,6 +94,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     audit: createAuditRepository(db),
     deviceStates: createDeviceStateRepository(db),
     deviceEvents: createDeviceEventRepository(db),
+    deviceConnections: createDeviceConnectionRepository(db),
     eventRanges: createEventRangeReader(db),
     rollouts: createRolloutRepository(db),
     rolloutFacts: createRolloutFactsRepository(db),

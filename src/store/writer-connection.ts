@@ -1,4 +1,5 @@
 import Database from 'better-sqlite3';
+import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
 
@@ -6,6 +7,7 @@ import { createDeviceStateRepository, type DeviceStateRepository } from './devic
 export interface EventWriterStore {
   readonly deviceEvents: DeviceEventRepository;
   readonly deviceStates: DeviceStateRepository;
+  readonly deviceConnections: DeviceConnectionRepository;
   transaction<T>(fn: () => T): T;
   close(): void;
 }
@@ -26,6 +28,7 @@ export function openEventWriterStore(location: string, busyTimeoutMs: number): E
   return {
     deviceEvents: createDeviceEventRepository(db),
     deviceStates: createDeviceStateRepository(db),
+    deviceConnections: createDeviceConnectionRepository(db),
     transaction: <T>(fn: () => T): T => db.transaction(fn)(),
     close: () => {
       if (db.open) db.close();

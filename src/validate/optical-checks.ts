@@ -1,87 +1,64 @@
-import {
-  airyDiameterUm,
-  blurCircleMm,
-  depthOfFieldMm,
-  focusForRangeMm,
-  hyperfocalDistanceMm,
-  objectPixelSizeMm,
-  totalBlurPx,
-} from '../physics/optics.js';
-import { motionBlurPx } from '../physics/motion.js';
-import { mToMm, mmToM, mmToUm, umToMm } from '../physics/units.js';
+import { depthOfFieldMm, focusForRangeMm, hyperfocalDistanceMm, objectPixelSizeMm } from '../physics/optics.js';
+import { rollingReadoutUs, smearPx } from '../physics/motion.js';
+import { mToMm, mmToM, umToMm, usToMs } from '../physics/units.js';
 import type { Check } from '../schema/index.js';
 import { againstMax, againstMin, fmt, makeCheck } from './check.js';
+import { blurCurveOf, cameraMotion, downscaleFactor, lineTimeUs as lineTimeOf, rollingSkewPx, worstPoint } from './image-model.js';
+import type { BlurPoint, ImageSetup } from './image-model.js';
 import type { ValidationInput } from './input.js';
+import { blurIn, unitLabel } from './tolerance.js';
 import type { BlurTolerance } from './tolerance.js';
 
-/** Distances sampled across the working range (plus both ends and the focus distance). */
-export const BLUR_SAMPLES = 64;
-
-export interface BlurPoint {
-  distanceM: number;
-  defocusPx: number;
-  diffractionPx: number;
-  totalPx: number;
+/** The worst point's figures, both pixel units, for a check's `figures`. */
+export function worstFigures(worst: BlurPoint): Record<string, number | null> {
+  const f = (v: number) => (Number.isFinite(v) ? v : null);
+  return {
+    distanceM: worst.distanceM,
+    combinedSensorPx: f(worst.totalPx),
+    combinedInputPx: f(worst.totalInputPx),
+    defocusPx: f(worst.defocusPx),
+    diffractionPx: f(worst.diffractionPx),
+    pixelPx: f(worst.pixelPx),
+    motionPx: f(worst.motionPx),
+  };
 }
 
-/** Distances from near to far, evenly spaced in dioptres (1/d), where defocus blur changes linearly. */
-export function sampleDistancesM(nearM: number, farM: number, focusM: number, samples = BLUR_SAMPLES): number[] {
-  if (farM <= nearM) return [nearM];
-  const out: number[] = [];
-  for (let i = 0; i < samples; i++) {
-    const dioptre = 1 / nearM + (i / (samples - 1)) * (1 / farM - 1 / nearM);
-    out.push(i === samples - 1 ? farM : i === 0 ? nearM : 1 / dioptre);
-  }
-  if (focusM > nearM && focusM < farM) {
-    const at = out.findIndex((d) => d >= focusM);
-    if (out[at] !== focusM) out.splice(at, 0, focusM);
-  }
-  return out;
-}
-
-/** Total blur (defocus circle and Airy disk in quadrature) at each sampled distance. */
-export function blurCurve(input: ValidationInput, focusM = input.profile.camera.focusDistanceM): BlurPoint[] {
-  const { lens, sensor } = input.deviceClass;
-  const { fNumber } = input.profile.camera;
-  const airyUm = airyDiameterUm(sensor.designWavelengthNm, fNumber);
-  const diffractionPx = airyUm / sensor.pixelPitchUm;
-  const focusMm = mToMm(focusM);
-  return sampleDistancesM(input.task.nearDistanceM, input.task.farDistanceM, focusM).map((distanceM) => {
-    const defocusMm = blurCircleMm(lens.focalLengthMm, fNumber, focusMm, mToMm(distanceM));
-    return {
-      distanceM,
-      defocusPx: mmToUm(defocusMm) / sensor.pixelPitchUm,
-      diffractionPx,
-      totalPx: totalBlurPx(defocusMm, airyUm, sensor.pixelPitchUm),
-    };
-  });
-}
-
-export function worstPoint(curve: BlurPoint[]): BlurPoint {
-  return curve.reduce((w, p) => (p.totalPx > w.totalPx ? p : w), curve[0]!);
-}
-
-export function blurOverRangeCheck(input: ValidationInput, curve: BlurPoint[], tolerance: BlurTolerance): Check {
+/**
+ * The combined blur (defocus, diffraction, pixel aperture and motion, as one MTF) at the worst point of the
+ * working range, against the blur the model tolerates, in the tolerance's own pixels.
+ */
+export function blurOverRangeCheck(input: ValidationInput, setup: ImageSetup, curve: BlurPoint[], tolerance: BlurTolerance): Check {
   const worst = worstPoint(curve);
+  const unit = unitLabel(tolerance.unit);
+  const actual = blurIn(tolerance.unit, worst.totalPx, worst.totalInputPx);
   const limit = tolerance.blurPx;
   const { task, profile } = input;
-  const v = againstMax(worst.totalPx, limit, 'px', 'the {} the model tolerates');
-  const range = `range ${fmt(task.nearDistanceM)}–${fmt(task.farDistanceM)} m, focus ${fmt(profile.camera.focusDistanceM)} m, diffraction ${fmt(worst.diffractionPx)} px`;
-  const head = `worst blur ${fmt(worst.totalPx)} px at ${fmt(worst.distanceM)} m (${range}) ${v.text}; tolerance from ${tolerance.basis}`;
-  if (v.ok) return makeCheck('blur-over-range', 'pass', worst.totalPx, limit, 'px', 'camera.focusDistanceM', head);
-  if (limit <= 0) return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'modelId', `${head}: no camera setting can help`);
-  if (worst.diffractionPx > limit) {
-    return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.fNumber',
-      `${head}. Diffraction alone at f/${profile.camera.fNumber} exceeds the tolerance: a wider aperture is needed`);
+  const figures = worstFigures(worst);
+  const check = (status: 'pass' | 'fail', path: string, message: string) => ({ ...makeCheck('blur-over-range', status, actual, limit, unit, path, message), figures });
+  const v = againstMax(actual, limit, unit, 'the {} the model tolerates');
+  const parts = `defocus ${fmt(worst.defocusPx)}, diffraction ${fmt(worst.diffractionPx)}, pixel ${fmt(worst.pixelPx)}, motion ${fmt(worst.motionPx)} sensor px`;
+  const both = setup.downscale > 1
+    ? `${fmt(worst.totalPx)} sensor px = ${fmt(worst.totalInputPx)} input px after the ×${fmt(setup.downscale)} downscale`
+    : `${fmt(worst.totalPx)} sensor px (the network takes the sensor's pixels as they are)`;
+  const range = `range ${fmt(task.nearDistanceM)}–${fmt(task.farDistanceM)} m, focus ${fmt(profile.camera.focusDistanceM)} m`;
+  const head = `worst combined blur ${both} at ${fmt(worst.distanceM)} m (${parts}; ${range}) ${v.text}; tolerance from ${tolerance.basis}`;
+  if (v.ok) return check('pass', 'camera.focusDistanceM', head);
+  if (limit <= 0) return check('fail', 'modelId', `${head}: no camera setting can help`);
+  const toUnit = (sensorPx: number) => blurIn(tolerance.unit, sensorPx, sensorPx / setup.downscale);
+  if (toUnit(worst.diffractionPx) > limit) {
+    return check('fail', 'camera.fNumber', `${head}. Diffraction alone at f/${profile.camera.fNumber} exceeds the tolerance: a wider aperture is needed`);
+  }
+  if (toUnit(worst.motionPx) > limit || worst.motionPx > worst.defocusPx) {
+    return check('fail', 'camera.exposureUs', `${head}. Motion during the ${fmt(profile.camera.exposureUs)} µs exposure is the largest part: a shorter exposure is needed`);
   }
   const bestFocusM = mmToM(focusForRangeMm(mToMm(task.nearDistanceM), mToMm(task.farDistanceM)));
-  const best = worstPoint(blurCurve(input, bestFocusM));
-  if (best.totalPx > limit) {
-    return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.fNumber',
-      `${head}. ${sameFocus(bestFocusM, profile.camera.focusDistanceM) ? 'That focus already balances the blur at both ends' : `Even focused at ${fmt(bestFocusM)} m, which balances the blur at both ends, the worst blur is ${fmt(best.totalPx)} px`}: the depth of field at f/${profile.camera.fNumber} cannot cover the range, a narrower aperture is needed`);
+  const best = worstPoint(blurCurveOf(task, setup, profile.camera.fNumber, bestFocusM));
+  const bestActual = blurIn(tolerance.unit, best.totalPx, best.totalInputPx);
+  if (bestActual > limit) {
+    return check('fail', 'camera.fNumber',
+      `${head}. ${sameFocus(bestFocusM, profile.camera.focusDistanceM) ? 'That focus already balances the defocus at both ends' : `Even focused at ${fmt(bestFocusM)} m, which balances the defocus at both ends, the worst blur is ${fmt(bestActual)} ${unit}`}: the depth of field at f/${profile.camera.fNumber} cannot cover the range, a narrower aperture is needed`);
   }
-  return makeCheck('blur-over-range', 'fail', worst.totalPx, limit, 'px', 'camera.focusDistanceM',
-    `${head}. Focusing at ${fmt(bestFocusM)} m would bring the worst blur to ${fmt(best.totalPx)} px`);
+  return check('fail', 'camera.focusDistanceM', `${head}. Focusing at ${fmt(bestFocusM)} m would bring the worst blur to ${fmt(bestActual)} ${unit}`);
 }
 
 function sameFocus(aM: number, bM: number): boolean {
@@ -105,14 +82,46 @@ export function pixelsOnFeatureCheck(input: ValidationInput): Check {
   return makeCheck('pixels-on-feature', v.ok ? 'pass' : 'fail', networkPx, task.pixelsPerFeatureMin, 'px', path, message);
 }
 
-export function motionBlurCheck(input: ValidationInput, tolerance: BlurTolerance): Check {
-  const { task, deviceClass, profile } = input;
-  const px = motionBlurPx(task.maxRelativeSpeedMPerS, profile.camera.exposureUs, deviceClass.lens.focalLengthMm, task.nearDistanceM, deviceClass.sensor.pixelPitchUm);
-  const limit = task.maxMotionBlurPx ?? tolerance.blurPx;
+/**
+ * Motion on its own, so users see where the blur comes from: the smear length at the near end from translation,
+ * yaw and pitch during the exposure (plus one line time for a rolling shutter), sensor px.
+ */
+export function motionBlurCheck(input: ValidationInput, setup: ImageSetup, tolerance: BlurTolerance): Check {
+  const { task, profile } = input;
+  const px = smearPx(setup.motion, setup.smearTimeUs, setup.focalLengthMm, task.nearDistanceM, setup.pixelPitchUm);
+  // The model's tolerance in sensor px: an input pixel covers `downscale` sensor pixels.
+  const tolerancePx = tolerance.unit === 'input-px' ? tolerance.blurPx * setup.downscale : tolerance.blurPx;
+  const limit = task.maxMotionBlurPx ?? tolerancePx;
   const limitBasis = task.maxMotionBlurPx !== undefined ? "the task's motion-blur limit of {}" : 'the {} the model tolerates';
   const v = againstMax(px, limit, 'px', limitBasis);
-  const message = `motion blur ${fmt(px)} px at the near end ${fmt(task.nearDistanceM)} m (${fmt(task.maxRelativeSpeedMPerS)} m/s, ${fmt(profile.camera.exposureUs)} µs exposure) ${v.text}`;
-  return makeCheck('motion-blur', v.ok ? 'pass' : 'fail', px, limit, 'px', 'camera.exposureUs', message);
+  const turns = task.maxYawRateDegPerS > 0 || task.maxPitchRateDegPerS > 0 ? `, turning ${fmt(task.maxYawRateDegPerS)} °/s yaw and ${fmt(task.maxPitchRateDegPerS)} °/s pitch` : '';
+  const message = `motion blur ${fmt(px)} sensor px (${fmt(px / setup.downscale)} input px) at the near end ${fmt(task.nearDistanceM)} m (${fmt(task.maxRelativeSpeedMPerS)} m/s${turns}, ${fmt(profile.camera.exposureUs)} µs exposure) ${v.text}`;
+  return { ...makeCheck('motion-blur', v.ok ? 'pass' : 'fail', px, limit, 'px', 'camera.exposureUs', message), figures: { sensorPx: px, inputPx: px / setup.downscale } };
+}
+
+/**
+ * Rolling-shutter skew: the image moves while the rows are read out one after another, shearing the frame. It
+ * distorts geometry rather than blurring, so it is its own figure; warned above the task's limit, by default the
+ * feature's own size in sensor pixels at the near end.
+ */
+export function rollingShutterSkewCheck(input: ValidationInput): Check {
+  const { task, deviceClass } = input;
+  const { lens, sensor } = deviceClass;
+  if (sensor.shutter !== 'rolling') {
+    return { ...makeCheck('rolling-shutter-skew', 'pass', 0, null, 'px', 'deviceClassId', `global shutter: every row is exposed at once, no skew (device class ${deviceClass.id})`), figures: { skewPx: 0 } };
+  }
+  const skew = rollingSkewPx(task, deviceClass, task.nearDistanceM);
+  const featurePx = task.featureSizeMm / objectPixelSizeMm(mToMm(task.nearDistanceM), sensor.pixelPitchUm, lens.focalLengthMm);
+  const limit = task.maxRollingSkewPx ?? featurePx;
+  const basis = task.maxRollingSkewPx !== undefined ? "the task's skew limit of {}" : `the feature's own size at the near end, {}`;
+  const v = againstMax(skew, limit, 'px', basis);
+  const moving = cameraMotion(task);
+  const message = `rolling shutter: the last row starts ${fmt(lineTimeMs(sensor))} ms after the first, and the image moves ${fmt(skew)} sensor px top to bottom at the near end ${fmt(task.nearDistanceM)} m (${fmt(moving.speedMPerS)} m/s, ${fmt(moving.yawRateDegPerS)} °/s yaw, ${fmt(moving.pitchRateDegPerS)} °/s pitch); that ${v.text}. Skew bends straight edges rather than blurring them`;
+  return { ...makeCheck('rolling-shutter-skew', v.ok ? 'pass' : 'warn', skew, limit, 'px', 'deviceClassId', message), figures: { skewPx: skew, featurePx } };
+}
+
+function lineTimeMs(sensor: ValidationInput['deviceClass']['sensor']): number {
+  return usToMs(rollingReadoutUs(lineTimeOf(sensor), sensor.heightPx));
 }
 
 export interface DepthOfFieldFigures {
@@ -127,7 +136,8 @@ export interface DepthOfFieldFigures {
 export function depthOfFieldFigures(input: ValidationInput, tolerance: BlurTolerance): DepthOfFieldFigures {
   const { lens, sensor } = input.deviceClass;
   const { fNumber, focusDistanceM } = input.profile.camera;
-  const cocMm = tolerance.blurPx * umToMm(sensor.pixelPitchUm);
+  const tolerancePx = tolerance.unit === 'input-px' ? tolerance.blurPx * downscaleFactor(sensor.widthPx, input.model.inputWidthPx) : tolerance.blurPx;
+  const cocMm = tolerancePx * umToMm(sensor.pixelPitchUm);
   const focusMm = mToMm(focusDistanceM);
   if (!(cocMm > 0) || !(focusMm > lens.focalLengthMm)) return { cocMm, hyperfocalM: null, dofNearM: null, dofFarM: null };
   const dof = depthOfFieldMm(lens.focalLengthMm, fNumber, cocMm, focusMm);

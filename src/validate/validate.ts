@@ -3,16 +3,26 @@ import type { Check, Report } from '../schema/index.js';
 import { computeChecks } from './compute-checks.js';
 import type { InferenceFigures } from './compute-checks.js';
 import type { ValidateOptions, ValidationInput } from './input.js';
-import { accuracyCheck, consistencyChecks, physicalLimitChecks } from './model-checks.js';
-import { blurCurve, blurOverRangeCheck, depthOfFieldFigures, motionBlurCheck, pixelsOnFeatureCheck, worstPoint } from './optical-checks.js';
-import type { BlurPoint } from './optical-checks.js';
+import { blurCurveOf, chainAt, imageSetup, workingFNumberAt, worstPoint } from './image-model.js';
+import type { BlurPoint } from './image-model.js';
+import { accuracyCheck, consistencyChecks, modelTaskCheck, physicalLimitChecks } from './model-checks.js';
+import { blurOverRangeCheck, depthOfFieldFigures, motionBlurCheck, pixelsOnFeatureCheck, rollingShutterSkewCheck } from './optical-checks.js';
 import { clippingBrightCheck, exposureFitsFrameCheck, snrDarkCheck } from './signal-checks.js';
-import { toleratedBlurPx } from './tolerance.js';
+import { curvesFor, toleratedBlurPx } from './tolerance.js';
+import type { BlurUnit } from '../schema/index.js';
+import { diffractionCutoffCycPerMm, mtfCurve, nyquistCycPerMm } from '../physics/mtf.js';
+import type { MtfParts } from '../physics/mtf.js';
 
 /** Figures the checks were computed from, for plots (JSON writes an infinite blur as null). */
 export type ValidationFigures = {
   blurCurve: BlurPoint[];
+  /** The worst point of the range and the MTF there (frequencies on the sensor, cycles/mm, up to its Nyquist). */
+  worstBlur: BlurPoint;
+  mtfAtWorst: (MtfParts & { cycPerMm: number })[];
+  workingFNumber: number;
+  downscale: number;
   toleratedBlurPx: number;
+  toleratedBlurUnit: BlurUnit;
   cocMm: number;
   latency: { exposureMs: number; readoutMs: number; ispMs: number; inferenceMs: number; totalMs: number } | null;
   energy: { readoutMj: number; ispMj: number; inferenceMj: number; lightMj: number; idleMj: number; totalMj: number } | null;
@@ -33,20 +43,27 @@ export type ValidationReport = Report & { figures: ValidationFigures };
  * including settings the hardware cannot take, comes back as a check.
  */
 export function validate(input: ValidationInput, options: ValidateOptions = {}): ValidationReport {
-  const tolerance = toleratedBlurPx(input.model, input.task.minAccuracy);
-  const curve = blurCurve(input);
+  const { task, deviceClass, model, profile } = input;
+  const tolerance = toleratedBlurPx(curvesFor(model, task.id), task.minAccuracy);
+  const setup = imageSetup(task, deviceClass, profile.camera.exposureUs, model.inputWidthPx);
+  const { fNumber, focusDistanceM } = profile.camera;
+  const curve = blurCurveOf(task, setup, fNumber, focusDistanceM);
   const worst = worstPoint(curve);
+  const workingF = workingFNumberAt(setup, fNumber, focusDistanceM);
+  const worstChain = chainAt(setup, fNumber, focusDistanceM, worst.distanceM, diffractionCutoffCycPerMm(setup.wavelengthNm, workingF));
   const dark = snrDarkCheck(input);
   const compute = computeChecks(input, options.calibration);
-  const accuracy = accuracyCheck(input, worst.totalPx, dark.snrDb);
+  const accuracy = accuracyCheck(input, worst, dark.snrDb);
   const dof = depthOfFieldFigures(input, tolerance);
 
   const checks: Check[] = [
     ...physicalLimitChecks(input),
     ...consistencyChecks(input),
-    blurOverRangeCheck(input, curve, tolerance),
+    modelTaskCheck(input),
+    blurOverRangeCheck(input, setup, curve, tolerance),
     pixelsOnFeatureCheck(input),
-    motionBlurCheck(input, tolerance),
+    motionBlurCheck(input, setup, tolerance),
+    rollingShutterSkewCheck(input),
     dark.check,
     clippingBrightCheck(input),
     exposureFitsFrameCheck(input),
@@ -59,7 +76,12 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
     checks,
     figures: {
       blurCurve: curve,
+      worstBlur: worst,
+      mtfAtWorst: Number.isFinite(worstChain.defocusBlurUm) ? mtfCurve(worstChain, nyquistCycPerMm(setup.pixelPitchUm)) : [],
+      workingFNumber: workingF,
+      downscale: setup.downscale,
       toleratedBlurPx: tolerance.blurPx,
+      toleratedBlurUnit: tolerance.unit,
       cocMm: dof.cocMm,
       latency: budget ? { ...budget.latency } : null,
       energy: budget ? { readoutMj: budget.energy.readoutMj, ispMj: budget.energy.ispMj, inferenceMj: budget.energy.inferenceMj, lightMj: budget.energy.lightMj, idleMj: budget.energy.idleMj, totalMj: budget.energy.totalMj } : null,

@@ -54,8 +54,9 @@ describe('POST /api/v1/plan', () => {
     expect(res.status).toBe(200);
     const answer = (await res.json()) as PlanAnswer;
     expect(answer.front.length).toBeGreaterThan(0);
-    // Without modelIds: the stored models of the accelerator's precision (int8 for gh-scout-a), none skipped.
-    expect(answer.searched.modelIds.sort()).toEqual(['fruit-finder-a', 'leaf-check-a', 'row-guide-a']);
+    // Without modelIds: the stored models measured for the task and of the accelerator's precision (int8 for
+    // gh-scout-a), none skipped: the row-guidance and leaf models were not measured for fruit counting.
+    expect(answer.searched.modelIds.sort()).toEqual(['fruit-finder-a']);
     expect(answer.skipped).toEqual([]);
     expect(answer.calibration).toBeNull();
     expect(answer.refs.task).toEqual({ id: 'fruit-counting', version: 1 });
@@ -98,6 +99,10 @@ describe('POST /api/v1/plan', () => {
     const base = findDocument(catalog, 'task', 'fruit-counting')!;
     const created = await h.call('POST', '/api/v1/tasks', { body: { ...base, id: 'fruit-counting-impossible', name: 'Fruit counting in 5 ms (demo data)', latencyBudgetMs: 5 } });
     expect(created.status).toBe(201);
+    // The detector, measured for this task too (a new version of the model document).
+    const finder = findDocument(catalog, 'model', 'fruit-finder-a')!;
+    const measured = await h.call('PUT', '/api/v1/models/fruit-finder-a', { body: { ...finder, measuredForTaskIds: [...finder.measuredForTaskIds!, 'fruit-counting-impossible'] } });
+    expect(measured.status, await measured.clone().text()).toBeLessThan(300);
     const res = await planCall({ taskId: 'fruit-counting-impossible', deviceClassId: 'gh-scout-a' });
     expect(res.status).toBe(200);
     const answer = (await res.json()) as PlanAnswer;

@@ -34,7 +34,10 @@ describe('ocellus check', () => {
     for (const p of j.profiles) {
       expect(Object.keys(p).sort()).toEqual(['checks', 'file', 'profile', 'status']);
       expect(p.checks.length).toBeGreaterThanOrEqual(13);
-      for (const c of p.checks) expect(Object.keys(c).sort()).toEqual(['actual', 'code', 'limit', 'message', 'path', 'status', 'unit']);
+      for (const c of p.checks) expect(Object.keys(c).filter((k) => k !== 'figures').sort()).toEqual(['actual', 'code', 'limit', 'message', 'path', 'status', 'unit']);
+      // The combined blur the checks used, in both pixel units.
+      const combined = p.checks.find((c: { code: string }) => c.code === 'blur-over-range');
+      expect(combined.figures.combinedSensorPx).toBeGreaterThan(combined.figures.combinedInputPx);
     }
     const failing = j.profiles.filter((p: { status: string }) => p.status === 'fail').map((p: { profile: string }) => p.profile);
     expect(failing).toEqual(['leaf-inspection-c-cpu', 'leaf-inspection-wide-open']);
@@ -45,7 +48,7 @@ describe('ocellus check', () => {
     expect(cpu.checks.find((c: { code: string }) => c.code === 'latency').status).toBe('pass');
     const wide = j.profiles.find((p: { profile: string }) => p.profile === 'leaf-inspection-wide-open');
     const blur = wide.checks.find((c: { code: string }) => c.code === 'blur-over-range');
-    expect(blur).toMatchObject({ status: 'fail', path: 'camera.fNumber', unit: 'px' });
+    expect(blur).toMatchObject({ status: 'fail', path: 'camera.fNumber', unit: 'input px' });
     expect(blur.message).toContain('depth of field at f/1.8 cannot cover the range');
   });
 
@@ -89,10 +92,10 @@ describe('ocellus cost', () => {
     const r = await ocellus('cost', `${demo}/networks/mobilenet-v1-1.0-224.json`, '--json');
     expect(r.code).toBe(0);
     const j = r.json();
-    expect(Object.keys(j).sort()).toEqual(['layers', 'macs', 'params', 'peak_activation_bytes']);
+    expect(Object.keys(j).sort()).toEqual(['batch_norm_params', 'layers', 'macs', 'params', 'peak_activation_bytes']);
     expect(j.macs).toBe(568_740_352);
     expect(j.params).toBe(4_210_088);
-    expect(Object.keys(j.layers[0]).sort()).toEqual(['id', 'macs', 'op', 'out_shape', 'params']);
+    expect(Object.keys(j.layers[0]).sort()).toEqual(['id', 'input_bytes', 'macs', 'op', 'out_shape', 'output_bytes', 'params', 'weight_bytes']);
     expect(j.layers[0]).toMatchObject({ op: 'conv', out_shape: [32, 112, 112] });
     // Largest layer activations: pw1 reads 32×112×112 and writes 64×112×112 = 1,204,224 elements, 1 byte each at int8.
     expect(j.peak_activation_bytes).toBe(1_204_224);
@@ -109,7 +112,7 @@ describe('ocellus cost', () => {
       '--weight-buffer-kib', '1536', '--activation-buffer-kib', '512', '--json');
     expect(r.code).toBe(0);
     const j = r.json();
-    expect(Object.keys(j).sort()).toEqual(['compute_bound_layers', 'dram_bytes', 'energy_mj', 'latency_ms', 'layers', 'macs', 'params', 'peak_activation_bytes']);
+    expect(Object.keys(j).sort()).toEqual(['batch_norm_params', 'compute_bound_layers', 'dram_bytes', 'energy_mj', 'latency_ms', 'layers', 'macs', 'params', 'peak_activation_bytes']);
     // Compute floor: 76,524,800 MACs / (256 MAC units × 600 MHz) = 0.498 ms (roofline, Williams et al. 2009).
     expect(j.latency_ms).toBeGreaterThanOrEqual(76_524_800 / (256 * 600e6) * 1000 - 1e-9);
     expect(j.energy_mj).toBeGreaterThan(0);

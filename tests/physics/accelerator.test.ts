@@ -180,6 +180,8 @@ describe('frame budget', () => {
     readoutMsPerFrame: 16,
     readoutEnergyPjPerPixel: 100,
     designWavelengthNm: 550,
+    shutter: 'global',
+    fillFactor: 1,
   });
   const isp = ispSchema.parse({ latencyMsPerFrame: 5, energyPjPerPixel: 50 });
 

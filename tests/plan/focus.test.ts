@@ -1,3 +1,4 @@
+import { chainBlurDiameterUm, diffractionCutoffCycPerMm } from '../../src/physics/index.js';
 import { describe, expect, it } from 'vitest';
 import { blurCircleMm } from '../../src/physics/optics.js';
 import {
@@ -48,13 +49,15 @@ describe('focus for a working range', () => {
     expect(startingFocusM(0.05, 0.2, 0.1)).toBe(0.1);
   });
 
-  it('refined by golden-section search on the worst total blur (diffraction included) it stays at 0.48 m', () => {
+  it('refined by golden-section search on the worst combined blur (diffraction and pixel included) it stays at 0.48 m', () => {
     const r = refinedFocusM(0.3, 1.2, 0.1, (s) => worstTotalBlurPx(testTask, testDeviceClass, 2.8, s));
     expect(r.focusM).toBeCloseTo(0.48, 6);
-    // Diffraction adds in quadrature: √(b² + (2.44 λ N)²)/p with b = 0.6 · 36/(2.8·474) mm (REFERENCES.md forms).
+    // Both ends see the disc b = 0.6 · 36/(2.8·474) mm (thin lens); the chain adds diffraction at the working
+    // f-number 2.8·(1 + 6/474) (N_w = N(1 + m)) and the 3 µm pixel, combined as one MTF.
     const defocusUm = 1000 * 0.6 * (36 / (2.8 * 474));
-    const airyUm = 2.44 * 0.55 * 2.8;
-    expect(r.worstBlurPx).toBeCloseTo(Math.hypot(defocusUm, airyUm) / 3, 6);
+    const cutoffCycPerMm = diffractionCutoffCycPerMm(550, 2.8 * (1 + 6 / 474));
+    expect(r.worstBlurPx).toBeCloseTo(chainBlurDiameterUm({ cutoffCycPerMm, defocusBlurUm: defocusUm, pixelApertureUm: 3, motionUm: 0 }) / 3, 6);
+    expect(r.worstBlurPx).toBeGreaterThan(defocusUm / 3);
   });
 
   it('golden-section search finds the minimum of (x − 2)² on [0, 5] (Kiefer 1953)', () => {

@@ -21,7 +21,7 @@ export const demoDeviceClass: DeviceClass = deviceClassSchema.parse({
   lens: { focalLengthMm: 6, fNumberStops: [1.8, 2.8, 4, 5.6, 8], nearestFocusM: 0.1, focusSettleMsPerDioptre: 4, apertureStepMs: 10 },
   sensor: {
     widthPx: 1920, heightPx: 1080, pixelPitchUm: 3, quantumEfficiency: 0.6, fullWellE: 10000, darkNoiseE: 3,
-    gainDnPerE: 0.4, bitDepth: 10, maxAnalogGain: 16, readoutMsPerFrame: 8, readoutEnergyPjPerPixel: 50, designWavelengthNm: 550,
+    gainDnPerE: 0.4, bitDepth: 10, maxAnalogGain: 16, readoutMsPerFrame: 8, readoutEnergyPjPerPixel: 50, designWavelengthNm: 550, shutter: 'global', fillFactor: 1,
   },
   isp: { latencyMsPerFrame: 2, energyPjPerPixel: 20 },
   accelerator: {

@@ -11,7 +11,7 @@ import { createBridge, type Bridge } from '../../src/bus/bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.js';
 import { openStore, type Store } from '../../src/store/index.js';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
-import type { AgentConfig } from '../../device-agent/config.js';
+import { agentSettingsSchema, type AgentConfig } from '../../device-agent/config.js';
 import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
 import { systemClock } from '../../device-agent/clock.js';
 import { demoDeviceClass, keys, tempDir } from './agent-fixtures.js';
@@ -129,11 +129,20 @@ export interface AgentRig {
   logs: string[];
 }
 
+/** Every setting's default, as the agent's schema gives it. */
+function settingDefaults(): Omit<AgentConfig, 'publicKeyPem'> {
+  const { publicKeyPath: _unused, ...defaults } = agentSettingsSchema.parse({
+    deviceId: 'x', deviceClassId: 'x', brokerUrl: 'mqtt://x', password: 'x', serverUrl: 'http://x', publicKeyPath: 'x', dataDir: 'x',
+  });
+  return defaults;
+}
+
 export function agentConfig(deviceId: string, password: string, brokerUrl: string, serverUrl: string, dataDir: string, extra: Partial<AgentConfig> = {}): AgentConfig {
   return {
+    ...settingDefaults(),
     deviceId, deviceClassId: demoDeviceClass.id, brokerUrl, password, serverUrl, publicKeyPem: keys.publicKeyPem, dataDir,
     driver: 'sim', controlHost: '127.0.0.1', controlPort: 0, telemetryIntervalS: 3600, ackTimeoutMs: 500,
-    cacheMaxBytes: 64 * 1024 * 1024, reconnectMs: 200, simTimeScale: 0, simEfficiency: 1, simSeed: 7, ...extra,
+    cacheMaxBytes: 64 * 1024 * 1024, reconnectMs: 200, keepaliveS: 30, simTimeScale: 0, simEfficiency: 1, simSeed: 7, ...extra,
   };
 }
 

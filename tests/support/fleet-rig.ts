@@ -7,6 +7,7 @@ import mqtt, { type MqttClient } from 'mqtt';
 import { createApp, createSigner } from '../../src/api/index.js';
 import { createBridge, type Bridge } from '../../src/bus/bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.js';
+import { createKeepaliveNotes } from '../../src/bus/connection-notes.js';
 import { createRolloutEngine, type RolloutEngine, type RolloutEngineOptions } from '../../src/fleet/rollout/engine.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import type { SignedRelease } from '../../src/protocol/release.js';
@@ -58,9 +59,11 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
   const passwords = new Map<string, string>();
   const agentDirs: Array<{ remove(): void }> = [];
   const agents = new Set<FleetAgent>();
-  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: (id, pw) => store.verifyDeviceCredentials(id, pw) });
+  // Wired as startBus wires them: the broker's keep-alive drops reach the bridge.
+  const keepaliveNotes = createKeepaliveNotes();
+  const broker = await startEmbeddedBroker({ port: 0, serverUser: SERVER_USER, authenticate: (id, pw) => store.verifyDeviceCredentials(id, pw), onKeepaliveMissed: keepaliveNotes.noteMissed });
   const client: MqttClient = await mqtt.connectAsync(broker.url, { ...SERVER_USER, reconnectPeriod: 200, clean: true });
-  const bridge = createBridge({ mqttClient: client, store, clock: { now: () => new Date() } });
+  const bridge = createBridge({ mqttClient: client, store, clock: { now: () => new Date() }, keepaliveNotes });
   const web = await startWeightsServer();
   web.files.set('/api/v1/models/rows-net/weights', rowsWeights.bytes);
   web.files.set('/api/v1/models/leaf-net/weights', leavesWeights.bytes);

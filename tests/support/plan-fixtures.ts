@@ -74,11 +74,12 @@ export const testTask: Task = taskSchema.parse({
 });
 
 const curves = (top: number) => ({
+  blurUnit: 'input-px',
   accuracyVsBlur: [
     { blurPx: 0, accuracy: top },
-    { blurPx: 3, accuracy: top - 0.02 },
-    { blurPx: 8, accuracy: top - 0.15 },
-    { blurPx: 16, accuracy: top - 0.4 },
+    { blurPx: 0.5, accuracy: top - 0.02 },
+    { blurPx: 1.2, accuracy: top - 0.15 },
+    { blurPx: 2.4, accuracy: top - 0.4 },
   ],
   accuracyVsSnr: [
     { snrDb: 5, accuracy: 0.4 },
@@ -91,7 +92,7 @@ function model(id: string, network: Network, precision: 'int8' | 'fp16', top: nu
   return modelSchema.parse({
     kind: 'model', id, name: `Test model ${id} (demo data)`, version: '1', demoData: true,
     sha256: '0'.repeat(64), sizeBytes: 1024, inputWidthPx: 96, inputHeightPx: 96,
-    networkId: network.id, precision, ...curves(top),
+    networkId: network.id, precision, measuredForTaskIds: ['test-fruit', 'test-tight'], ...curves(top),
   });
 }
 

@@ -53,7 +53,7 @@ describe('gain with read noise per gain and an 8-bit network input (EMVA 1288 R4
 });
 
 describe("the robot's NIR flood light (inverse-square, Lambertian reflection)", () => {
-  it('adds signal on scout A (no IR cut) but hardly any on scout B behind its 650 nm IR cut', async () => {
+  it('adds signal on scout A (no IR cut) but hardly any on scout B behind its 700 nm IR cut', async () => {
     const a = await demoInput('low-light-patrol-a');
     const withLight = checkOf(validate(a), 'snr-dark').actual!;
     const { robotLight: _off, ...sceneNoLight } = a.task.scene!;

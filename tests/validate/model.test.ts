@@ -1,4 +1,5 @@
 import { describe, expect, it } from 'vitest';
+import { chainBlurDiameterUm, diffractionCutoffCycPerMm } from '../../src/physics/index.js';
 import { formatReport, validate } from '../../src/validate/index.js';
 import { checkOf, fixture } from '../support/validate-fixtures.js';
 
@@ -15,10 +16,35 @@ const snrCurve = [
 ];
 
 describe('accuracy (model curves, linear interpolation)', () => {
-  it('at the worst blur 1.2114 px the blur curve gives 0.95 − 0.01·1.2114 = 0.9379', () => {
-    const c = checkOf(validate(fixture({ model: { accuracyVsBlur: blurCurve } })), 'accuracy');
+  it('reads the curve at the worst combined blur, in sensor px when the model declares no unit (linear interpolation 0.95 − 0.01·b)', () => {
+    const report = validate(fixture({ model: { accuracyVsBlur: blurCurve } }));
+    const c = checkOf(report, 'accuracy');
+    const b = report.figures.worstBlur.totalPx;
+    expect(b).toBeGreaterThan(1.3);
+    expect(b).toBeLessThan(1.6);
     expect(c.status).toBe('pass');
-    expect(c.actual).toBeCloseTo(0.93789, 4);
+    expect(c.actual).toBeCloseTo(0.95 - 0.01 * b, 9);
+    expect(c.message).toContain('curve read as sensor px since the model declares no blurUnit');
+    expect(c.figures?.combinedSensorPx).toBeCloseTo(b, 12);
+    expect(c.figures?.combinedInputPx).toBeCloseTo(b / 4, 12);
+  });
+  it('with blurUnit "input-px" the same curve is read at the blur after the ×4 downscale', () => {
+    const report = validate(fixture({ model: { accuracyVsBlur: blurCurve, blurUnit: 'input-px' } }));
+    const c = checkOf(report, 'accuracy');
+    expect(c.actual).toBeCloseTo(0.95 - (0.01 * report.figures.worstBlur.totalPx) / 4, 9);
+    expect(c.message).not.toContain('declares no blurUnit');
+  });
+  it('a blur beyond the measured curve fails: the curve says nothing there', () => {
+    const short = [{ blurPx: 0, accuracy: 0.95 }, { blurPx: 1, accuracy: 0.94 }];
+    const c = checkOf(validate(fixture({ model: { accuracyVsBlur: short } })), 'accuracy');
+    expect(c.status).toBe('fail');
+    expect(c.message).toContain('beyond the measured curve');
+  });
+  it('per-task curves replace the model\'s own for that task only', () => {
+    const model = { accuracyVsBlur: blurCurve, measuredForTaskIds: ['test-task', 'other'], taskCurves: [{ taskId: 'test-task', accuracyVsBlur: [{ blurPx: 0, accuracy: 0.99 }, { blurPx: 10, accuracy: 0.99 }] }] };
+    const c = checkOf(validate(fixture({ model })), 'accuracy');
+    expect(c.actual).toBeCloseTo(0.99, 12);
+    expect(c.message).toContain('its curves for task test-task');
   });
   it('with an SNR curve the lower of the two wins: 0.9 + 0.05·0.24006 = 0.91200 at the dark corner\'s 22.40 dB', () => {
     const report = validate(fixture({ model: { accuracyVsBlur: blurCurve, accuracyVsSnr: snrCurve } }));
@@ -91,8 +117,22 @@ describe('the report', () => {
     expect(f.blurCurve.length).toBeGreaterThanOrEqual(64);
     expect(f.blurCurve[0]).toMatchObject({ distanceM: 0.9 });
     expect(f.blurCurve.map((p) => p.distanceM)).toContain(1);
-    expect(f.blurCurve[0]!.diffractionPx).toBeCloseTo(1.0736, 4);
-    for (const p of f.blurCurve) expect(p.totalPx).toBeCloseTo(Math.hypot(p.defocusPx, p.diffractionPx), 9);
+    // Working f-number 4·(1 + 10/990) at 1 m focus (N_w = N(1 + m)); the diffraction part alone is the disc with
+    // its MTF50 at 0.404·ν_c (Goodman eq. 6-32).
+    expect(f.workingFNumber).toBeCloseTo(4 * (1 + 10 / 990), 12);
+    expect(f.blurCurve[0]!.diffractionPx).toBeGreaterThan(0.75);
+    expect(f.blurCurve[0]!.diffractionPx).toBeLessThan(0.8);
+    // At 0.9 m the defocus disc is (100/900)·100/(4·990) mm = 2.806 µm = 0.5612 px (thin lens).
+    expect(f.blurCurve[0]!.defocusPx).toBeCloseTo(0.5612, 4);
+    const cutoff = diffractionCutoffCycPerMm(550, f.workingFNumber);
+    for (const p of f.blurCurve) {
+      expect(p.totalPx).toBeCloseTo(chainBlurDiameterUm({ cutoffCycPerMm: cutoff, defocusBlurUm: p.defocusPx * 5, pixelApertureUm: 5, motionUm: 0 }) / 5, 9);
+      expect(p.totalPx).toBeGreaterThanOrEqual(Math.max(p.defocusPx * 0.95, p.diffractionPx, p.pixelPx));
+      expect(p.totalInputPx).toBeCloseTo(p.totalPx / 4, 12);
+    }
+    expect(f.mtfAtWorst.length).toBeGreaterThan(10);
+    expect(f.mtfAtWorst[0]!.system).toBe(1);
+    expect(f.toleratedBlurUnit).toBe('sensor-px');
     expect(f.latency?.totalMs).toBeCloseTo(17.472, 6);
     expect(f.energy?.totalMj).toBeCloseTo(0.021472, 9);
     expect(f.averagePowerW).toBeCloseTo(0.00064416, 10);

@@ -1,46 +1,70 @@
 import { describe, expect, it } from 'vitest';
+import { chainBlurDiameterUm, diffractionCutoffCycPerMm } from '../../src/physics/index.js';
 import { BLUR_SAMPLES, sampleDistancesM, toleratedBlurPx, validate } from '../../src/validate/index.js';
 import { checkOf, fixture } from '../support/validate-fixtures.js';
 
-// Hand-worked numbers for the fixture (f = 10 mm, N = 4, p = 5 µm, λ = 550 nm):
-//  blur circle b = (|d − s|/d)·f²/(N(s − f)) (REFERENCES.md, thin lens);
-//  Airy diameter 2.44·λ·N = 5.368 µm = 1.0736 px (Born & Wolf §8.5.2);
-//  total = √(b² + airy²)/p (root-sum-square, common practice).
-describe('blur-over-range (thin-lens blur circle + Airy disk in quadrature)', () => {
-  it('focused at 1 m over 0.9–1.1 m the worst total blur is 1.211 px at 0.9 m, within the default 2 px', () => {
-    // b(0.9 m) = (100/900)·100/(4·990) mm = 2.806 µm; √(2.806² + 5.368²)/5 = 1.2114 px.
-    const c = checkOf(validate(fixture()), 'blur-over-range');
+// Figures for the fixture (f = 10 mm, N = 4, p = 5 µm, λ = 550 nm, network 250 px wide on a 1000 px sensor, ×4):
+//  blur circle b = (|d − s|/d)·f²/(N(s − f)) (thin lens, Ray 2002);
+//  working f-number N(1 + f/(s − f)) (thin lens); cutoff 1/(λ·N_w) (Goodman §6.3);
+//  combined blur = the disc with the system MTF50 (physics/mtf, tested against Goodman, Boreman and A&S).
+const chainBlurPx = (defocusUm: number, focusM: number, fNumber = 4, motionUm = 0) =>
+  chainBlurDiameterUm({ cutoffCycPerMm: diffractionCutoffCycPerMm(550, fNumber * (1 + 10 / (focusM * 1000 - 10))), defocusBlurUm: defocusUm, pixelApertureUm: 5, motionUm }) / 5;
+const blurCircleUm = (dM: number, sM: number, fNumber = 4) => ((Math.abs(dM - sM) / dM) * 100 * 1000) / (fNumber * (sM * 1000 - 10));
+
+describe('blur-over-range (the combined image: defocus, diffraction, pixel and motion as one MTF)', () => {
+  it('focused at 1 m over 0.9–1.1 m the worst combined blur is at 0.9 m, within the default 2 input px (common practice)', () => {
+    const report = validate(fixture());
+    const c = checkOf(report, 'blur-over-range');
+    const sensorPx = chainBlurPx(blurCircleUm(0.9, 1), 1);
     expect(c.status).toBe('pass');
-    expect(c.actual).toBeCloseTo(1.2114, 3);
+    expect(report.figures.worstBlur.distanceM).toBe(0.9);
+    expect(c.actual).toBeCloseTo(sensorPx / 4, 9);
     expect(c.limit).toBe(2);
-    expect(c.unit).toBe('px');
-    expect(c.message).toMatch(/worst blur 1\.21 px at 0\.9 m .* is within the 2\.00 px the model tolerates \(0\.789 px to spare\)/);
+    expect(c.unit).toBe('input px');
+    expect(c.figures?.combinedSensorPx).toBeCloseTo(sensorPx, 9);
+    expect(c.figures?.combinedInputPx).toBeCloseTo(sensorPx / 4, 9);
+    expect(c.message).toMatch(/worst combined blur 1\.\d+ sensor px = 0\.\d+ input px after the ×4\.00 downscale at 0\.9 m/);
+    expect(c.message).toContain('the default 2 input px (common practice)');
   });
 
-  it('over 0.5–2 m the worst blur is 5.163 px at 0.5 m; no focus fixes it at f/4, so it points at the f-number', () => {
-    // b(0.5 m) = 1·100/(4·990) mm = 25.25 µm; √(25.25² + 5.368²)/5 = 5.163 px. Best focus 2·0.5·2/2.5 = 0.8 m still gives 3.95 px.
-    const c = checkOf(validate(fixture({ task: { nearDistanceM: 0.5, farDistanceM: 2 } })), 'blur-over-range');
+  it('with a full-width network over 0.5–2 m no focus fixes it at f/4, so it points at the f-number', () => {
+    // b(0.5 m) = 25.25 µm; best focus 2·0.5·2/2.5 = 0.8 m still leaves b(0.5 m) = 18.99 µm, far past 2 px of 5 µm.
+    const c = checkOf(validate(fixture({ task: { nearDistanceM: 0.5, farDistanceM: 2 }, model: { inputWidthPx: 1000 } })), 'blur-over-range');
     expect(c.status).toBe('fail');
-    expect(c.actual).toBeCloseTo(5.1634, 3);
-    expect(c.message).toContain('exceeds the 2.00 px the model tolerates by 3.16 px');
+    expect(c.actual).toBeCloseTo(chainBlurPx(blurCircleUm(0.5, 1), 1), 9);
+    expect(c.actual!).toBeGreaterThan(5);
     expect(c.message).toContain('0.8 m');
     expect(c.path).toBe('camera.fNumber');
   });
 
   it('a misplaced focus that a better focus would fix points at camera.focusDistanceM', () => {
-    // Focused at 2 m: b(0.9 m) = (1100/900)·100/(4·1990) mm → 3.253 px; at 0.99 m (harmonic mean) 1.189 px.
-    const c = checkOf(validate(fixture({ profile: { camera: { focusDistanceM: 2 } } })), 'blur-over-range');
+    const c = checkOf(validate(fixture({ profile: { camera: { focusDistanceM: 2 } }, model: { inputWidthPx: 1000 } })), 'blur-over-range');
     expect(c.status).toBe('fail');
-    expect(c.actual).toBeCloseTo(3.2532, 3);
+    expect(c.actual).toBeCloseTo(chainBlurPx(blurCircleUm(0.9, 2), 2), 9);
     expect(c.path).toBe('camera.focusDistanceM');
-    expect(c.message).toContain('Focusing at 0.99 m would bring the worst blur to 1.19 px');
+    expect(c.message).toMatch(/Focusing at 0\.99 m would bring the worst blur to 1\.\d+ input px/);
   });
 
-  it('when diffraction alone exceeds the tolerance it says so (Airy 2.44·λ·N at f/16 = 21.5 µm = 4.29 px)', () => {
-    const c = checkOf(validate(fixture({ profile: { camera: { fNumber: 16 } } })), 'blur-over-range');
+  it('when diffraction alone exceeds the tolerance it says so (f/16: MTF50 at 0.404·ν_c, a 15.5 µm disc = 3.1 px)', () => {
+    const c = checkOf(validate(fixture({ profile: { camera: { fNumber: 16 } }, model: { inputWidthPx: 1000 } })), 'blur-over-range');
     expect(c.status).toBe('fail');
     expect(c.path).toBe('camera.fNumber');
     expect(c.message).toContain('Diffraction alone');
+  });
+
+  it('motion during the exposure joins the same blur: 1 m/s for 2 ms at 0.9 m is a 4.4 px smear and the check points at the exposure', () => {
+    const c = checkOf(validate(fixture({ task: { maxRelativeSpeedMPerS: 1 }, profile: { camera: { exposureUs: 2000 } }, model: { inputWidthPx: 1000 } })), 'blur-over-range');
+    expect(c.status).toBe('fail');
+    expect(c.actual).toBeCloseTo(chainBlurPx(blurCircleUm(0.9, 1), 1, 4, (2 * 10) / 900 * 1000), 9);
+    expect(c.path).toBe('camera.exposureUs');
+  });
+
+  it('where diffraction dominates the combined blur is below the old root-sum-square of spot diameters (Hopkins 1955, Stokseth 1969)', () => {
+    const report = validate(fixture({ profile: { camera: { fNumber: 11 } } }));
+    for (const p of report.figures.blurCurve) {
+      const rss = Math.hypot(p.defocusPx, (2.44 * 0.55 * 11 * (1 + 10 / 990)) / 5);
+      expect(p.totalPx).toBeLessThan(rss);
+    }
   });
 });
 
@@ -75,8 +99,14 @@ describe('blur tolerance from the accuracy-vs-blur curve (linear interpolation)'
     expect(c.path).toBe('modelId');
     expect(c.message).toContain('never reaches 0.97');
   });
-  it('without a curve the tolerance is 2 px (common practice: one to two pixel pitches, REFERENCES.md)', () => {
-    expect(toleratedBlurPx({}, 0.9).blurPx).toBe(2);
+  it('without a curve the tolerance is 2 px of the network input (common practice: one to two pixel pitches)', () => {
+    expect(toleratedBlurPx({}, 0.9)).toMatchObject({ blurPx: 2, unit: 'input-px' });
+  });
+  it('a curve without blurUnit is read in sensor px, and the basis says so', () => {
+    const t = toleratedBlurPx({ accuracyVsBlur: curve }, 0.9);
+    expect(t.unit).toBe('sensor-px');
+    expect(t.basis).toContain('does not declare blurUnit');
+    expect(toleratedBlurPx({ accuracyVsBlur: curve, blurUnit: 'input-px' }, 0.9).unit).toBe('input-px');
   });
   it('the validator uses it as the blur limit and as the circle of confusion (2.75 px × 5 µm = 0.01375 mm)', () => {
     const report = validate(fixture({ model: { accuracyVsBlur: curve } }));
@@ -129,8 +159,14 @@ describe('motion-blur (v·t·f/(d·p) at the near end, REFERENCES.md)', () => {
     expect(c.actual).toBeCloseTo(2.2222, 3);
     expect(c.limit).toBe(3);
   });
-  it('without a task limit the model tolerance (2 px) applies and 2.22 px fails', () => {
+  it('without a task limit the default tolerance of 2 input px is 8 sensor px after the ×4 downscale, and 2.22 px passes', () => {
     const c = checkOf(validate(fixture({ task: { maxRelativeSpeedMPerS: 1 } })), 'motion-blur');
+    expect(c.status).toBe('pass');
+    expect(c.limit).toBe(8);
+    expect(c.figures?.inputPx).toBeCloseTo(2.2222 / 4, 3);
+  });
+  it('with a full-width network the tolerance is 2 sensor px and 2.22 px fails', () => {
+    const c = checkOf(validate(fixture({ task: { maxRelativeSpeedMPerS: 1 }, model: { inputWidthPx: 1000 } })), 'motion-blur');
     expect(c.status).toBe('fail');
     expect(c.limit).toBe(2);
     expect(c.path).toBe('camera.exposureUs');

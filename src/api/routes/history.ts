@@ -1,7 +1,8 @@
 import type { Context } from 'hono';
 import { INTERVAL_COLUMNS, USAGE_COLUMNS, toCsv } from '../../fleet/history/csv.js';
 import { createHistoryReader, type HistoryInterval, type HistoryWindow } from '../../fleet/history/intervals.js';
-import { historyQuerySchema, resolveWindow, type HistoryQuery } from '../../fleet/queries.js';
+import { deviceHistoryQuerySchema, historyQuerySchema, resolveWindow, type HistoryQuery } from '../../fleet/queries.js';
+import { createRecordingReader } from '../../fleet/history/recording.js';
 import { createUsageReader } from '../../fleet/history/usage.js';
 import { readQuery } from '../body.js';
 import type { AppEnv, ResolvedDeps } from '../context.js';
@@ -17,8 +18,9 @@ function wantsCsv(c: Context<AppEnv>, q: HistoryQuery): boolean {
 export function registerHistoryRoutes(route: Router, deps: ResolvedDeps): void {
   const history = createHistoryReader(deps.store);
   const usage = createUsageReader(deps.store);
+  const recording = createRecordingReader(deps.store, 'ocellus');
 
-  function windowOf(q: HistoryQuery): HistoryWindow {
+  function windowOf(q: Pick<HistoryQuery, 'from' | 'to'>): HistoryWindow {
     const nowMs = deps.clock.now().getTime();
     const w = resolveWindow(q, nowMs);
     if (!w.ok) throw badRequest('invalid history window', [{ path: w.path, message: w.message }]);
@@ -35,12 +37,19 @@ export function registerHistoryRoutes(route: Router, deps: ResolvedDeps): void {
     return c.json({ from: new Date(w.fromMs).toISOString(), to: new Date(w.toMs).toISOString(), intervals });
   }
 
-  route('devices.history', (c) => {
+  route('devices.history', async (c) => {
     const id = c.req.param('id') ?? '';
-    const q = readQuery(c, historyQuerySchema);
+    const q = readQuery(c, deviceHistoryQuerySchema);
     if (!deps.store.devices.get(id)) throw notFound(`device '${id}'`);
     const w = windowOf(q);
-    return answer(c, q, w, history.device(id, w), id);
+    if (q.format === 'mcap') {
+      const bytes = await recording(id, w);
+      return c.body(bytes as Uint8Array<ArrayBuffer>, 200, {
+        'Content-Type': 'application/octet-stream',
+        'Content-Disposition': `attachment; filename="${id}-history.mcap"`,
+      });
+    }
+    return answer(c, { ...q, format: q.format }, w, history.device(id, w), id);
   });
 
   route('history.task', (c) => {

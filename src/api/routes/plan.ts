@@ -44,9 +44,11 @@ function planDocuments(store: Store, body: PlanRequest): PlanDocuments {
     });
   } else {
     const precision = deviceClass?.document.accelerator.precision;
-    models = store.documents.list<Model>('model').filter((m) => m.document.precision === precision);
+    // Models measured for the task (or not saying which tasks they were measured for) of the accelerator's precision.
+    const measuredFor = (m: Model) => m.measuredForTaskIds === undefined || m.measuredForTaskIds.includes(body.taskId);
+    models = store.documents.list<Model>('model').filter((m) => m.document.precision === precision && measuredFor(m.document));
     if (deviceClass && models.length === 0) {
-      issues.push({ path: 'modelIds', message: `no stored model runs ${precision}, the precision of device class '${deviceClass.id}'` });
+      issues.push({ path: 'modelIds', message: `no stored model runs ${precision}, the precision of device class '${deviceClass.id}', and was measured for task '${body.taskId}'` });
     }
   }
   const candidates: PlanDocuments['candidates'] = [];

@@ -25,9 +25,14 @@ export const INTERVAL_COLUMNS = [
   { header: 'start', value: (i: HistoryInterval) => i.start },
   { header: 'end', value: (i: HistoryInterval) => i.end },
   { header: 'reason', value: (i: HistoryInterval) => i.reason },
-  { header: 'causeRolloutId', value: (i: HistoryInterval) => i.cause.rolloutId },
-  { header: 'causeActor', value: (i: HistoryInterval) => i.cause.actor },
-  { header: 'causeAssignment', value: (i: HistoryInterval) => i.cause.assignment },
+  { header: 'causeRolloutId', value: (i: HistoryInterval) => i.cause?.rolloutId },
+  { header: 'causeActor', value: (i: HistoryInterval) => i.cause?.actor },
+  { header: 'causeAssignment', value: (i: HistoryInterval) => i.cause?.assignment },
+  /** 'profile', or 'offline' (task unknown; releaseId is the release it had, lastKnownTask the task it last reported). */
+  { header: 'kind', value: (i: HistoryInterval) => i.kind },
+  /** 'live', or 'after-the-fact': from events the device kept while offline and delivered later (device clock). */
+  { header: 'reported', value: (i: HistoryInterval) => i.reported },
+  { header: 'lastKnownTask', value: (i: HistoryInterval) => i.lastKnownTask },
 ];
 
 /** The columns of a usage export: one row per day and task. */

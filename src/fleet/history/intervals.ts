@@ -1,6 +1,8 @@
+import type { DeviceConnectionRepository } from '../../store/device-connections.js';
 import type { AssignmentRecord } from '../../store/devices.js';
 import type { Store } from '../../store/store.js';
 import type { EventRangeReader, RangeEvent } from '../../store/event-ranges.js';
+import { offlinePeriods, reportedRuns, withOffline } from './offline.js';
 
 /** The server-side change that put an interval's release on the device. */
 export interface IntervalCause {
@@ -14,21 +16,37 @@ export interface IntervalCause {
   assignedAt?: string;
 }
 
-/** One stretch of time during which a device ran one task profile. */
+/**
+ * One stretch of a device's history: either it ran one task profile (kind 'profile'), or the server had
+ * no connection to it and its own events do not say what it ran (kind 'offline': task unknown).
+ */
 export interface HistoryInterval {
+  kind: 'profile' | 'offline';
   deviceId: string;
-  task: string;
-  profileId: string;
-  profileRevision: number;
-  releaseId: string;
+  /** null on an offline interval: the task is unknown. */
+  task: string | null;
+  profileId: string | null;
+  profileRevision: number | null;
+  /** The release it ran; on an offline interval, the release it had applied when it went. */
+  releaseId: string | null;
+  /** On an offline interval: the task the device last reported before it went. */
+  lastKnownTask?: string | null;
   start: string;
-  /** null: still running (no later switch, and the window reaches the present). */
+  /** null: still going (no later switch or reconnection, and the window reaches the present). */
   end: string | null;
-  /** Why the device switched into it (task-switched reason: local, command, release, startup, restore). */
+  /**
+   * Profile: why the device switched into it (task-switched reason: local, command, release, startup, restore).
+   * Offline: how the connection ended (last-will, clean-disconnect, keepalive-missed, found-offline).
+   */
   reason: string;
-  /** Seq of the task-switched event that started it. */
-  seq: number;
-  cause: IntervalCause;
+  /** Seq of the task-switched event that started it; null on an offline interval. */
+  seq: number | null;
+  cause: IntervalCause | null;
+  /**
+   * 'live': the server saw it as it happened; 'after-the-fact': from events the device kept while offline
+   * and delivered later, on the device's own clock.
+   */
+  reported: 'live' | 'after-the-fact';
 }
 
 export interface HistoryWindow {
@@ -78,6 +96,7 @@ function causeOf(releaseId: string, startMs: number, assignments: readonly Assig
 function intervalOf(deviceId: string, e: RangeEvent, start: string, end: string | null, assignments: readonly AssignmentRecord[]): HistoryInterval {
   const body = e.event as { toTask: string; profileId: string; profileRevision: number; releaseId: string; reason: string };
   return {
+    kind: 'profile',
     deviceId,
     task: body.toTask,
     profileId: body.profileId,
@@ -88,6 +107,7 @@ function intervalOf(deviceId: string, e: RangeEvent, start: string, end: string 
     reason: body.reason,
     seq: e.seq,
     cause: causeOf(body.releaseId, Date.parse(start), assignments),
+    reported: 'live',
   };
 }
 
@@ -112,14 +132,34 @@ export function deviceHistory(reader: EventRangeReader, assignments: readonly As
   return starts.map((s, i) => intervalOf(deviceId, s.e, s.start, i + 1 < starts.length ? starts[i + 1]!.start : openEnd, assignments));
 }
 
-export function createHistoryReader(store: Pick<Store, 'eventRanges' | 'devices'>): HistoryReader {
+/**
+ * A device's whole history in a window: its profile intervals, cut where it was offline. A stretch its
+ * delivered events account for stays on the profile (reported after the fact); the rest is offline.
+ */
+export function deviceHistoryWithOffline(
+  reader: EventRangeReader,
+  connections: Pick<DeviceConnectionRepository, 'between' | 'lastBefore'>,
+  assignments: readonly AssignmentRecord[],
+  deviceId: string,
+  w: HistoryWindow,
+): HistoryInterval[] {
+  const fromIso = new Date(w.fromMs).toISOString();
+  const toIso = new Date(w.toMs).toISOString();
+  const periods = offlinePeriods(connections.lastBefore(deviceId, fromIso), connections.between(deviceId, fromIso, toIso));
+  const profile = deviceHistory(reader, assignments, deviceId, w);
+  if (periods.length === 0) return profile;
+  return withOffline(deviceId, profile, periods.map((period) => ({ period, runs: reportedRuns(reader, deviceId, period) })), w);
+}
+
+export function createHistoryReader(store: Pick<Store, 'eventRanges' | 'devices' | 'deviceConnections'>): HistoryReader {
   const reader = store.eventRanges;
-  const one = (deviceId: string, w: HistoryWindow) => deviceHistory(reader, store.devices.assignments(deviceId), deviceId, w);
+  const connections = store.deviceConnections;
+  const one = (deviceId: string, w: HistoryWindow) => deviceHistoryWithOffline(reader, connections, store.devices.assignments(deviceId), deviceId, w);
   const everyDevice = (w: HistoryWindow, keep: (i: HistoryInterval) => boolean) =>
     store.devices.list().flatMap((d) => one(d.id, w).filter(keep));
   return {
     device: one,
-    task: (task, w) => everyDevice(w, (i) => i.task === task),
-    release: (releaseId, w) => everyDevice(w, (i) => i.releaseId === releaseId),
+    task: (task, w) => everyDevice(w, (i) => i.kind === 'profile' && i.task === task),
+    release: (releaseId, w) => everyDevice(w, (i) => i.kind === 'profile' && i.releaseId === releaseId),
   };
 }

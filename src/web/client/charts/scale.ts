@@ -63,3 +63,16 @@ export const OKABE_ITO = {
 
 /** Colours for things in a row (lanes, profiles), in an order that keeps neighbours apart. */
 export const SERIES_COLOURS = [OKABE_ITO.blue, OKABE_ITO.orange, OKABE_ITO.bluishGreen, OKABE_ITO.reddishPurple, OKABE_ITO.skyBlue, OKABE_ITO.vermillion, OKABE_ITO.yellow];
+
+/**
+ * A profile's colour, the same on every page: picked from SERIES_COLOURS by a hash of its id (FNV-1a, 32 bit),
+ * not by its place in a list that changes with what a page shows.
+ */
+export function colourForId(id: string): string {
+  let h = 0x811c9dc5;
+  for (let i = 0; i < id.length; i++) {
+    h ^= id.charCodeAt(i);
+    h = Math.imul(h, 0x01000193) >>> 0;
+  }
+  return SERIES_COLOURS[h % SERIES_COLOURS.length]!;
+}

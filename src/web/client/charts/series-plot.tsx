@@ -1,4 +1,4 @@
-import { clockTime, num } from '../format.js';
+import { clockTime, dateTime, num } from '../format.js';
 import { linearScale, OKABE_ITO } from './scale.js';
 import { timeTicks } from './time-axis.js';
 
@@ -63,15 +63,17 @@ export function SeriesPlot({ title, unit, points, fromMs, toMs }: Props) {
           </text>
         ))}
         <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
-        <path d={steps(inWindow, 'predicted', x, y, toMs)} fill="none" stroke={OKABE_ITO.orange} stroke-width="2" />
-        <path d={steps(inWindow, 'calibrated', x, y, toMs)} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" />
         {inWindow.map((p) => (
           <rect x={x(p.atMs) - 3} y={y(p.measured) - 3} width={6} height={6} fill={OKABE_ITO.blue}>
             <title>
-              {new Date(p.atMs).toLocaleString()}: measured {num(p.measured)} {unit}, predicted {num(p.predicted)} {unit}
+              {dateTime(new Date(p.atMs).toISOString())}: measured {num(p.measured)} {unit}, predicted {num(p.predicted)} {unit}
             </title>
           </rect>
         ))}
+        {/* Drawn over the markers, on a white casing, so the prediction stays visible where measurements crowd it. */}
+        <path d={steps(inWindow, 'predicted', x, y, toMs)} fill="none" stroke="#ffffff" stroke-width="5" data-series="predicted-casing" />
+        <path d={steps(inWindow, 'predicted', x, y, toMs)} fill="none" stroke={OKABE_ITO.orange} stroke-width="2.5" data-series="predicted" />
+        <path d={steps(inWindow, 'calibrated', x, y, toMs)} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="2" stroke-dasharray="6 4" data-series="calibrated" />
         {inWindow.length === 0 && (
           <text x={(M.left + W) / 2} y={H / 2} text-anchor="middle" class="tick">
             no telemetry in this window

@@ -23,3 +23,15 @@ export function zoomWindow(fromMs: number, toMs: number, factor: number, centreM
   const start = centreMs - span * ratio;
   return [Math.round(start), Math.round(start + span)];
 }
+
+/** The shortest window a device page opens on. */
+export const MIN_FITTED_SPAN_MS = 10_000;
+
+/**
+ * The window a device page opens on: from a little before the device was enrolled to now, so a young
+ * device's history fills the chart, but at least MIN_FITTED_SPAN_MS and at most a day.
+ */
+export function fittedWindow(sinceMs: number, nowMs: number): { fromMs: number; toMs: number } {
+  const span = Math.min(86_400_000, Math.max(MIN_FITTED_SPAN_MS, (nowMs - sinceMs) * 1.05));
+  return { fromMs: Math.round(nowMs - span), toMs: nowMs };
+}

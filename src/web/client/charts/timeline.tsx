@@ -1,19 +1,25 @@
 import { useRef, useState } from 'preact/hooks';
 import { clockTime, dateTime, duration } from '../format.js';
-import { linearScale, SERIES_COLOURS } from './scale.js';
+import { colourForId, linearScale } from './scale.js';
 import { timeTicks } from './time-axis.js';
 
 export interface TimelineInterval {
-  task: string;
-  profileId: string;
-  profileRevision: number;
-  releaseId: string;
+  /** 'offline': the server had no connection and the robot's own events do not say what it ran. */
+  kind: 'profile' | 'offline';
+  task: string | null;
+  profileId: string | null;
+  profileRevision: number | null;
+  /** On an offline interval: the release it had applied when it went. */
+  releaseId: string | null;
+  lastKnownTask?: string | null;
   start: string;
   end: string | null;
   reason: string;
-  /** Seq of the task-switched event that started it: unique per device. */
-  seq: number;
-  cause?: { rolloutId?: string; actor?: string; assignment?: string };
+  /** Seq of the task-switched event that started it; null on an offline interval. */
+  seq: number | null;
+  cause?: { rolloutId?: string; actor?: string; assignment?: string } | null;
+  /** 'after-the-fact': from events the robot kept while offline and delivered later, on its own clock. */
+  reported: 'live' | 'after-the-fact';
 }
 
 export interface TimelineMark {
@@ -46,8 +52,22 @@ const SWITCH_REASONS: Record<string, string> = {
   restore: 'restored after a failed switch',
 };
 
-function colourOf(key: string, keys: string[]): string {
-  return SERIES_COLOURS[keys.indexOf(key) % SERIES_COLOURS.length]!;
+const OFFLINE_REASONS: Record<string, string> = {
+  'last-will': 'connection lost (the broker published its last will)',
+  'clean-disconnect': 'the agent shut down',
+  'keepalive-missed': 'nothing heard within 1.5 × its keep-alive',
+  'found-offline': 'found offline when the server started',
+};
+
+const OFFLINE_LANE = 'offline';
+
+/** One keyboard stop for the whole chart: arrow keys move between its items in time order. */
+function nextIndex(key: string, at: number, count: number): number | null {
+  if (key === 'ArrowRight' || key === 'ArrowDown') return Math.min(count - 1, at + 1);
+  if (key === 'ArrowLeft' || key === 'ArrowUp') return Math.max(0, at - 1);
+  if (key === 'Home') return 0;
+  if (key === 'End') return count - 1;
+  return null;
 }
 
 /** Light colours get dark text; the rest white (Okabe–Ito yellow, sky blue and orange are light). */
@@ -57,11 +77,15 @@ function textOn(colour: string): string {
 
 /**
  * The profiles a device ran, one lane per task: each bar a stretch on one profile revision, coloured by
- * profile and labelled when wide enough. Bars are focusable; hover or focus shows the details.
+ * profile (the same colour on every page) and labelled when wide enough; stretches the robot reported
+ * after the fact are hatched, time offline sits on its own lane. The chart is one Tab stop: arrow keys,
+ * Home and End move between bars and event marks in time order; hover or focus shows the details.
  */
 export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Props) {
-  const tasks = [...new Set(intervals.map((i) => i.task))].sort();
-  const profiles = [...new Set(intervals.map((i) => `${i.profileId}`))].sort();
+  const tasks = [...new Set(intervals.filter((i) => i.kind === 'profile').map((i) => i.task ?? ''))].sort();
+  if (intervals.some((i) => i.kind === 'offline')) tasks.push(OFFLINE_LANE);
+  const profiles = [...new Set(intervals.filter((i) => i.kind === 'profile').map((i) => `${i.profileId}`))].sort();
+  const [focusAt, setFocusAt] = useState(0);
   const lanesH = Math.max(1, tasks.length) * LANE_H;
   const H = M.top + lanesH + MARK_LANE_H + M.bottom;
   const x = linearScale([fromMs, toMs], [M.left, W - M.right]);
@@ -83,7 +107,22 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
   }
 
   const clamp = (px: number) => Math.min(W - M.right, Math.max(M.left, px));
-  const summary = `${intervals.length} profile intervals on ${tasks.length} task lanes between ${dateTime(new Date(fromMs).toISOString())} and ${dateTime(new Date(toMs).toISOString())}.`;
+  const visible = intervals
+    .map((iv) => ({ iv, s: Math.max(fromMs, Date.parse(iv.start)), e: Math.min(toMs, iv.end === null ? nowMs : Date.parse(iv.end)) }))
+    .filter((v) => v.e > v.s)
+    .sort((a, b) => a.s - b.s);
+  const shownMarks = marks.filter((m) => m.atMs >= fromMs && m.atMs <= toMs).sort((a, b) => a.atMs - b.atMs);
+  const itemCount = visible.length + shownMarks.length;
+  const current = Math.min(focusAt, Math.max(0, itemCount - 1));
+  function onKeyDown(e: KeyboardEvent) {
+    const to = nextIndex(e.key, current, itemCount);
+    if (to === null || itemCount === 0) return;
+    e.preventDefault();
+    setFocusAt(to);
+    (svgRef.current?.querySelector(`[data-item="${to}"]`) as SVGGElement | null)?.focus();
+  }
+  const offlineCount = intervals.filter((i) => i.kind === 'offline').length;
+  const summary = `${intervals.length - offlineCount} profile interval${intervals.length - offlineCount === 1 ? '' : 's'}${offlineCount ? ` and ${offlineCount} offline` : ''} on ${tasks.length} lane${tasks.length === 1 ? '' : 's'} between ${dateTime(new Date(fromMs).toISOString())} and ${dateTime(new Date(toMs).toISOString())}.`;
 
   return (
     <div class="timeline">
@@ -93,6 +132,7 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
         class="chart-svg timeline-svg"
         role="group"
         aria-label={summary}
+        onKeyDown={onKeyDown}
         onPointerDown={(e) => {
           if ((e.target as Element).closest('[data-interval]')) return;
           const px = clamp(svgX(e.clientX));
@@ -109,6 +149,11 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
           setDrag(null);
         }}
       >
+        <defs>
+          <pattern id="hatch" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">
+            <line x1="0" y1="0" x2="0" y2="6" stroke="#ffffff" stroke-width="2" stroke-opacity="0.7" />
+          </pattern>
+        </defs>
         {ticks.map((t) => (
           <g>
             <line x1={x(t)} x2={x(t)} y1={M.top} y2={M.top + lanesH + MARK_LANE_H} class="gridline" />
@@ -133,55 +178,78 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
         <text x={M.left - 8} y={M.top + lanesH + MARK_LANE_H / 2 + 4} text-anchor="end" class="lane-label">
           events
         </text>
-        {intervals.map((iv) => {
-          const s = Math.max(fromMs, Date.parse(iv.start));
-          const e = Math.min(toMs, iv.end === null ? nowMs : Date.parse(iv.end));
-          if (e <= s) return null;
-          const lane = tasks.indexOf(iv.task);
+        {visible.map(({ iv, s, e }, k) => {
+          const offline = iv.kind === 'offline';
+          const lane = tasks.indexOf(offline ? OFFLINE_LANE : (iv.task ?? ''));
           const x0 = x(s);
           const w = Math.max(2, x(e) - x0);
-          const fill = colourOf(iv.profileId, profiles);
-          const label = `${iv.profileId} r${iv.profileRevision}`;
-          const text = [
-            `${iv.task}: ${iv.profileId} revision ${iv.profileRevision}`,
-            `release ${iv.releaseId}`,
-            `${dateTime(iv.start)} → ${iv.end ? dateTime(iv.end) : 'still running'} (${duration(e - Date.parse(iv.start))})`,
-            iv.reason === 'release'
-              ? `switched by a new release${iv.cause?.rolloutId ? ` (rollout ${iv.cause.rolloutId})` : ''}${iv.cause?.actor ? `, assigned by ${iv.cause.actor}` : ''}`
-              : `switched: ${SWITCH_REASONS[iv.reason] ?? iv.reason}`,
-          ];
+          const fill = offline ? '#6b7280' : colourForId(iv.profileId ?? '');
+          const late = iv.reported === 'after-the-fact';
+          const label = offline ? 'offline' : `${iv.profileId} r${iv.profileRevision}`;
+          const span = `${dateTime(iv.start)} → ${iv.end ? dateTime(iv.end) : offline ? 'still offline' : 'still running'} (${duration(e - Date.parse(iv.start))})`;
+          const text = offline
+            ? [
+                'offline: task unknown',
+                span,
+                `why: ${OFFLINE_REASONS[iv.reason] ?? iv.reason}`,
+                `last known task ${iv.lastKnownTask ?? 'none'}, release ${iv.releaseId ?? 'none'}`,
+              ]
+            : [
+                `${iv.task}: ${iv.profileId} revision ${iv.profileRevision}`,
+                `release ${iv.releaseId}`,
+                span,
+                iv.reason === 'release'
+                  ? `switched by a new release${iv.cause?.rolloutId ? ` (rollout ${iv.cause.rolloutId})` : ''}${iv.cause?.actor ? `, assigned by ${iv.cause.actor}` : ''}`
+                  : `switched: ${SWITCH_REASONS[iv.reason] ?? iv.reason}`,
+                ...(late ? ['reported after the fact: the robot was offline and sent this later (its own clock)'] : []),
+              ];
           const show = () => setHover({ text, xPct: ((x0 + w / 2) / W) * 100, yPx: toBoxPx(M.top + lane * LANE_H) });
           return (
             <g
-              data-interval={`${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.releaseId}`}
-              data-seq={iv.seq}
-              tabIndex={0}
+              data-interval={offline ? 'offline' : `${iv.task}|${iv.profileId}|${iv.profileRevision}|${iv.releaseId}`}
+              data-kind={iv.kind}
+              data-reported={iv.reported}
+              data-start={iv.start}
+              data-end={iv.end ?? ''}
+              {...(iv.seq !== null ? { 'data-seq': iv.seq } : {})}
+              data-item={k}
+              tabindex={k === current ? 0 : -1}
               role="img"
               aria-label={text.join('; ')}
-              class="interval"
+              class={`interval${late ? ' interval-late' : ''}${offline ? ' interval-offline' : ''}`}
               onPointerEnter={show}
               onPointerLeave={() => setHover(null)}
-              onFocus={show}
+              onFocus={() => (setFocusAt(k), show())}
               onBlur={() => setHover(null)}
             >
-              <rect x={x0} y={M.top + lane * LANE_H + 3} width={w} height={LANE_H - 6} rx={3} fill={fill} />
+              <rect x={x0} y={M.top + lane * LANE_H + 3} width={w} height={LANE_H - 6} rx={3} fill={fill} fill-opacity={late ? 0.55 : 1} />
+              {(late || offline) && <rect x={x0} y={M.top + lane * LANE_H + 3} width={w} height={LANE_H - 6} rx={3} fill="url(#hatch)" />}
               {w > label.length * 7 + 8 && (
-                <text x={x0 + 5} y={M.top + lane * LANE_H + LANE_H / 2 + 4} class="interval-label" fill={textOn(fill)}>
+                <text x={x0 + 5} y={M.top + lane * LANE_H + LANE_H / 2 + 4} class="interval-label" fill={late ? '#1d2327' : textOn(fill)}>
                   {label}
                 </text>
               )}
             </g>
           );
         })}
-        {marks
-          .filter((m) => m.atMs >= fromMs && m.atMs <= toMs)
-          .map((m) => {
+        {shownMarks.map((m, j) => {
+            const k = visible.length + j;
             const cx = x(m.atMs);
             const cy = M.top + lanesH + MARK_LANE_H / 2;
             const text = [`${m.label}`, dateTime(new Date(m.atMs).toISOString())];
             const show = () => setHover({ text, xPct: (cx / W) * 100, yPx: toBoxPx(cy - 8) });
             return (
-              <g tabIndex={0} role="img" aria-label={text.join(', ')} class="mark" onPointerEnter={show} onPointerLeave={() => setHover(null)} onFocus={show} onBlur={() => setHover(null)}>
+              <g
+                data-item={k}
+                tabindex={k === current ? 0 : -1}
+                role="img"
+                aria-label={text.join(', ')}
+                class="mark"
+                onPointerEnter={show}
+                onPointerLeave={() => setHover(null)}
+                onFocus={() => (setFocusAt(k), show())}
+                onBlur={() => setHover(null)}
+              >
                 <circle cx={cx} cy={cy} r={7} fill={MARK_COLOURS[m.kind]} />
                 <text x={cx} y={cy + 4} text-anchor="middle" class="mark-icon">
                   {MARK_ICONS[m.kind]}
@@ -199,10 +267,20 @@ export function Timeline({ intervals, marks, fromMs, toMs, nowMs, onSelect }: Pr
       <ul class="legend">
         {profiles.map((p) => (
           <li>
-            <span class="swatch" style={{ background: colourOf(p, profiles) }} aria-hidden="true" />
+            <span class="swatch" style={{ background: colourForId(p) }} aria-hidden="true" />
             {p}
           </li>
         ))}
+        {intervals.some((i) => i.reported === 'after-the-fact') && (
+          <li>
+            <span class="swatch swatch-late" aria-hidden="true" /> hatched: reported after the fact (robot's clock)
+          </li>
+        )}
+        {offlineCount > 0 && (
+          <li>
+            <span class="swatch swatch-offline" aria-hidden="true" /> offline: task unknown
+          </li>
+        )}
       </ul>
     </div>
   );

@@ -1,6 +1,6 @@
-import { useState } from 'preact/hooks';
+import { useEffect, useState } from 'preact/hooks';
 import { Timeline } from '../charts/timeline.js';
-import { zoomWindow } from '../charts/time-axis.js';
+import { fittedWindow, zoomWindow } from '../charts/time-axis.js';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { ago, dateTime } from '../format.js';
 import { href } from '../router.js';
@@ -20,13 +20,20 @@ const PRESETS: Array<{ label: string; spanMs: number }> = [
 /** One robot: what it reports, the profiles it ran over a chosen window, its events, measured against predicted. */
 export function DevicePage({ deviceId }: { deviceId: string }) {
   const { api, can } = useSession();
-  const [win, setWin] = useState<{ fromMs: number; toMs: number }>(() => {
+  const [win, setWinState] = useState<{ fromMs: number; toMs: number }>(() => {
     const now = Date.now();
     return { fromMs: now - 86_400_000, toMs: now };
   });
+  // Until the person picks a window, it is fitted to the device's life so far (from its enrolment to now).
+  const [fitted, setFitted] = useState(true);
+  const setWin: typeof setWinState = (next) => {
+    setFitted(false);
+    setWinState(next);
+  };
   const device = useLoad(() => api.get<DeviceDetail>(`/devices/${encodeURIComponent(deviceId)}`), [deviceId]);
   const history = useLoad(
-    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: new Date(win.toMs).toISOString() }),
+    // A window that ends at the present asks without 'to': the server's now, so what still runs (or is still offline) has no end.
+    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: win.toMs >= Date.now() - 5_000 ? undefined : new Date(win.toMs).toISOString() }),
     [deviceId, win.fromMs, win.toMs],
   );
   const events = useLoad(
@@ -35,10 +42,15 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
   );
   const mine = (c: { kind: string; deviceIds?: string[]; path?: string }) =>
     c.kind === 'devices' ? (c.deviceIds ?? []).includes(deviceId) : (c.path ?? '').includes(deviceId) || (c.path ?? '').includes('/rollouts');
+  const enrolledAt = device.data?.createdAt;
+  useEffect(() => {
+    if (fitted && enrolledAt) setWinState(fittedWindow(Date.parse(enrolledAt), Date.now()));
+  }, [enrolledAt]);
   useLiveChanges(() => {
     device.reload();
     // Follow the present when the window ends at it, so a live robot's newest stretch shows.
-    if (win.toMs >= Date.now() - 60_000) setWin((w) => ({ fromMs: w.fromMs + (Date.now() - w.toMs), toMs: Date.now() }));
+    if (fitted && enrolledAt) setWinState(fittedWindow(Date.parse(enrolledAt), Date.now()));
+    else if (win.toMs >= Date.now() - 60_000) setWinState((w) => ({ fromMs: w.fromMs + (Date.now() - w.toMs), toMs: Date.now() }));
     else {
       history.reload();
       events.reload();
@@ -79,8 +91,11 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
             <dd>{d.tags.length ? d.tags.map((t) => <span class="tag">{t}</span>) : '—'}</dd>
           </div>
           <div>
-            <dt>Active task</dt>
-            <dd>{s?.activeTask ?? '—'}</dd>
+            <dt>{d.online ? 'Active task' : 'Last known task'}</dt>
+            <dd>
+              {s?.activeTask ?? '—'}
+              {s?.profileId ? <span class="muted small"> {s.profileId} r{s.profileRevision}</span> : null}
+            </dd>
           </div>
           <div>
             <dt>Applied release</dt>
@@ -118,6 +133,9 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
       )}
       <h2>Profiles over time</h2>
       <div class="toolbar" role="toolbar" aria-label="Timeline window">
+        <button type="button" class="btn btn-small" aria-pressed={fitted} onClick={() => (setFitted(true), setWinState(fittedWindow(Date.parse(d.createdAt), Date.now())))}>
+          Since enrolment
+        </button>
         {PRESETS.map((p) => (
           <button type="button" class="btn btn-small" onClick={() => setWin({ fromMs: Date.now() - p.spanMs, toMs: Date.now() })}>
             {p.label}

@@ -52,6 +52,25 @@ function PendingCell({ d }: { d: DeviceListItem }) {
 }
 
 /** Every device with what it runs and what is on its way to it; refreshed live as devices report. */
+/** Online: the task it runs and the profile revision; offline: the task it last reported, said as such. */
+function TaskCell({ d }: { d: DeviceListItem }) {
+  const r = d.reportedState;
+  if (!r?.activeTask) return <span class="muted">—</span>;
+  const profile = r.profileId ? (
+    <span class="muted small nowrap">
+      {' '}
+      {r.profileId} r{r.profileRevision}
+    </span>
+  ) : null;
+  if (d.online) return <span data-task="active">{r.activeTask}{profile}</span>;
+  return (
+    <span data-task="last-known" class="muted">
+      last known task: {r.activeTask}
+      {profile}
+    </span>
+  );
+}
+
 export function FleetPage() {
   const { api } = useSession();
   const [deviceClass, setDeviceClass] = useState('');
@@ -79,7 +98,7 @@ export function FleetPage() {
       <div class="page-head">
         <h1 id="fleet-title">Fleet</h1>
         <p class="muted">
-          {all.length} devices, {onlineCount} online. Rows update as robots report.
+          {all.length} device{all.length === 1 ? "" : "s"}, {onlineCount} online. Rows update as robots report.
         </p>
       </div>
       <form class="filters" onSubmit={(e) => e.preventDefault()} aria-label="Filter devices">
@@ -126,7 +145,7 @@ export function FleetPage() {
                 <th scope="col">Class</th>
                 <th scope="col">Tags</th>
                 <th scope="col">Connection</th>
-                <th scope="col">Active task</th>
+                <th scope="col">Task (profile revision)</th>
                 <th scope="col">Applied release</th>
                 <th scope="col">On its way</th>
                 <th scope="col">Last heard</th>
@@ -147,7 +166,9 @@ export function FleetPage() {
                   <td>
                     <OnlineBadge online={d.online} />
                   </td>
-                  <td>{d.reportedState?.activeTask ?? <span class="muted">—</span>}</td>
+                  <td>
+                    <TaskCell d={d} />
+                  </td>
                   <td>
                     <ReleaseCell d={d} />
                   </td>
