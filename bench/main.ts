@@ -10,6 +10,8 @@ const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   planner: () => import('./planner.js'),
   ingest: () => import('./ingest.js'),
   agent: () => import('./agent.js'),
+  import: () => import('./import.js'),
+  tolerance: () => import('./tolerance.js'),
 };
 
 async function main(names: string[]): Promise<number> {

@@ -14,6 +14,7 @@ import { fileURLToPath } from 'node:url';
 import mqtt, { type MqttClient } from 'mqtt';
 import { createBridge } from '../src/bus/bridge.js';
 import { startEmbeddedBroker } from '../src/bus/broker.js';
+import { createCalibrationEngine } from '../src/fleet/calibration/engine.js';
 import { createRolloutEngine } from '../src/fleet/rollout/engine.js';
 import { createRolloutService } from '../src/fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../src/fleet/rollout/spec.js';
@@ -182,10 +183,11 @@ export async function measure(n: number): Promise<BenchFigure> {
     await until(() => bridge.deviceStates.countOnline() === n, 'every device online in the store', 120_000, 20);
     const engine = createRolloutEngine({
       store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener),
-      tickMs: 20, calibrationEveryMs: 3_600_000,
+      calibration: createCalibrationEngine({ store, clock: { now: () => new Date() } }),
+      tickMs: 20,
     });
     const service = createRolloutService(store);
-    await engine.tick(); // the first pass refreshes calibration and drift: not part of a rollout
+    await engine.tick();
     engine.start();
     const statusOf = sqliteHandle(store).prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
     const values: number[] = [];

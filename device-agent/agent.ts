@@ -173,7 +173,7 @@ export function createAgent(deps: AgentDeps): Agent {
         restoring,
         startControlServer(endpoint, {
           setTask: (task) => runner!.setTask(task, 'local'),
-          setMotion: (moving) => (runner!.setMotion(moving), { status: 200, body: { ok: true, moving } }),
+          setMotion: (moving) => runner!.setMotion(moving),
           state: () => buildState(link?.connected() ?? false),
         }),
       ]);

@@ -1,13 +1,14 @@
 import { existsSync, unlinkSync } from 'node:fs';
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import { z } from 'zod';
+import type { TaskResult } from './profile-runner.js';
 
 /** Where the local control endpoint listens: a loopback TCP port, or a Unix socket. */
 export type ControlEndpoint = { kind: 'tcp'; host: string; port: number } | { kind: 'unix'; socketPath: string };
 
 export interface ControlHandlers {
-  setTask(task: string): Promise<{ status: number; body: unknown }>;
-  setMotion(moving: boolean): { status: number; body: unknown };
+  setTask(task: string): Promise<TaskResult>;
+  setMotion(moving: boolean): void;
   state(): unknown;
 }
 
@@ -55,12 +56,18 @@ async function handle(handlers: ControlHandlers, req: IncomingMessage, res: Serv
     const parsed = taskBody.safeParse(body.value);
     if (!parsed.success) return reply(res, 400, { ok: false, error: `${route}: ${parsed.error.issues[0]!.path.join('.') || '(root)'}: ${parsed.error.issues[0]!.message}` });
     const result = await handlers.setTask(parsed.data.task);
-    return reply(res, result.status, result.body);
+    return reply(res, taskStatus(result), result);
   }
   const parsed = motionBody.safeParse(body.value);
   if (!parsed.success) return reply(res, 400, { ok: false, error: `${route}: ${parsed.error.issues[0]!.path.join('.') || '(root)'}: ${parsed.error.issues[0]!.message}` });
-  const result = handlers.setMotion(parsed.data.moving);
-  return reply(res, result.status, result.body);
+  handlers.setMotion(parsed.data.moving);
+  return reply(res, 200, { ok: true, moving: parsed.data.moving });
+}
+
+/** A task switch's result as an HTTP status: no release yet is a conflict, an unknown task not found, a failed switch the device's fault. */
+function taskStatus(result: TaskResult): number {
+  if (result.ok) return 200;
+  return result.code === 'no-release-applied' ? 409 : result.code === 'unknown-task' ? 404 : 500;
 }
 
 /**

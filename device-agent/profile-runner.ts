@@ -30,7 +30,14 @@ export interface RunnerView {
   refused: { releaseId: string | null; reason: string } | null;
 }
 
-export type TaskResult = { status: number; body: { ok: boolean; [k: string]: unknown } };
+/**
+ * What a task switch did: switched (or was already running it), or why not. A domain result: the control
+ * endpoint (control-server.ts) decides what it means in HTTP.
+ */
+export type TaskResult =
+  | { ok: true; task: string; unchanged?: true; overheadMs: number; actuationMs: number; toolMs?: number }
+  | { ok: false; code: 'no-release-applied' | 'unknown-task'; error: string }
+  | { ok: false; code: 'switch-failed'; task: string; step: string; error: string; restored: boolean };
 
 interface Pending { release: Release; raw: unknown; ready: boolean; reason: string; deferReported: boolean; retryMs: number }
 
@@ -212,20 +219,20 @@ export function createProfileRunner(deps: RunnerDeps) {
     setTask: function setTask(task: string, reason: 'local' | 'command', report = reason === 'command'): Promise<TaskResult> {
       return exclusive(async (): Promise<TaskResult> => {
         const t0 = clock.monotonicMs();
-        if (!applied) return { status: 409, body: { ok: false, error: 'no release is applied yet, so there is no task to switch to' } };
+        if (!applied) return { ok: false, code: 'no-release-applied', error: 'no release is applied yet, so there is no task to switch to' };
         if (!applied.release.tasks[task]) {
           const error = `task ${task} is not in release ${applied.release.id}; it has: ${Object.keys(applied.release.tasks).join(', ')}`;
           if (report) deps.emit({ type: 'switch-failed', toTask: clip(task, 64), step: 'select-task', error, restored: true });
-          return { status: 404, body: { ok: false, error } };
+          return { ok: false, code: 'unknown-task', error };
         }
-        if (task === activeTask && running?.taskName === task) return { status: 200, body: { ok: true, task, unchanged: true, overheadMs: 0, actuationMs: 0 } };
+        if (task === activeTask && running?.taskName === task) return { ok: true, task, unchanged: true, overheadMs: 0, actuationMs: 0 };
         const to = target(applied.release, task);
         const outcome = await switchProfile(driver, running, to, clock);
         const overheadMs = Math.max(0, clock.monotonicMs() - t0 - outcome.actuationMs);
         if (!outcome.ok) {
           deps.emit({ type: 'switch-failed', toTask: task, step: outcome.step, error: clip(outcome.error, 2000), restored: outcome.restored });
           deps.changed();
-          return { status: 500, body: { ok: false, task, step: outcome.step, error: outcome.error, restored: outcome.restored } };
+          return { ok: false, code: 'switch-failed', task, step: outcome.step, error: outcome.error, restored: outcome.restored };
         }
         const fromTask = activeTask;
         activeTask = task;
@@ -233,7 +240,7 @@ export function createProfileRunner(deps: RunnerDeps) {
         switched(fromTask, to, reason, overheadMs, outcome.actuationMs);
         deps.releases.saveTask(applied.release.id, task);
         deps.changed();
-        return { status: 200, body: { ok: true, task, overheadMs, actuationMs: outcome.actuationMs, toolMs: outcome.toolMs } };
+        return { ok: true, task, overheadMs, actuationMs: outcome.actuationMs, toolMs: outcome.toolMs };
       });
     },
 

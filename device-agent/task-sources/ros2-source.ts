@@ -76,8 +76,8 @@ export function createRos2TaskSource(o: Ros2SourceOptions, roslib: Roslib): Task
     const task = msg.data;
     void handlers.setTask(task).then(
       (r) => {
-        lastTaskRefusal = r.body.ok ? null : { task, error: String(r.body.error ?? 'refused') };
-        if (!r.body.ok) handlers.log(`ros2: task ${task} from ${o.taskTopic} refused: ${lastTaskRefusal!.error}`);
+        lastTaskRefusal = r.ok ? null : { task, error: r.error };
+        if (!r.ok) handlers.log(`ros2: task ${task} from ${o.taskTopic} refused: ${lastTaskRefusal!.error}`);
         publishStatus();
       },
       (e: unknown) => handlers.log(`ros2: task ${task} failed: ${(e as Error).message}`),

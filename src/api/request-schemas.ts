@@ -3,23 +3,6 @@ import { idSchema } from '../schema/common.js';
 import { isValidDeviceId } from '../protocol/topics.js';
 import { ROLES } from '../store/tokens.js';
 
-/** Task names inside a release: the same slug rules as ids, so they are safe in topics and file names. */
-export const taskNameSchema = idSchema;
-
-export const releaseRequestSchema = z
-  .strictObject({
-    deviceClassId: idSchema,
-    tasks: z
-      .record(taskNameSchema, z.strictObject({ profileId: idSchema, revision: z.number().int().positive() }))
-      .refine((t) => Object.keys(t).length > 0, { message: 'a release needs at least one task' })
-      .refine((t) => Object.keys(t).length <= 64, { message: 'a release holds at most 64 tasks' }),
-    defaultTask: taskNameSchema,
-    applyPolicy: z.enum(['immediate', 'when-idle']).default('when-idle'),
-    override: z.strictObject({ reason: z.string().trim().min(1, 'give the reason for overriding failed checks').max(2000) }).optional(),
-  })
-  .refine((r) => Object.hasOwn(r.tasks, r.defaultTask), { message: 'defaultTask must be one of the tasks', path: ['defaultTask'] });
-export type ReleaseRequest = z.infer<typeof releaseRequestSchema>;
-
 export const tagSchema = z.string().regex(/^[A-Za-z0-9][A-Za-z0-9._:-]{0,63}$/, 'tags are 1-64 characters of letters, digits, ".", "_", ":" or "-"');
 
 export const enrolRequestSchema = z.strictObject({

@@ -1,6 +1,7 @@
 import type { z } from 'zod';
 import { deviceHistoryQuerySchema, driftQuerySchema, historyQuerySchema, reportQuerySchema, rolloutQuerySchema } from '../fleet/queries.js';
 import { rolloutRequestSchema } from '../fleet/rollout/spec.js';
+import { releaseRequestSchema } from '../release/request.js';
 import { deviceClassSchema } from '../schema/device-class.js';
 import { modelSchema } from '../schema/model.js';
 import { networkSchema } from '../schema/network.js';
@@ -16,7 +17,6 @@ import {
   diffQuerySchema,
   enrolRequestSchema,
   releaseQuerySchema,
-  releaseRequestSchema,
   tokenRequestSchema,
   weightsQuerySchema,
 } from './request-schemas.js';

@@ -6,6 +6,7 @@ import type { Check, CheckStatus } from '../schema/index.js';
 import { formatReport, validate } from '../validate/index.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_CHECK_FAILED, EXIT_OK } from './io.js';
+import { withShippedNetwork } from './shipped-network.js';
 import type { CliIo } from './io.js';
 
 /** Folder whose documents are always available for resolving references, when it exists. */
@@ -14,7 +15,8 @@ export const DEFAULT_CATALOG_FOLDER = 'profiles';
 export const usage = `usage: ocellus check <files or folders...> [--json]
   Validates every profile found under the given paths. References (taskId, deviceClassId, modelId and the
   model's networkId) resolve among all documents under the given paths, then under ./${DEFAULT_CATALOG_FOLDER}
-  when that folder exists. Exit 0 when every check passes (warnings allowed), 1 when a check fails,
+  when that folder exists. A model with networkFrom "weights" is costed from its weightsFile (ONNX), and a
+  declared network that disagrees with that file is a failing check. Exit 0 when every check passes (warnings allowed), 1 when a check fails,
   2 when a file is bad or a reference is missing.
   JSON keys: profiles[{file, profile, status, checks[{code, status, actual, limit, unit, path, message}]}], issues[{file, path, message}]
 `;
@@ -43,7 +45,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
         issues.push(...resolved.issues);
         continue;
       }
-      const report = validate(resolved.value);
+      const report = validate(await withShippedNetwork(catalog, resolved.value, io.cwd));
       results.push({ file, profile: profile.id, status: report.status, checks: report.checks });
     }
     if (results.length === 0 && issues.length === 0) {

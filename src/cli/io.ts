@@ -4,6 +4,8 @@ export interface CliIo {
   stderr: (text: string) => void;
   cwd: string;
   env: Readonly<Record<string, string | undefined>>;
+  /** Whether stderr is a terminal (progress bars are drawn only there). */
+  stderrIsTty?: boolean;
 }
 
 /** Every command module exports `run` with this shape and returns the exit code. */

@@ -13,7 +13,10 @@ export const commands: Record<string, CommandEntry> = {
   check: { summary: 'validate every profile under files or folders', load: () => import('./check.js') },
   cost: { summary: 'MACs, parameters and (with a device class) latency and energy of a network', load: () => import('./cost.js') },
   'import-network': { summary: 'read an .onnx model file and write the network document its weights describe', load: () => import('./import-network.js') },
+  tolerance: { summary: "measure a model's accuracy against blur and noise on your own images (onnxruntime, CPU)", load: () => import('./tolerance.js') },
+  render: { summary: "what the robot's network would see: a sample image through a profile's blur and noise", load: () => import('./render.js') },
   optics: { summary: 'hyperfocal distance, depth of field, diffraction and blur circles', load: () => import('./optics.js') },
+  mtf: { summary: 'MTF of the image chain: diffraction, defocus, pixel and motion; MTF50 and equivalent blur', load: () => import('./mtf.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },
   light: { summary: 'photons and electrons of one pixel for light of a given spectrum (CIE illuminants, LEDs)', load: () => import('./light.js') },
@@ -76,6 +79,7 @@ if (isEntryPoint()) {
     stderr: (t) => void process.stderr.write(t),
     cwd: process.cwd(),
     env: process.env,
+    stderrIsTty: process.stderr.isTTY === true,
   };
   dispatch(process.argv.slice(2), io).then(
     (code) => {

@@ -32,14 +32,14 @@ function waveSizes(raw: string): WaveSize[] {
 }
 
 function describe(r: RolloutView): string {
-  const out = [`rollout ${r.id}: ${r.status}, release ${r.releaseId} (${r.deviceClassId}), wave ${r.currentWave + 1} of ${r.waveCount}, by ${r.createdBy}`];
+  const out = [`rollout ${r.id}: ${r.status}, release ${r.releaseId} (${r.deviceClassId}), wave ${r.currentWave} of ${r.waveCount}, by ${r.createdBy}`];
   for (const w of r.waves) {
     const counts = Object.entries(w.counts).map(([k, n]) => `${n} ${k}`).join(', ');
-    out.push(`  wave ${w.wave + 1}: ${w.devices} device${w.devices === 1 ? '' : 's'} (${counts})`);
+    out.push(`  wave ${w.wave}: ${w.devices} device${w.devices === 1 ? '' : 's'} (${counts})`);
   }
   const reason = r.pauseReason as { kind?: string; wave?: number; failures?: Array<{ deviceId: string; reason: string }>; by?: string } | null;
   if (r.status === 'paused' && reason?.kind === 'gate') {
-    out.push(`  paused: wave ${(reason.wave ?? 0) + 1} failed its gate`);
+    out.push(`  paused: wave ${reason.wave ?? '?'} failed its gate`);
     for (const f of reason.failures ?? []) out.push(`    ${f.deviceId}: ${f.reason}`);
   } else if (r.status === 'paused' && reason?.by) out.push(`  paused by ${reason.by}`);
   if (r.rollback) out.push(`  rollback: ${r.rollback.restored} restored, ${r.rollback.pending} pending, ${r.rollback.nothingToRestore} with nothing to restore`);
@@ -113,7 +113,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
         if (!id) {
           const list = await client.json<RolloutView[]>('GET', '/api/v1/rollouts');
           if (values.json) printJson(io, list);
-          else for (const r of list) io.stdout(`${r.id}  ${r.status}  release ${r.releaseId}  wave ${r.currentWave + 1}/${r.waveCount}  ${r.createdAt}  ${r.createdBy}\n`);
+          else for (const r of list) io.stdout(`${r.id}  ${r.status}  release ${r.releaseId}  wave ${r.currentWave}/${r.waveCount}  ${r.createdAt}  ${r.createdBy}\n`);
           return EXIT_OK;
         }
         const r = await client.json<RolloutView>('GET', `/api/v1/rollouts/${encodeURIComponent(id)}`);

@@ -2,13 +2,17 @@ import { resolve } from 'node:path';
 import { busForServer } from '../bus/start-bus.js';
 import { startServer } from '../server/start-server.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
-import { EXIT_OK } from './io.js';
+import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
+import { portInUse, portTakenMessage } from './port-check.js';
 import type { CliIo } from './io.js';
 
 export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mb 512]
                     [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
+  A port already in use is refused with exit 2 before anything is written; pick others with --port and
+  --mqtt-port (e.g. when the demo holds 8080 and 1884), and point the other commands at this server with
+  --server http://127.0.0.1:PORT or OCELLUS_SERVER.
   Devices connect over MQTT to the embedded broker on 127.0.0.1:--mqtt-port (0 picks a free port), or to an
   external MQTT 3.1.1/5 broker given by --broker, where the server logs in as --broker-user with the
   password in OCELLUS_BROKER_PASSWORD.
@@ -50,18 +54,37 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     if (values.broker !== undefined && !/^(mqtts?|tcp|ssl):\/\/[^/]+/.test(values.broker)) {
       throw new UsageError(`--broker must be an mqtt:// or mqtts:// URL, got '${values.broker}'`);
     }
+    const host = values.host ?? '127.0.0.1';
+    // Before anything is written (data folder, signing key, admin token): a taken port is bad input, exit 2.
+    const taken: string[] = [];
+    const httpWhy = await portInUse(host, port);
+    if (httpWhy) taken.push(portTakenMessage('HTTP', host, port, httpWhy, '--port'));
+    if (!values.broker) {
+      const mqttWhy = await portInUse('127.0.0.1', mqttPort);
+      if (mqttWhy) taken.push(portTakenMessage('MQTT (the embedded broker)', '127.0.0.1', mqttPort, mqttWhy, '--mqtt-port'));
+    }
+    if (taken.length > 0) {
+      io.stderr(taken.map((t) => `${t}\n`).join(''));
+      return EXIT_BAD_INPUT;
+    }
     const bus = values.broker
       ? busForServer({ external: { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' } })
       : busForServer({ embedded: { port: mqttPort } });
     const server = await startServer({
       dataDir,
-      host: values.host ?? '127.0.0.1',
+      host,
       port,
       maxWeightsBytes: Math.floor(maxWeightsMb * 1024 * 1024),
       ...(adminToken ? { adminToken } : {}),
       bus,
       log: (line) => io.stderr(`${line}\n`),
+    }).catch((e: NodeJS.ErrnoException) => {
+      // Taken between the check and the start (another process was quicker).
+      if (e.code !== 'EADDRINUSE') throw e;
+      io.stderr(`error: cannot listen: ${e.message}; choose other ports with --port N and --mqtt-port N\n`);
+      return null;
     });
+    if (!server) return EXIT_BAD_INPUT;
     if (server.adminSeed === 'stored') io.stderr('ocellus: stored OCELLUS_ADMIN_TOKEN as the first admin token\n');
     if (server.adminSeed === 'not-first-start') io.stderr('ocellus: OCELLUS_ADMIN_TOKEN ignored: tokens already exist (manage them with an admin token)\n');
     if (server.store.tokens.count() === 0) {

@@ -2,7 +2,7 @@ import { stepAt, type ShiftStep } from './shift.js';
 
 /** The part of a device agent a robot's own software talks to (the agent's control calls). */
 export interface RobotAgent {
-  setTask(task: string): Promise<{ status: number; body: { ok: boolean; [k: string]: unknown } }>;
+  setTask(task: string): Promise<{ ok: true; unchanged?: true } | { ok: false }>;
   setMotion(moving: boolean): void;
 }
 
@@ -56,8 +56,8 @@ export function createDemoRobot(options: DemoRobotOptions): DemoRobot {
 
   async function switchTo(task: string): Promise<void> {
     const r = await agent.setTask(task);
-    if (r.body.ok && r.body.unchanged !== true) counts.switches += 1;
-    else if (!r.body.ok) counts.refused += 1;
+    if (r.ok && r.unchanged !== true) counts.switches += 1;
+    else if (!r.ok) counts.refused += 1;
   }
 
   async function enter(step: ShiftStep): Promise<void> {

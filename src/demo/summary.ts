@@ -41,7 +41,8 @@ export function summarizeRollout(view: { id: string; status: string; currentWave
   return {
     id: view.id,
     status: view.status,
-    wave: Math.min(view.currentWave + 1, view.waveCount),
+    // The API numbers waves from 1.
+    wave: Math.min(view.currentWave, view.waveCount),
     waveCount: view.waveCount,
     devices: view.devices.length,
     devicesPassed: view.devices.filter((d) => d.status === 'passed').length,

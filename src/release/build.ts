@@ -8,9 +8,16 @@ import type { Profile } from '../schema/profile.js';
 import type { Check } from '../schema/report.js';
 import type { Task } from '../schema/task.js';
 import type { BlobStore } from '../store/blobs.js';
+import { refuse, type Outcome } from '../schema/refusal.js';
 import type { Store } from '../store/store.js';
-import { badRequest, conflict, HttpError } from '../api/errors.js';
-import type { ReleaseRequest } from '../api/request-schemas.js';
+import type { ReleaseRequest } from './request.js';
+
+/**
+ * Why a release cannot be built: a device class or profile revisions that are not stored, revisions that
+ * cannot go into it (another class, an older class version, weights not uploaded, no estimate to ship),
+ * or revisions whose checks failed with no override reason given.
+ */
+export type ReleaseRefusalCode = 'unknown-device-class' | 'revisions-not-stored' | 'revisions-unfit' | 'checks-failed';
 
 /** The figures of a validation report a release ships as the prediction for each task. */
 const predictionFiguresSchema = z.object({
@@ -34,17 +41,17 @@ export interface BuildContext {
 }
 
 /**
- * Builds the release a request asks for from stored, immutable profile revisions. Refuses (as HttpError):
- * unknown references (400), revisions for another device class or validated against an older version of it,
- * weights not uploaded (409), and revisions whose checks failed (422, listing them) unless an override
- * reason is given, which the release then carries. Call inside the transaction that stores the release,
- * so the version number cannot be taken twice.
+ * Builds the release a request asks for from stored, immutable profile revisions. Refuses, with a code:
+ * unknown references, revisions for another device class or validated against an older version of it,
+ * weights not uploaded, and revisions whose checks failed (listing them) unless an override reason is
+ * given, which the release then carries. Call inside the transaction that stores the release, so the
+ * version number cannot be taken twice.
  */
-export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Release {
+export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Outcome<Release, ReleaseRefusalCode> {
   const { store, blobs } = ctx;
   const deviceClass = store.documents.latest<DeviceClass>('device-class', request.deviceClassId);
   if (!deviceClass) {
-    throw badRequest('unknown device class', [{ path: 'deviceClassId', message: `no device class '${request.deviceClassId}' is stored` }]);
+    return refuse('unknown-device-class', 'unknown device class', [{ path: 'deviceClassId', message: `no device class '${request.deviceClassId}' is stored` }]);
   }
   const missing: InputIssue[] = [];
   const mismatched: InputIssue[] = [];
@@ -107,15 +114,12 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Releas
       },
     };
   }
-  if (missing.length > 0) throw badRequest('the release refers to profile revisions that are not stored', missing);
-  if (mismatched.length > 0) throw conflict('some profile revisions cannot go into this release', mismatched);
+  if (missing.length > 0) return refuse('revisions-not-stored', 'the release refers to profile revisions that are not stored', missing);
+  if (mismatched.length > 0) return refuse('revisions-unfit', 'some profile revisions cannot go into this release', mismatched);
   const failingNames = Object.keys(failing);
   if (failingNames.length > 0 && !request.override) {
     const issues = failingNames.flatMap((name) => failing[name]!.map((ch) => ({ path: `tasks.${name}`, message: `${ch.code}: ${ch.message}` })));
-    throw new HttpError(422, 'some profile revisions fail their checks; fix them, or give override.reason to release anyway', {
-      issues,
-      extra: { failingChecks: failing },
-    });
+    return refuse('checks-failed', 'some profile revisions fail their checks; fix them, or give override.reason to release anyway', issues, { failingChecks: failing });
   }
 
   const version = store.releases.nextVersion(request.deviceClassId);
@@ -133,5 +137,5 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Releas
     ...(failingNames.length > 0 && request.override ? { override: { reason: request.override.reason, by: ctx.actor } } : {}),
   };
   // The protocol schema is the contract with devices: a release that does not fit it is a fault here, not input.
-  return releaseSchema.parse(release);
+  return { ok: true, value: releaseSchema.parse(release) };
 }

@@ -7,8 +7,11 @@ import type { Report } from '../schema/report.js';
 import type { Task } from '../schema/task.js';
 import type { RevisionRefs } from '../store/profiles.js';
 import type { Store } from '../store/store.js';
+import { refuse, type Outcome } from '../schema/refusal.js';
 import { validate } from '../validate/index.js';
-import { badRequest } from '../api/errors.js';
+
+/** Why a profile cannot be checked: documents it refers to are not stored, or settings the hardware cannot take. */
+export type ProfileRefusalCode = 'references-not-stored' | 'physically-impossible';
 
 export interface CheckedProfile {
   report: Report;
@@ -17,10 +20,10 @@ export interface CheckedProfile {
 
 /**
  * Looks up the latest task, device class, model and its network a profile refers to, refuses settings
- * the hardware cannot take, and validates the rest. Missing references and impossible settings are 400s
- * naming the field; a profile that fails checks is not an input error: its report says so.
+ * the hardware cannot take, and validates the rest. Missing references and impossible settings are refusals
+ * naming the field; a profile that fails checks is not refused: its report says so.
  */
-export function checkProfile(store: Store, profile: Profile): CheckedProfile {
+export function checkProfile(store: Store, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
   const task = store.documents.latest<Task>('task', profile.taskId);
   const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
   const model = store.documents.latest<Model>('model', profile.modelId);
@@ -33,11 +36,11 @@ export function checkProfile(store: Store, profile: Profile): CheckedProfile {
     missing.push({ path: 'modelId', message: `model '${profile.modelId}' refers to network '${model.document.networkId}', which is not stored` });
   }
   if (missing.length > 0 || !task || !deviceClass || !model || !network) {
-    throw badRequest('the profile refers to documents that are not stored', missing);
+    return refuse('references-not-stored', 'the profile refers to documents that are not stored', missing);
   }
   const impossible = physicalLimitIssues(profile, deviceClass.document);
   if (impossible.length > 0) {
-    throw badRequest(`settings device class '${deviceClass.id}' cannot physically take`, impossible);
+    return refuse('physically-impossible', `settings device class '${deviceClass.id}' cannot physically take`, impossible);
   }
   const report = validate({
     profile,
@@ -46,14 +49,18 @@ export function checkProfile(store: Store, profile: Profile): CheckedProfile {
     model: model.document,
     network: network.document,
   });
+  // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
+  const stored = JSON.parse(JSON.stringify(report)) as Report;
   return {
-    // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
-    report: JSON.parse(JSON.stringify(report)) as Report,
-    refs: {
-      task: { id: task.id, version: task.version },
-      deviceClass: { id: deviceClass.id, version: deviceClass.version },
-      model: { id: model.id, version: model.version },
-      network: { id: network.id, version: network.version },
+    ok: true,
+    value: {
+      report: stored,
+      refs: {
+        task: { id: task.id, version: task.version },
+        deviceClass: { id: deviceClass.id, version: deviceClass.version },
+        model: { id: model.id, version: model.version },
+        network: { id: network.id, version: network.version },
+      },
     },
   };
 }

@@ -4,8 +4,18 @@ import { fraction, finite, idSchema, nonNegative, positiveInt, precisionSchema }
 const increasing = <T>(key: keyof T & string) => (points: T[]) =>
   points.every((p, i) => i === 0 || (p[key] as number) > (points[i - 1]![key] as number));
 
-export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction() });
-export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction() });
+/** What a measured point rests on: how many images, and the 95 % Wilson score interval of the accuracy. */
+const measuredFields = {
+  images: positiveInt().optional(),
+  interval95: z.tuple([fraction(), fraction()]).optional(),
+};
+export const blurCurvePointSchema = z.strictObject({ blurPx: nonNegative(), accuracy: fraction(), ...measuredFields });
+export const snrCurvePointSchema = z.strictObject({ snrDb: finite(), accuracy: fraction(), ...measuredFields });
+/**
+ * What a measured curve's accuracy means: top-1 against labels, top-1 agreement with the model's own
+ * prediction on the sharp image, or the share of images whose output map overlaps the sharp one's by IoU ≥ 0.5.
+ */
+export const curveMetricSchema = z.enum(['top1-vs-labels', 'top1-vs-sharp', 'iou50-vs-sharp']);
 
 /** The pixels a blur curve is measured in: the sensor's, or the network input's after the downscale. */
 export const blurUnitSchema = z.enum(['sensor-px', 'input-px']);
@@ -39,6 +49,12 @@ export const modelSchema = z.strictObject({
   inputWidthPx: positiveInt(),
   inputHeightPx: positiveInt(),
   networkId: idSchema,
+  /**
+   * Where the network's cost comes from: its network document (the default), or the weights file itself
+   * (`weightsFile`, an ONNX file, path relative to this document); then a declared network must match it.
+   */
+  networkFrom: z.enum(['document', 'weights']).optional(),
+  weightsFile: z.string().min(1).max(500).optional(),
   precision: precisionSchema,
   /**
    * Accuracy measured by the user on their own data at increasing blur: the diameter of the uniform disc with the
@@ -53,6 +69,7 @@ export const modelSchema = z.strictObject({
   blurUnit: blurUnitSchema.optional(),
   /** Accuracy measured at increasing signal-to-noise ratio (dB). */
   accuracyVsSnr: snrCurveSchema.optional(),
+  curveMetric: curveMetricSchema.optional(),
   /**
    * Tasks the model was trained and measured for. A profile pairing it with another task fails `model-task`, and
    * the planner leaves it out. Left out (files written before this field), every task is allowed with a warning.

@@ -2,6 +2,7 @@ import type { AddressInfo } from 'node:net';
 import { serve, type ServerType } from '@hono/node-server';
 import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
 import type { ReleasePublisher } from '../protocol/release.js';
+import { createCalibrationEngine, type CalibrationEngineOptions } from '../fleet/calibration/engine.js';
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';
@@ -45,7 +46,7 @@ export interface StartServerOptions {
    */
   bus?: (context: BusContext) => Promise<BusAttachment>;
   /** The rollout engine's timing (tick, calibration refresh, drift tolerance); tests shorten them. */
-  fleet?: Omit<RolloutEngineOptions, 'log'>;
+  fleet?: Omit<RolloutEngineOptions, 'log'> & Omit<CalibrationEngineOptions, 'log'>;
   /** The built web console served on `/` (default: dist/console, built by npm install). */
   consoleDir?: string;
 }
@@ -109,16 +110,31 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     // Rollouts carry on from the database: one left running by an earlier process continues here. Devices'
     // reports wake the engine, so a gate is judged as soon as its facts are stored.
     const reports = bus?.onDevicesStored?.bind(bus);
+    const clock = options.clock ?? { now: () => new Date() };
+    const { calibrationEveryMs, driftTolerance, ...rolloutTiming } = options.fleet ?? {};
+    // Drift episodes and the gate's class calibrations, refreshed on their own timer.
+    const calibration = createCalibrationEngine({
+      store,
+      clock,
+      log,
+      ...(calibrationEveryMs !== undefined ? { calibrationEveryMs } : {}),
+      ...(driftTolerance !== undefined ? { driftTolerance } : {}),
+    });
     const engine = createRolloutEngine({
       store,
       publisher: bus?.publisher,
-      clock: options.clock ?? { now: () => new Date() },
+      clock,
+      calibration,
       log,
       ...(reports ? { onDevicesStored: reports } : {}),
-      ...options.fleet,
+      ...rolloutTiming,
     });
+    calibration.start();
     engine.start();
-    stopEngine = () => engine.stop();
+    stopEngine = async () => {
+      calibration.stop();
+      await engine.stop();
+    };
     const server = serve({ fetch: app.fetch, port: options.port ?? 8080, hostname: host });
     const address = await listen(server);
     const urlHost = address.family === 'IPv6' ? `[${address.address}]` : address.address;

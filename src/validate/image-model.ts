@@ -78,9 +78,17 @@ export function imageSetup(task: Task, deviceClass: DeviceClass, exposureUs: num
   };
 }
 
+/**
+ * Working f-number of a lens focused at s: N·(1 + m), m = f/(s − f). Used for diffraction and for the light
+ * reaching the sensor (the image of a close object lies further behind the lens).
+ */
+export function workingFNumberForFocus(focalLengthMm: number, fNumber: number, focusM: number): number {
+  return workingFNumber(fNumber, magnificationAtFocus(focalLengthMm, mToMm(focusM)));
+}
+
 /** Working f-number at a focus distance: N·(1 + m), m = f/(s − f). */
 export function workingFNumberAt(setup: ImageSetup, fNumber: number, focusM: number): number {
-  return workingFNumber(fNumber, magnificationAtFocus(setup.focalLengthMm, mToMm(focusM)));
+  return workingFNumberForFocus(setup.focalLengthMm, fNumber, focusM);
 }
 
 /** The image chain at one object distance. */

@@ -6,6 +6,6 @@ export { MIN_CALIBRATION_SAMPLES } from './compute-checks.js';
 export type { InferenceFigures } from './compute-checks.js';
 export { DEFAULT_TOLERATED_BLUR_PX, DEFAULT_TOLERATED_BLUR_UNIT, accuracyAtBlur, accuracyAtSnr, blurIn, curvesFor, interpolate, toleratedBlurPx } from './tolerance.js';
 export type { BlurTolerance, TaskCurves } from './tolerance.js';
-export { BLUR_SAMPLES, blurCurveOf, downscaleFactor, imageSetup, sampleDistancesM, worstCombinedBlurPx, worstPoint } from './image-model.js';
+export { BLUR_SAMPLES, blurCurveOf, downscaleFactor, imageSetup, sampleDistancesM, workingFNumberForFocus, worstCombinedBlurPx, worstPoint } from './image-model.js';
 export type { BlurPoint, ImageSetup } from './image-model.js';
 export { NEAR_CLIPPING_FRACTION } from './signal-checks.js';

@@ -7,6 +7,10 @@ export interface ValidationInput {
   deviceClass: DeviceClass;
   model: Model;
   network: Network;
+  /** The network read from the model's weights file, when the model takes its network from its weights. */
+  shippedNetwork?: Network;
+  /** Why the weights file could not give a network (unreadable, other sha256, unsupported op). */
+  shippedNetworkProblem?: string;
 }
 
 /** Measured-to-estimated ratios for inference on real units (from the fleet's calibration). */

@@ -7,10 +7,13 @@ import { blurCurveOf, chainAt, imageSetup, workingFNumberAt, worstPoint } from '
 import type { BlurPoint } from './image-model.js';
 import { accuracyCheck, consistencyChecks, modelTaskCheck, physicalLimitChecks } from './model-checks.js';
 import { blurOverRangeCheck, depthOfFieldFigures, motionBlurCheck, pixelsOnFeatureCheck, rollingShutterSkewCheck } from './optical-checks.js';
+import { costedInput, networkWeightsChecks } from './network-weights.js';
 import { clippingBrightCheck, exposureFitsFrameCheck, snrDarkCheck } from './signal-checks.js';
 import { curvesFor, toleratedBlurPx } from './tolerance.js';
 import type { BlurUnit } from '../schema/index.js';
-import { diffractionCutoffCycPerMm, mtfCurve, nyquistCycPerMm } from '../physics/mtf.js';
+import { diffractionCutoffCycPerMm, mtf50CycPerMm, mtfCurve, nyquistCycPerMm, systemMtf } from '../physics/mtf.js';
+import { objectPixelSizeMm } from '../physics/optics.js';
+import { mToMm, umToMm } from '../physics/units.js';
 import type { MtfParts } from '../physics/mtf.js';
 
 /** Figures the checks were computed from, for plots (JSON writes an infinite blur as null). */
@@ -21,6 +24,15 @@ export type ValidationFigures = {
   mtfAtWorst: (MtfParts & { cycPerMm: number })[];
   workingFNumber: number;
   downscale: number;
+  /** MTF50 of the system at the worst point, cycles/mm on the sensor. */
+  mtf50CycPerMm: number;
+  /**
+   * The feature read as a bar of a square wave at the far end (half a cycle across it), cycles/mm on the sensor,
+   * the system MTF there at the worst point, and the contrast left of the task's featureContrast (null without it).
+   */
+  featureCycPerMm: number;
+  mtfAtFeature: number;
+  featureImageContrast: number | null;
   toleratedBlurPx: number;
   toleratedBlurUnit: BlurUnit;
   cocMm: number;
@@ -51,14 +63,19 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
   const worst = worstPoint(curve);
   const workingF = workingFNumberAt(setup, fNumber, focusDistanceM);
   const worstChain = chainAt(setup, fNumber, focusDistanceM, worst.distanceM, diffractionCutoffCycPerMm(setup.wavelengthNm, workingF));
+  // Image of the feature at the far end, where it is smallest: size × f/d (pinhole), as pixels × pitch.
+  const featureImageMm = (task.featureSizeMm / objectPixelSizeMm(mToMm(task.farDistanceM), deviceClass.sensor.pixelPitchUm, deviceClass.lens.focalLengthMm)) * umToMm(deviceClass.sensor.pixelPitchUm);
+  const featureCycPerMm = 1 / (2 * featureImageMm);
+  const mtfAtFeature = Number.isFinite(worstChain.defocusBlurUm) ? systemMtf(featureCycPerMm, worstChain) : 0;
   const dark = snrDarkCheck(input);
-  const compute = computeChecks(input, options.calibration);
+  const compute = computeChecks(costedInput(input), options.calibration);
   const accuracy = accuracyCheck(input, worst, dark.snrDb);
   const dof = depthOfFieldFigures(input, tolerance);
 
   const checks: Check[] = [
     ...physicalLimitChecks(input),
     ...consistencyChecks(input),
+    ...networkWeightsChecks(input),
     modelTaskCheck(input),
     blurOverRangeCheck(input, setup, curve, tolerance),
     pixelsOnFeatureCheck(input),
@@ -80,6 +97,10 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
       mtfAtWorst: Number.isFinite(worstChain.defocusBlurUm) ? mtfCurve(worstChain, nyquistCycPerMm(setup.pixelPitchUm)) : [],
       workingFNumber: workingF,
       downscale: setup.downscale,
+      mtf50CycPerMm: Number.isFinite(worstChain.defocusBlurUm) ? mtf50CycPerMm(worstChain) : 0,
+      featureCycPerMm,
+      mtfAtFeature,
+      featureImageContrast: task.featureContrast !== undefined ? task.featureContrast * mtfAtFeature : null,
       toleratedBlurPx: tolerance.blurPx,
       toleratedBlurUnit: tolerance.unit,
       cocMm: dof.cocMm,

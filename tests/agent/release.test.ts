@@ -60,7 +60,7 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     expect(storedEvents(id, 'task-switched')[0]).toMatchObject({ toTask: 'rows', reason: 'release', releaseId: 'rel-a1' });
     // Switching to the other task needs nothing from the network.
     const r = await rig.agent.setTask('leaves');
-    expect(r.body).toMatchObject({ ok: true, task: 'leaves' });
+    expect(r).toMatchObject({ ok: true, task: 'leaves' });
     expect(rig.driver.hardware()).toMatchObject({ weightsSha256: leaves.sha256, camera: { focusDistanceM: 0.25, fNumber: 2.8 } });
     await bus.bridge.clearRelease(id);
   });
@@ -123,7 +123,7 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
     const before = rig.driver.hardware();
     const r = await rig.agent.setTask('leaves');
-    expect(r).toMatchObject({ status: 500, body: { ok: false, step: 'loadWeights', restored: true } });
+    expect(r).toMatchObject({ ok: false, code: 'switch-failed', step: 'loadWeights', restored: true });
     expect(rig.driver.hardware()).toEqual(before);
     expect(rig.agent.state().activeTask).toBe('rows');
     await waitFor(() => storedEvents(id, 'switch-failed').length === 1, 'switch-failed stored');

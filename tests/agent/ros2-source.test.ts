@@ -124,6 +124,8 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
     // And the next change after the outage arrives as usual.
     r.bridge.robotPublish('/robot/task', { data: 'rows' });
     await waitFor(() => r.agent.state().activeTask === 'rows', 'change after the outage');
+    // The switch is stored once the agent's event batch reaches the server: wait for it, within the deadline.
+    await waitFor(() => stored(r.id, 'task-switched').length >= 3, 'the three switches stored');
     expect(stored(r.id, 'task-switched').map((e) => e.toTask)).toEqual(['rows', 'leaves', 'rows']);
   });
 
@@ -133,7 +135,7 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
     await bridge.stop();
     const logs: string[] = [];
     const source = createRos2TaskSource(
-      { url, taskTopic: '/robot/task', statusTopic: '/ocellus/status', reconnectMs: 50, reconnectMaxMs: 200, deviceId: 'x', handlers: { setTask: async () => ({ status: 200, body: { ok: true } }), setMotion: () => {}, log: (l) => logs.push(l) } },
+      { url, taskTopic: '/robot/task', statusTopic: '/ocellus/status', reconnectMs: 50, reconnectMaxMs: 200, deviceId: 'x', handlers: { setTask: async (task) => ({ ok: true, task, overheadMs: 0, actuationMs: 0 }), setMotion: () => {}, log: (l) => logs.push(l) } },
       await loadRoslib(),
     );
     cleanups.push(() => source.close());

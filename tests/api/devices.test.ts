@@ -128,11 +128,15 @@ describe('assigning a release to one device', () => {
     const signed = await release();
     expect((await h.call('POST', '/api/v1/devices/gh-99/assign', { body: { releaseId: signed.release.id } })).status).toBe(404);
     await enrol('gh-01');
-    expect((await h.call('POST', '/api/v1/devices/gh-01/assign', { body: { releaseId: 'no-release' } })).status).toBe(400);
+    const unknown = await h.call('POST', '/api/v1/devices/gh-01/assign', { body: { releaseId: 'no-release' } });
+    expect(unknown.status).toBe(400);
+    expect(((await unknown.json()) as { issues: unknown[] }).issues).toEqual([{ path: 'releaseId', message: "no release 'no-release' is stored" }]);
     const other = { ...deviceClass, id: 'gh-other', name: 'Other scout (demo data)' };
     await h.call('POST', '/api/v1/device-classes', { body: other });
     await h.call('POST', '/api/v1/devices', { body: { id: 'gh-02', deviceClassId: other.id, tags: [] } });
-    expect((await h.call('POST', '/api/v1/devices/gh-02/assign', { body: { releaseId: signed.release.id } })).status).toBe(409);
+    const mismatch = await h.call('POST', '/api/v1/devices/gh-02/assign', { body: { releaseId: signed.release.id } });
+    expect(mismatch.status).toBe(409);
+    expect(((await mismatch.json()) as { issues: Array<{ path: string }> }).issues.map((i) => i.path)).toEqual(['releaseId']);
     expect(sent).toEqual([]);
     expect(h.store.audit.query({ action: 'device.assign' })).toEqual([]);
   });

@@ -162,3 +162,58 @@ describe('ocellus schema and help', () => {
     expect((await ocellus()).code).toBe(2);
   });
 });
+
+describe('ocellus mtf', () => {
+  const base = ['--f-number', '8', '--wavelength-nm', '550', '--pixel-pitch-um', '3'];
+
+  it('answers with the documented keys; at half the cutoff the diffraction MTF is 0.3910 (Goodman eq. 6-32), and the system is the product', async () => {
+    const r = await ocellus('mtf', ...base, '--at-cyc-per-mm', String(1 / (2 * 550e-6 * 8)), '--json');
+    expect(r.code).toBe(0);
+    const j = r.json();
+    expect(Object.keys(j).sort()).toEqual(['at', 'cutoff_cyc_per_mm', 'equivalent_blur_px', 'mtf50_cyc_per_mm', 'nyquist_cyc_per_mm', 'working_f_number']);
+    expect(Object.keys(j.at[0]).sort()).toEqual(['cyc_per_mm', 'defocus', 'diffraction', 'motion', 'pixel', 'system']);
+    expect(j.cutoff_cyc_per_mm).toBeCloseTo(227.27, 2);
+    expect(j.at[0].diffraction).toBeCloseTo(0.391, 4);
+    expect(j.at[0].system).toBeCloseTo(j.at[0].diffraction * j.at[0].defocus * j.at[0].pixel * j.at[0].motion, 12);
+  });
+
+  it('by default reports half Nyquist and Nyquist; one pixel of motion passes 2/π at Nyquist (Boreman §2.5)', async () => {
+    const j = (await ocellus('mtf', ...base, '--motion-px', '1', '--json')).json();
+    expect(j.at.map((a: { cyc_per_mm: number }) => a.cyc_per_mm)).toEqual([j.nyquist_cyc_per_mm / 2, j.nyquist_cyc_per_mm]);
+    expect(j.at[1].motion).toBeCloseTo(2 / Math.PI, 12);
+    expect(j.at[1].pixel).toBeCloseTo(2 / Math.PI, 12);
+  });
+
+  it('at 1:1 magnification the working f-number doubles and the cutoff halves (N_w = N(1 + m))', async () => {
+    const j = (await ocellus('mtf', ...base, '--magnification', '1', '--json')).json();
+    expect(j.working_f_number).toBe(16);
+    expect(j.cutoff_cyc_per_mm).toBeCloseTo(227.27 / 2, 2);
+  });
+
+  it('more defocus gives a larger equivalent blur and a lower MTF50', async () => {
+    const sharp = (await ocellus('mtf', ...base, '--json')).json();
+    const soft = (await ocellus('mtf', ...base, '--defocus-blur-um', '20', '--json')).json();
+    expect(soft.equivalent_blur_px).toBeGreaterThan(sharp.equivalent_blur_px);
+    expect(soft.mtf50_cyc_per_mm).toBeLessThan(sharp.mtf50_cyc_per_mm);
+  });
+
+  it('prints a table for people', async () => {
+    const r = await ocellus('mtf', ...base);
+    expect(r.out).toMatch(/MTF50\s+\d/);
+    expect(r.out).toMatch(/cycles\/mm\s+diffraction\s+defocus\s+pixel\s+motion\s+system/);
+  });
+
+  it('bad input exits 2 naming the flag', async () => {
+    for (const [args, flag] of [
+      [['--wavelength-nm', '550', '--pixel-pitch-um', '3'], 'f-number'],
+      [[...base, '--fill-factor', '1.5'], 'fill-factor'],
+      [[...base, '--fill-factor', '0'], 'fill-factor'],
+      [[...base, '--defocus-blur-um', '-1'], 'defocus-blur-um'],
+      [[...base, '--at-cyc-per-mm', 'abc'], 'at-cyc-per-mm'],
+    ] as const) {
+      const r = await ocellus('mtf', ...args);
+      expect(r.code, flag).toBe(2);
+      expect(r.err).toContain(`--${flag}`);
+    }
+  });
+});

@@ -40,7 +40,7 @@ describe('demo fleet and summary', () => {
   });
 
   it('prints one summary line', () => {
-    const rollout = summarizeRollout({ id: 'ro-0a1b2c3d4e', status: 'running', currentWave: 1, waveCount: 3, devices: [{ status: 'passed' }, { status: 'applied' }, { status: 'waiting' }] });
+    const rollout = summarizeRollout({ id: 'ro-0a1b2c3d4e', status: 'running', currentWave: 2, waveCount: 3, devices: [{ status: 'passed' }, { status: 'applied' }, { status: 'waiting' }] });
     const line = formatSummary({ elapsedS: 72.4, robots: 12, robotsOnline: 11, switches: 318, releasesApplied: 14, eventsStored: 1432, eventsUnacked: 3, rollout });
     expect(line).toMatchInlineSnapshot(`"[demo 1:12] robots 11/12 online | switches 318 | releases applied 14 | rollout ro-0a1b2c3d4e running, wave 2/3, 1/3 robots passed | events stored 1432 (3 awaiting ack)"`);
     expect(formatSummary({ elapsedS: 5, robots: 1, robotsOnline: 1, switches: 0, releasesApplied: 0, eventsStored: 2, eventsUnacked: 0, rollout: null }, true)).toContain('[demo 0:05 final]');

@@ -101,6 +101,17 @@ describe('calibration from telemetry (least squares through the origin)', () => 
     expect(view.body.drift[0].clearedAt).toBe(null);
   });
 
+  it('keeps a class latency factor for the gate until the calibration engine refreshes', async () => {
+    const kept = rig.calibration.latencyFactor('gh-rowcam-a');
+    expect(kept).toBe(createCalibrator(rig.store).forValidator('gh-rowcam-a')!.latencyFactor);
+    const before = telemetryCount('cal-a');
+    await waitFor(() => telemetryCount('cal-a') > before + 2, 'newer telemetry from cal-a', 20_000);
+    expect(rig.calibration.latencyFactor('gh-rowcam-a')).toBe(kept);
+    rig.calibration.refresh();
+    // No await between the two: nothing new is stored in between (the rig's bridge writes on this thread).
+    expect(rig.calibration.latencyFactor('gh-rowcam-a')).toBe(createCalibrator(rig.store).forValidator('gh-rowcam-a')!.latencyFactor);
+  });
+
   it('the gate compares measured latency with the calibrated prediction', () => {
     const ctx = {
       gate: { applyTimeoutS: 60, telemetryFrames: 10, telemetryTimeoutS: 60, latencyTolerance: 0.1 },

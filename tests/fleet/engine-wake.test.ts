@@ -57,7 +57,7 @@ describe('rollout engine woken by device reports', () => {
     // A second engine with a clock the test moves; the rig's engine stays idle (hour-long tick, nothing moving).
     let nowMs = Date.now();
     const clock = { now: () => new Date(nowMs) };
-    const engine = createRolloutEngine({ store: rig.store, publisher: rig.bridge, clock, onDevicesStored: (l) => rig.bridge.onStored(l), tickMs: 20, calibrationEveryMs: HOUR_MS });
+    const engine = createRolloutEngine({ store: rig.store, publisher: rig.bridge, clock, onDevicesStored: (l) => rig.bridge.onStored(l), tickMs: 20, calibration: rig.calibration });
     // A device that says it is online and then ignores every release (a bare MQTT client, no agent).
     const mute = 'gh-wake-mute';
     const password = rig.enrol(mute, ['mute']);

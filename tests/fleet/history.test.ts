@@ -37,7 +37,7 @@ beforeAll(async () => {
   await waitFor(() => unit.agent.state().releaseId === 'gh-hist-1', 'release 1 applied');
   for (const task of ['leaves', 'rows', 'leaves']) {
     await new Promise((r) => setTimeout(r, 15));
-    expect((await unit.agent.setTask(task)).body).toMatchObject({ ok: true });
+    expect(await unit.agent.setTask(task)).toMatchObject({ ok: true });
   }
   // A rollout moves it to release 2.
   const created = await rig.call('POST', '/api/v1/rollouts', { releaseId: 'gh-hist-2', target: { deviceIds: [DEVICE] }, gate: { telemetryFrames: 0 } });

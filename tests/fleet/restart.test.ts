@@ -140,7 +140,7 @@ describe('rollout across a SIGKILL of the server process', () => {
     });
     expect(created.status).toBe(201);
     rolloutId = created.body.id;
-    await waitFor(async () => (await api('GET', `/api/v1/rollouts/${rolloutId}`)).body.currentWave >= 2, 'rollout reached its third wave', 60_000);
+    await waitFor(async () => (await api('GET', `/api/v1/rollouts/${rolloutId}`)).body.currentWave >= 3, 'rollout reached its third wave', 60_000);
 
     const killed = new Promise<NodeJS.Signals | null>((r) => server!.once('exit', (_code, signal) => r(signal)));
     server!.kill('SIGKILL');
@@ -169,7 +169,7 @@ describe('rollout across a SIGKILL of the server process', () => {
     const csv = captureIo(process.cwd(), { OCELLUS_TOKEN: ADMIN, OCELLUS_SERVER: base() });
     expect(await historyCommand([ids[0]!, '--csv'], csv)).toBe(0);
     const lines = csv.out().trim().split('\r\n');
-    expect(lines[0]).toBe('deviceId,task,profileId,profileRevision,releaseId,start,end,reason,causeRolloutId,causeActor,causeAssignment');
+    expect(lines[0]).toBe('deviceId,task,profileId,profileRevision,releaseId,start,end,reason,causeRolloutId,causeActor,causeAssignment,kind,reported,lastKnownTask');
     expect(lines[1]).toContain(`${ids[0]},fruit,${goodProfile.id},1,`);
     expect(lines[1]).toContain(rolloutId);
     const bad = captureIo(process.cwd(), { OCELLUS_TOKEN: ADMIN, OCELLUS_SERVER: base() });

@@ -66,13 +66,15 @@ describe('rollout in waves to 50 simulated agents (embedded broker, real agents,
       const r = await rolloutOf(rolloutId);
       return r.status === 'paused' ? r : null;
     }, 'rollout paused', 60_000);
-    expect(paused.currentWave).toBe(1);
+    // Waves are numbered from 1 in the API: the canary is wave 1, the refuser's wave 2.
+    expect(paused.currentWave).toBe(2);
+    expect(paused.pauseReason.wave).toBe(2);
     expect(paused.pauseReason.kind).toBe('gate');
     expect(paused.pauseReason.failures).toEqual([{ deviceId: refuser, reason: expect.stringMatching(/^refused the release: unknown-key/) }]);
-    // Wave 0 passed; wave 2 was never assigned.
+    // Wave 1 passed; wave 3 was never assigned.
     const byId = new Map<string, { status: string; wave: number }>(paused.devices.map((d: { deviceId: string }) => [d.deviceId, d]));
     expect(byId.get(ids[0]!)!.status).toBe('passed');
-    const wave2 = paused.devices.filter((d: { wave: number }) => d.wave === 2);
+    const wave2 = paused.devices.filter((d: { wave: number }) => d.wave === 3);
     expect(wave2).toHaveLength(44);
     expect(wave2.every((d: { status: string; assignmentId: number | null }) => d.status === 'waiting' && d.assignmentId === null)).toBe(true);
     expect(assignmentsByCause(`rollout:${rolloutId}`).map((r) => r.d).sort()).toEqual(ids.slice(0, 6).sort());

@@ -70,6 +70,7 @@ export const model = {
   inputHeightPx: 128,
   networkId: network.id,
   precision: 'int8',
+  measuredForTaskIds: ['fruit-count-test'],
   accuracyVsBlur: [
     { blurPx: 0, accuracy: 0.93 },
     { blurPx: 4, accuracy: 0.91 },

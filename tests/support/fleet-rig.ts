@@ -8,6 +8,7 @@ import { createApp, createSigner } from '../../src/api/index.js';
 import { createBridge, type Bridge } from '../../src/bus/bridge.js';
 import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.js';
 import { createKeepaliveNotes } from '../../src/bus/connection-notes.js';
+import { createCalibrationEngine, type CalibrationEngine, type CalibrationEngineOptions } from '../../src/fleet/calibration/engine.js';
 import { createRolloutEngine, type RolloutEngine, type RolloutEngineOptions } from '../../src/fleet/rollout/engine.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import type { SignedRelease } from '../../src/protocol/release.js';
@@ -36,6 +37,8 @@ export interface FleetRig {
   bridge: Bridge;
   broker: EmbeddedBroker;
   engine: RolloutEngine;
+  /** Drift and class calibrations on their own timer (`calibrationEveryMs`); tests may call refresh() themselves. */
+  calibration: CalibrationEngine;
   web: WeightsServer;
   operatorToken: string;
   /** JSON request to the in-process API as the operator. */
@@ -53,7 +56,8 @@ export interface FleetRig {
 
 const SERVER_USER = { username: 'fleet-test-server', password: 'fleet-test-server-secret' };
 
-export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): Promise<FleetRig> {
+export async function startFleetRig(options: RolloutEngineOptions & CalibrationEngineOptions = {}): Promise<FleetRig> {
+  const { calibrationEveryMs, driftTolerance, ...engineOptions } = options;
   const dir = tempDir('fleet');
   const store = openStore(dir.path);
   const passwords = new Map<string, string>();
@@ -68,9 +72,13 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
   web.files.set('/api/v1/models/rows-net/weights', rowsWeights.bytes);
   web.files.set('/api/v1/models/leaf-net/weights', leavesWeights.bytes);
   // Wired as the server wires it: devices' reports wake the engine.
-  const engine = createRolloutEngine({
-    store, publisher: bridge, clock: { now: () => new Date() }, onDevicesStored: (listener) => bridge.onStored(listener), tickMs: 50, ...engineOptions,
+  const calibration = createCalibrationEngine({
+    store, clock: { now: () => new Date() }, ...(calibrationEveryMs !== undefined ? { calibrationEveryMs } : {}), ...(driftTolerance !== undefined ? { driftTolerance } : {}),
   });
+  const engine = createRolloutEngine({
+    store, publisher: bridge, clock: { now: () => new Date() }, calibration, onDevicesStored: (listener) => bridge.onStored(listener), tickMs: 50, ...engineOptions,
+  });
+  calibration.start();
   engine.start();
   const key = loadOrCreateSigningKey(dir.path, generateSigningKeyPair);
   const app = createApp({ store, blobs: createBlobStore(dir.path), signer: createSigner(key), publisher: bridge, onError: (e) => { throw e; } });
@@ -89,6 +97,7 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
     bridge,
     broker,
     engine,
+    calibration,
     web,
     operatorToken,
     async call(method, path, body) {
@@ -124,6 +133,7 @@ export async function startFleetRig(engineOptions: RolloutEngineOptions = {}): P
       return a;
     },
     async close() {
+      calibration.stop();
       await engine.stop();
       for (const a of [...agents]) await a.agent.stop();
       await bridge.close();

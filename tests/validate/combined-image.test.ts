@@ -74,6 +74,19 @@ describe('regressions: the image the network receives (demo data)', () => {
   });
 });
 
+describe('the MTF at the feature', () => {
+  it("a 10 mm feature at 1.1 m is 0.0909 mm on the sensor (f/d, pinhole), read at 1/(2·0.0909 mm) = 5.5 cycles/mm; the contrast left is featureContrast × MTF", () => {
+    const report = validate(fixture({ task: { featureContrast: 0.4 } }));
+    const f = report.figures;
+    expect(f.featureCycPerMm).toBeCloseTo(1 / (2 * ((10 * 10) / 1100)), 9);
+    expect(f.mtfAtFeature).toBeGreaterThan(0.9);
+    expect(f.mtfAtFeature).toBeLessThanOrEqual(1);
+    expect(f.featureImageContrast).toBeCloseTo(0.4 * f.mtfAtFeature, 12);
+    expect(f.mtf50CycPerMm).toBeGreaterThan(f.featureCycPerMm);
+    expect(validate(fixture()).figures.featureImageContrast).toBeNull();
+  });
+});
+
 describe('model-task', () => {
   it('fails a model measured for other tasks, pointing at modelId', () => {
     const c = checkOf(validate(fixture({ model: { measuredForTaskIds: ['row-navigation'] } })), 'model-task');

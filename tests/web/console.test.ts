@@ -78,6 +78,15 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await rig.screenshot(page, 'profile-editor-failing');
     // The checks table fits its panel at 1280 px: no column cut off at the right edge.
     expect(await tableOverflowPx(page)).toBeLessThanOrEqual(0);
+    // The plots sit beside the checks at 1280 px, not below them: the combined blur with its parts and the MTF.
+    const checksBox = (await page.locator('.report-checks').boundingBox())!;
+    const plotsBox = (await page.locator('.report-plots').boundingBox())!;
+    expect(plotsBox.x).toBeGreaterThanOrEqual(checksBox.x + checksBox.width - 1);
+    expect(plotsBox.y).toBeLessThan(checksBox.y + checksBox.height);
+    for (const series of ['totalPx', 'defocusPx', 'diffractionPx', 'pixelPx', 'motionPx']) {
+      expect(await page.locator(`.report-plots path[data-series="${series}"]`).count(), series).toBe(1);
+    }
+    expect(await page.locator('svg[data-chart="mtf"] path[data-series="system"]').count()).toBe(1);
 
     await page.getByRole('button', { name: 'Save as revision 2' }).click();
     await page.getByText('Saved as revision 2 (fail).').waitFor();
@@ -155,6 +164,9 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     // budget"), and gh-scout-a's readout (9 ms) alone exceeds it.
     const { document: base } = await rig.api.json<{ document: Record<string, unknown> }>('GET', '/api/v1/tasks/fruit-counting');
     await rig.api.json('POST', '/api/v1/tasks', { ...base, id: 'fruit-counting-5ms', name: 'Fruit counting in 5 ms (demo data)', latencyBudgetMs: 5 });
+    // The planner searches only models measured for the task: the detector's new version says it was.
+    const { document: finder } = await rig.api.json<{ document: Record<string, any> }>('GET', '/api/v1/models/fruit-finder-a');
+    await rig.api.json('PUT', '/api/v1/models/fruit-finder-a', { ...finder, measuredForTaskIds: [...finder.measuredForTaskIds, 'fruit-counting-5ms'] });
     const page = await rig.openPage(rig.tokens.engineer);
     await page.goto(`${rig.server.url}/#/planner/fruit-counting-5ms/gh-scout-a`);
     await page.getByRole('button', { name: 'Search settings' }).click();

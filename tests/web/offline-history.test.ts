@@ -42,7 +42,7 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
     await agent.start();
     await rig.api.json('POST', `/api/v1/devices/${ROBOT}/assign`, { releaseId: rig.firstReleases.get('gh-scout-a') });
     await until(() => (agent.state().releaseId === rig.firstReleases.get('gh-scout-a') ? true : undefined), 'the robot to apply its release');
-    expect((await agent.setTask('row-navigation')).body.ok).toBe(true);
+    expect((await agent.setTask('row-navigation')).ok).toBe(true);
     await until(() => (agent.unackedEvents() === 0 ? true : undefined), 'the switch to be stored');
   }, 180_000);
 
@@ -99,7 +99,7 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
   it('back in coverage, what it did meanwhile fills the offline stretch in, hatched as reported after the fact', async () => {
     // While away the robot moved on to the leaves; the agent keeps the switch on disk.
     await until(() => (agent.connected() ? undefined : true), 'the agent to notice the link is gone');
-    expect((await agent.setTask('leaf-inspection')).body.ok).toBe(true);
+    expect((await agent.setTask('leaf-inspection')).ok).toBe(true);
     await new Promise((r) => setTimeout(r, 500));
     proxy.thaw();
     await until(() => (agent.connected() && agent.unackedEvents() === 0 ? true : undefined), 'the buffered events to be delivered');
@@ -203,6 +203,54 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
     expect(await focused()).toBe('0');
     await page.keyboard.press('Tab');
     expect(await focused()).toBe(null);
+    await page.context().close();
+  });
+
+  it('the audit log at 820 px: every entry readable, no column squeezed or clipped', async () => {
+    const page = await rig.openPage(rig.adminToken, { width: 820, height: 1180 });
+    await page.goto(`${rig.server.url}/#/audit`);
+    const rows = page.locator('table[aria-label="Audit log"] tbody tr');
+    await expect.poll(() => rows.count()).toBeGreaterThan(3);
+    const layout = await page.locator('table[aria-label="Audit log"]').evaluate((t) => {
+      const wrap = t.closest('.table-wrap')!;
+      const details = Array.from(t.querySelectorAll('td.detail')).map((d) => ({ width: d.getBoundingClientRect().width, clipped: d.scrollWidth > d.clientWidth + 1 }));
+      return { overflowPx: wrap.scrollWidth - wrap.clientWidth, narrowest: Math.min(...details.map((d) => d.width)), clipped: details.filter((d) => d.clipped).length };
+    });
+    expect(layout.overflowPx).toBeLessThanOrEqual(0);
+    expect(layout.clipped).toBe(0);
+    // A column one character wide would be about 10 px; the detail takes most of the 820 px.
+    expect(layout.narrowest).toBeGreaterThan(400);
+    await rig.screenshot(page, 'audit-tablet');
+    await page.context().close();
+  });
+
+  it('a rollout note shows on its card and in its audit entry; waves are numbered from 1 in the API, the card and the audit; the releases table counts robots per release', async () => {
+    const releaseId = rig.firstReleases.get('gh-scout-a')!;
+    const created = await rig.api.json<{ id: string; currentWave: number; waves: Array<{ wave: number }> }>('POST', '/api/v1/rollouts', {
+      releaseId, target: { deviceIds: [ROBOT] }, gate: { telemetryFrames: 0 }, note: 'trial on the spare scout before bay 3 (demo data)',
+    });
+    expect(created.currentWave).toBe(1);
+    expect(created.waves.map((w) => w.wave)).toEqual([1]);
+    const audit = await rig.api.json<Array<{ action: string; target: string; detail: { note?: string; wave?: number } }>>('GET', `/api/v1/audit?target=${encodeURIComponent(`rollout/${created.id}`)}`);
+    expect(audit.find((a) => a.action === 'rollout.create')?.detail.note).toBe('trial on the spare scout before bay 3 (demo data)');
+    const page = await rig.openPage();
+    await page.goto(`${rig.server.url}/#/releases`);
+    const card = page.locator(`[data-rollout="${created.id}"]`);
+    await card.waitFor();
+    expect(await card.locator('[data-note]').textContent()).toContain('trial on the spare scout');
+    expect(await card.textContent()).toContain('wave 1 of 1');
+    expect(await card.textContent()).toContain('Wave 1');
+    await until(async () => {
+      const a = await rig.api.json<Array<{ action: string; detail: { wave?: number } }>>('GET', `/api/v1/audit?target=${encodeURIComponent(`rollout/${created.id}`)}`);
+      return a.find((e) => e.action === 'rollout.wave-start') ? a : undefined;
+    }, 'the wave to start').then((a) => expect(a.find((e) => e.action === 'rollout.wave-start')!.detail.wave).toBe(1));
+    const releases = await rig.api.json<Array<{ id: string; robots: { applied: { online: number; offline: number }; assigned: number } }>>('GET', '/api/v1/releases');
+    const mine = releases.find((r) => r.id === releaseId)!;
+    // Two robots of class gh-scout-a run it: the rig's demo scout and the spare.
+    expect(mine.robots.applied.online + mine.robots.applied.offline).toBe(2);
+    expect(mine.robots.assigned).toBe(2);
+    const cell = page.locator('table tbody tr', { hasText: releaseId }).first().locator('[data-robots]');
+    await expect.poll(() => cell.textContent()).toContain('2 robots');
     await page.context().close();
   });
 });

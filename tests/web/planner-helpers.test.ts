@@ -4,7 +4,7 @@ import { modelStyles } from '../../src/web/client/charts/front-plot.js';
 import { OKABE_ITO } from '../../src/web/client/charts/scale.js';
 import { plannedProfile } from '../../src/web/client/planned-draft.js';
 import { href, parsePlace } from '../../src/web/client/router.js';
-import type { Candidate, Profile } from '../../src/web/client/types.js';
+import type { Candidate, Profile } from '../../src/api-client/response-types.js';
 
 const base: Profile = {
   kind: 'profile',

@@ -5,7 +5,8 @@ import { DEFAULT_DRIFT_TOLERANCE } from '../../fleet/calibration/drift.js';
 import { driftQuerySchema, reportQuerySchema } from '../../fleet/queries.js';
 import { readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
-import { HttpError, notFound } from '../errors.js';
+import { notFound } from '../errors.js';
+import { refusalError } from '../refusals.js';
 import type { Router } from '../routing.js';
 
 /** What every calibration answer states: how it is fitted and when it is used. */
@@ -44,7 +45,7 @@ export function registerCalibrationRoutes(route: Router, deps: ResolvedDeps): vo
     const id = c.req.param('id') ?? '';
     const { revision } = readQuery(c, reportQuerySchema);
     const result = calibratedReport(store, id, revision);
-    if (!result.ok) throw result.code === 'not-found' ? notFound(result.message.replace(/ not found$/, '')) : new HttpError(409, result.message);
+    if (!result.ok) throw refusalError(result);
     return c.json(result);
   });
 

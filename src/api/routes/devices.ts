@@ -4,8 +4,9 @@ import { actorOf } from '../auth.js';
 import { recordChange } from '../audit-log.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
-import { badRequest, conflict, HttpError, notFound } from '../errors.js';
+import { badRequest, conflict, notFound } from '../errors.js';
 import { assignRequestSchema, deviceQuerySchema, enrolRequestSchema } from '../request-schemas.js';
+import { refusalError } from '../refusals.js';
 import type { Router } from '../routing.js';
 
 /** Shown with every assignment: the API sends settings to a robot, so the caution travels with the answer. */
@@ -74,11 +75,7 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
       cause: 'manual',
       at: deps.clock.now().toISOString(),
     });
-    if (!result.ok) {
-      if (result.code === 'device-not-found') throw notFound(`device '${id}'`);
-      if (result.code === 'release-not-found') throw badRequest('unknown release', [{ path: 'releaseId', message: result.message }]);
-      throw new HttpError(409, result.message, { issues: [{ path: 'releaseId', message: result.message }] });
-    }
+    if (!result.ok) throw refusalError(result);
     return c.json({
       assignment: result.assignment,
       release: { id: result.release.parsed.release.id, version: result.release.parsed.release.version, applyPolicy: result.release.parsed.release.applyPolicy },

@@ -9,6 +9,7 @@ import { badRequest, conflict, notFound } from '../errors.js';
 import { diffJson } from '../json-diff.js';
 import { checkProfile, type CheckedProfile } from '../../release/profile-inputs.js';
 import { diffQuerySchema } from '../request-schemas.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
 
 function summary(r: ProfileRevision<Profile>) {
@@ -22,7 +23,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   const failures = deps.metrics.counter(METRIC_NAMES.validationFailures, 'Profile validations whose report failed');
 
   function checked(profile: Profile, where: 'save' | 'check'): CheckedProfile {
-    const result = checkProfile(store, profile);
+    const result = unwrap(checkProfile(store, profile));
     if (result.report.status === 'fail') failures.inc({ where });
     return result;
   }

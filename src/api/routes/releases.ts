@@ -1,12 +1,14 @@
-import type { Release } from '../../protocol/release.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { conflict, notFound } from '../errors.js';
-import { buildRelease } from '../../release/build.js';
-import { releaseQuerySchema, releaseRequestSchema } from '../request-schemas.js';
+import { createRelease } from '../../release/create.js';
+import { releaseRequestSchema } from '../../release/request.js';
+import { releaseQuerySchema } from '../request-schemas.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
+
+const JSON_TYPE = 'application/json';
 
 /** Releases: built from validated revisions, signed with the server's key, stored, and never changed. */
 export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
@@ -14,33 +16,24 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('releases.create', async (c) => {
     const request = await readJson(c, releaseRequestSchema, deps.limits.maxJsonBytes);
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const signed = store.transaction(() => {
-      const release = buildRelease(request, { store, blobs: deps.blobs, actor, at });
-      const s = signer.sign(release);
-      store.releases.insert({ id: release.id, deviceClassId: release.deviceClassId, version: release.version, createdAt: at, createdBy: actor, signed: s });
-      recordChange(store, {
-        at,
-        actor,
-        action: 'release.create',
-        target: `release/${release.id}`,
-        detail: {
-          version: release.version,
-          deviceClassId: release.deviceClassId,
-          tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
-          keyId: s.keyId,
-          override: release.override ?? null,
-        },
-      });
-      return s;
-    });
-    return c.json(signed, 201);
+    const stored = unwrap(createRelease(request, { store, blobs: deps.blobs, signer, actor: actorOf(c), at: deps.clock.now().toISOString() }));
+    return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 
   route('releases.list', (c) => {
     const q = readQuery(c, releaseQuerySchema);
     const list = store.releases.list(q.deviceClass === undefined ? {} : { deviceClassId: q.deviceClass });
+    // Robots per release: those whose own latest report says it is applied (online or not), and those assigned it.
+    const applied = new Map<string, { online: number; offline: number }>();
+    for (const s of store.deviceStates.list()) {
+      if (!s.releaseId) continue;
+      const n = applied.get(s.releaseId) ?? { online: 0, offline: 0 };
+      if (s.online) n.online += 1;
+      else n.offline += 1;
+      applied.set(s.releaseId, n);
+    }
+    const assigned = new Map<string, number>();
+    for (const d of store.devices.list()) if (d.assignedReleaseId) assigned.set(d.assignedReleaseId, (assigned.get(d.assignedReleaseId) ?? 0) + 1);
     return c.json(
       list.map((r) => {
         const release = r.parsed.release;
@@ -54,6 +47,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          robots: { applied: applied.get(r.id) ?? { online: 0, offline: 0 }, assigned: assigned.get(r.id) ?? 0 },
         };
       }),
     );
@@ -63,7 +57,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
     const r = store.releases.get(c.req.param('id') ?? '');
     if (!r) throw notFound(`release '${c.req.param('id')}'`);
     // The stored text, byte for byte: what the signature was made over and what devices receive.
-    return c.body(r.raw, 200, { 'content-type': 'application/json; charset=UTF-8' });
+    return c.body(r.raw, 200, { 'content-type': JSON_TYPE });
   });
 
   for (const key of ['releases.replace', 'releases.patch', 'releases.delete']) {

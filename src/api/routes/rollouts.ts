@@ -1,21 +1,14 @@
-import { createRolloutService, ROLLOUT_CAUTION, type ServiceError, type ServiceResult } from '../../fleet/rollout/service.js';
+import { createRolloutService, ROLLOUT_CAUTION } from '../../fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../../fleet/rollout/spec.js';
 import { rolloutQuerySchema } from '../../fleet/queries.js';
 import { actorOf } from '../auth.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError } from '../errors.js';
+import { unwrap } from '../refusals.js';
 import type { Router } from '../routing.js';
+import { withWaveNumbers } from './wave-numbers.js';
 
-function toHttp(e: ServiceError): HttpError {
-  const status = e.code === 'not-found' ? 404 : e.code === 'conflict' ? 409 : 400;
-  return new HttpError(status, e.message, { issues: e.issues, ...(e.detail ? { extra: e.detail } : {}) });
-}
-
-function unwrap<T>(r: ServiceResult<T>): T {
-  if (!r.ok) throw toHttp(r);
-  return r.value;
-}
 
 /**
  * Rollouts: a release sent to a set of devices in waves, each wave passing its gate before the next starts.
@@ -28,25 +21,26 @@ export function registerRolloutRoutes(route: Router, deps: ResolvedDeps): void {
   route('rollouts.create', async (c) => {
     const request = await readJson(c, rolloutRequestSchema, deps.limits.maxJsonBytes);
     const rollout = unwrap(service.create(request, actorOf(c), now()));
-    return c.json({ ...rollout, caution: ROLLOUT_CAUTION }, 201);
+    return c.json({ ...withWaveNumbers(rollout), caution: ROLLOUT_CAUTION }, 201);
   });
 
   route('rollouts.list', (c) => {
     const q = readQuery(c, rolloutQuerySchema);
-    return c.json(service.list({ ...(q.status ? { status: q.status } : {}), ...(q.limit ? { limit: q.limit } : {}) }));
+    return c.json(service.list({ ...(q.status ? { status: q.status } : {}), ...(q.limit ? { limit: q.limit } : {}) }).map(withWaveNumbers));
   });
 
   route('rollouts.read', (c) => {
     const id = c.req.param('id') ?? '';
     const rollout = service.view(id);
     if (!rollout) throw new HttpError(404, `rollout '${id}' not found`);
-    return c.json(rollout);
+    return c.json(withWaveNumbers(rollout));
   });
 
   for (const verb of ['pause', 'resume', 'abort', 'rollback'] as const) {
     route(`rollouts.${verb}`, (c) => {
       const rollout = unwrap(service[verb](c.req.param('id') ?? '', actorOf(c), now()));
-      return c.json(verb === 'resume' || verb === 'rollback' ? { ...rollout, caution: ROLLOUT_CAUTION } : rollout);
+      const shown = withWaveNumbers(rollout);
+      return c.json(verb === 'resume' || verb === 'rollback' ? { ...shown, caution: ROLLOUT_CAUTION } : shown);
     });
   }
 }

@@ -1,4 +1,5 @@
 import type { ReleasePublisher } from '../../protocol/release.js';
+import { refuse, type Refusal } from '../../schema/refusal.js';
 import type { AssignmentRecord, DeviceRecord } from '../../store/devices.js';
 import type { ReleaseRecord } from '../../store/releases.js';
 import type { Store } from '../../store/store.js';
@@ -25,7 +26,10 @@ export type PublishOutcome = { status: 'sent' } | { status: 'not-sent'; reason: 
 
 export type AssignResult =
   | { ok: true; assignment: AssignmentRecord; release: ReleaseRecord; publish: PublishOutcome }
-  | { ok: false; code: 'device-not-found' | 'release-not-found' | 'class-mismatch'; message: string };
+  | Refusal<AssignRefusalCode>;
+
+/** Why an assignment is refused: the device or the release is not stored, or the release is for another device class. */
+export type AssignRefusalCode = 'device-not-found' | 'release-not-found' | 'class-mismatch';
 
 type Prepared =
   | { ok: true; input: AssignInput; at: string; device: DeviceRecord; record: ReleaseRecord }
@@ -35,15 +39,12 @@ type Prepared =
 function prepare(store: Store, input: AssignInput, parsed: ParsedReleases): Prepared {
   const at = input.at ?? new Date().toISOString();
   const device = store.devices.get(input.deviceId);
-  if (!device) return { ok: false, code: 'device-not-found', message: `no device '${input.deviceId}' is enrolled` };
+  if (!device) return refuse('device-not-found', `device '${input.deviceId}' not found`, [{ path: 'deviceId', message: `no device '${input.deviceId}' is enrolled` }]);
   const record = parsed.get(input.releaseId) ?? store.releases.get(input.releaseId);
-  if (!record) return { ok: false, code: 'release-not-found', message: `no release '${input.releaseId}' is stored` };
+  if (!record) return refuse('release-not-found', 'unknown release', [{ path: 'releaseId', message: `no release '${input.releaseId}' is stored` }]);
   if (record.deviceClassId !== device.deviceClassId) {
-    return {
-      ok: false,
-      code: 'class-mismatch',
-      message: `release '${record.id}' is for device class '${record.deviceClassId}'; device '${device.id}' is a '${device.deviceClassId}'`,
-    };
+    const message = `release '${record.id}' is for device class '${record.deviceClassId}'; device '${device.id}' is a '${device.deviceClassId}'`;
+    return refuse('class-mismatch', message, [{ path: 'releaseId', message }]);
   }
   // Releases never change once stored, so one batch reads each release once.
   parsed.set(record.id, record);

@@ -2,8 +2,7 @@ import { releaseSchema, type Release } from '../../protocol/release.js';
 import type { RolloutDeviceRecord, RolloutRecord } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
 import type { ReleasePublisher } from '../../protocol/release.js';
-import { createCalibrator } from '../calibration/calibrator.js';
-import { createDriftMonitor, DEFAULT_DRIFT_TOLERANCE } from '../calibration/drift.js';
+import type { CalibrationEngine } from '../calibration/engine.js';
 import { createAssignmentDispatcher } from './dispatch.js';
 import { createFactsReader } from './facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './gate.js';
@@ -16,9 +15,6 @@ export const ENGINE_ACTOR = 'fleet engine';
 export interface RolloutEngineOptions {
   /** How often the engine looks at every moving rollout, in ms (200 by default). */
   tickMs?: number;
-  /** How often drift is checked and the gate's class calibration refreshed, in ms (10,000 by default). */
-  calibrationEveryMs?: number;
-  driftTolerance?: number;
   /** How many assignments one transaction records (100 by default); each batch is sent as soon as it is recorded. */
   assignConcurrency?: number;
   /** Sends the broker has not acknowledged yet above which the engine waits before recording more (2,000 by default). */
@@ -31,6 +27,8 @@ export interface RolloutEngineDeps extends RolloutEngineOptions {
   /** Sends releases over the bus; without it assignments are recorded only (devices get them on the bus's next start). */
   publisher: ReleasePublisher | undefined;
   clock: { now(): Date };
+  /** The class calibrations the latency gate applies (src/fleet/calibration/engine.ts keeps them current). */
+  calibration: Pick<CalibrationEngine, 'latencyFactor'>;
   /**
    * Subscribes to the bus's "devices stored" notices (the bridge's `onStored`); returns the unsubscribe. With it,
    * a device's report is judged as soon as it is stored instead of on the next tick, and passes over every open
@@ -66,11 +64,9 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const { store, publisher, clock } = deps;
   const log = deps.log ?? (() => {});
   const tickMs = deps.tickMs ?? 200;
-  const calibrationEveryMs = deps.calibrationEveryMs ?? 10_000;
   const repo = store.rollouts;
   const facts = createFactsReader(store.rolloutFacts);
   const ranges = store.eventRanges;
-  const drift = createDriftMonitor({ store, clock, tolerance: deps.driftTolerance ?? DEFAULT_DRIFT_TOLERANCE });
   const dispatcher = createAssignmentDispatcher({
     store,
     publisher,
@@ -81,8 +77,6 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     log,
   });
   const releases = new Map<string, Release>();
-  let factors = new Map<string, number>();
-  let lastCalibrationMs = Number.NEGATIVE_INFINITY;
   let unsubscribe: (() => void) | null = null;
   const reportsWake = deps.onDevicesStored !== undefined;
   // Per running rollout: its state when a pass last judged its whole wave (see pass()).
@@ -103,11 +97,6 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     return r;
   }
 
-  function latencyFactor(deviceClassId: string): number {
-    if (!factors.has(deviceClassId)) factors.set(deviceClassId, createCalibrator(store).forValidator(deviceClassId)?.latencyFactor ?? 1);
-    return factors.get(deviceClassId)!;
-  }
-
   function audit(r: RolloutRecord, action: string, at: string, detail: unknown) {
     store.audit.record({ at, actor: ENGINE_ACTOR, action, target: `rollout/${r.id}`, detail });
   }
@@ -120,13 +109,14 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const at = new Date(nowMs).toISOString();
     if (r.waveStartedAt === null) {
       repo.startWave(r.id, r.currentWave, at);
-      audit(r, 'rollout.wave-start', at, { wave: r.currentWave });
+      // Audit details number waves from 1, as the API and the console do.
+      audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 1 });
       r = repo.get(r.id)!;
     }
     const spec = r.spec as RolloutSpec;
     const release = releaseOf(r.releaseId);
     // The class's calibration reads many events: only a gate that checks latency needs it.
-    const ctx = { gate: spec.gate, offline: spec.offline, latencyFactor: spec.gate.telemetryFrames > 0 ? latencyFactor(r.deviceClassId) : 1 };
+    const ctx = { gate: spec.gate, offline: spec.offline, latencyFactor: spec.gate.telemetryFrames > 0 ? deps.calibration.latencyFactor(r.deviceClassId) : 1 };
     const waveStartMs = Date.parse(r.waveStartedAt!);
     const waveKey = `${r.id}|${r.currentWave}`;
     const toAssign: RolloutDeviceRecord[] = [];
@@ -172,11 +162,11 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
         const failures = repo.devices(r.id, r.currentWave).filter((d) => d.status === 'failed').map((d) => ({ deviceId: d.deviceId, reason: d.reason ?? 'failed' }));
         const reason = { kind: 'gate', wave: r.currentWave, at, failures };
         repo.setStatus(r.id, 'paused', at, reason);
-        audit(r, 'rollout.pause', at, reason);
-        log(`rollout ${r.id}: wave ${r.currentWave} failed its gate (${failures.map((f) => f.deviceId).join(', ')}); paused`);
+        audit(r, 'rollout.pause', at, { ...reason, wave: r.currentWave + 1 });
+        log(`rollout ${r.id}: wave ${r.currentWave + 1} failed its gate (${failures.map((f) => f.deviceId).join(', ')}); paused`);
       } else if (r.currentWave + 1 < r.waveCount) {
         repo.startWave(r.id, r.currentWave + 1, at);
-        audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 1, previousWavePassed: r.currentWave });
+        audit(r, 'rollout.wave-start', at, { wave: r.currentWave + 2, previousWavePassed: r.currentWave + 1 });
         waveOpened = true;
       } else {
         repo.setStatus(r.id, 'completed', at);
@@ -226,13 +216,6 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     let waitedMs = 0;
     waveOpened = false;
     const nowMs = clock.now().getTime();
-    if (request.kind !== 'reported' && nowMs - lastCalibrationMs >= calibrationEveryMs) {
-      lastCalibrationMs = nowMs;
-      factors = new Map();
-      for (const change of drift.check()) {
-        log(`drift ${change.kind}: ${change.record.deviceId} ${change.record.quantity} ${(change.record.deviation * 100).toFixed(1)}% from its class`);
-      }
-    }
     const moving = repo.moving();
     if (request.kind !== 'reported') forgetAllBut(moving);
     for (const r of moving) {

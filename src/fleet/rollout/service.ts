@@ -1,5 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import type { InputIssue } from '../../schema/issues.js';
+import { refuse, type Outcome } from '../../schema/refusal.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
@@ -11,23 +12,12 @@ export const ROLLOUT_CAUTION =
   "you can watch, let devices apply releases only in safe states (apply policy 'when-idle'), and follow the site's risk assessment, " +
   'robot safety standards and local regulations.';
 
-export type ServiceError = {
-  ok: false;
-  code: 'not-found' | 'invalid' | 'conflict';
-  message: string;
-  issues: InputIssue[];
-  /** Extra data for the answer, e.g. the devices another rollout holds. */
-  detail?: Record<string, unknown>;
-};
-export type ServiceResult<T> = { ok: true; value: T } | ServiceError;
+/** Why a rollout request is refused: the rollout is not stored, the request is invalid, or it clashes with stored state. */
+export type RolloutRefusalCode = 'not-found' | 'invalid' | 'conflict';
+/** A refusal's `detail` carries extra data for the answer, e.g. the devices another rollout holds. */
+export type ServiceResult<T> = Outcome<T, RolloutRefusalCode>;
 
-const fail = (code: ServiceError['code'], message: string, issues: InputIssue[] = [], detail?: Record<string, unknown>): ServiceError => ({
-  ok: false,
-  code,
-  message,
-  issues,
-  ...(detail ? { detail } : {}),
-});
+const fail = refuse<RolloutRefusalCode>;
 
 export interface WaveSummary {
   wave: number;
@@ -167,7 +157,7 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
           actor,
           action: 'rollout.create',
           target: `rollout/${id}`,
-          detail: { releaseId: release.id, version: release.version, devices: ids.length, waves: plan, gate: request.gate, offline: request.offline },
+          detail: { releaseId: release.id, version: release.version, devices: ids.length, waves: plan, gate: request.gate, offline: request.offline, ...(request.note ? { note: request.note } : {}) },
         });
         return { ok: true as const, value: view(id)! };
       });

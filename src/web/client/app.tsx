@@ -1,5 +1,5 @@
 import { useEffect, useMemo, useState } from 'preact/hooks';
-import { createApiClient, fetchWhoAmI, type WhoAmI } from './api.js';
+import { createConsoleClient, fetchWhoAmI, type WhoAmI } from './api.js';
 import { SessionContext, type ConsoleSession } from './context.js';
 import { createLiveFeed, type LiveStatus } from './live.js';
 import { AuditPage } from './pages/audit.js';
@@ -52,7 +52,7 @@ function Page({ place }: { place: Place }) {
 function Console({ token, who, onSignOut }: { token: string; who: WhoAmI; onSignOut: () => void }) {
   const place = useHashPlace();
   const session = useMemo<ConsoleSession>(() => {
-    const api = createApiClient(token, onSignOut);
+    const api = createConsoleClient(token, onSignOut);
     const allowed = new Set(who.allowed);
     return { api, who, can: (key) => allowed.has(key), live: createLiveFeed(api) };
   }, [token, who]);

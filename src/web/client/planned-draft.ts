@@ -3,7 +3,7 @@
  * until the editor takes it, so a reload of the editor does not lose it and nothing reaches the server
  * until the person saves.
  */
-import type { Candidate, Profile } from './types.js';
+import type { Candidate, Profile } from '../../api-client/response-types.js';
 
 const PREFIX = 'ocellus.console.planned.';
 

@@ -5,16 +5,33 @@ export interface BlurPoint {
   distanceM: number;
   defocusPx: number | null;
   diffractionPx: number | null;
+  pixelPx?: number | null;
+  motionPx?: number | null;
   totalPx: number | null;
 }
 
 interface Props {
   curve: BlurPoint[];
+  /** The model's tolerance, in `unit`. */
   toleratedBlurPx: number | null | undefined;
+  /** Pixels the plot is drawn in: the tolerance's; sensor-px figures are divided by `downscale` for input px. */
+  unit?: 'sensor-px' | 'input-px' | undefined;
+  downscale?: number | undefined;
   nearM: number;
   farM: number;
   focusM: number;
 }
+
+type Key = 'totalPx' | 'defocusPx' | 'diffractionPx' | 'pixelPx' | 'motionPx';
+
+/** The parts of the combined blur, each drawn as its own line; the combined blur is at least the largest. */
+const SERIES: Array<{ key: Key; label: string; color: string; width: number; dash?: string }> = [
+  { key: 'totalPx', label: 'combined blur', color: OKABE_ITO.blue, width: 2.5 },
+  { key: 'defocusPx', label: 'defocus', color: OKABE_ITO.orange, width: 1.5, dash: '5 3' },
+  { key: 'diffractionPx', label: 'diffraction', color: OKABE_ITO.reddishPurple, width: 1.5, dash: '1 3' },
+  { key: 'pixelPx', label: 'pixel aperture', color: OKABE_ITO.skyBlue, width: 1.5, dash: '3 2' },
+  { key: 'motionPx', label: 'motion', color: OKABE_ITO.black, width: 1.5, dash: '7 2 1 2' },
+];
 
 const W = 470;
 const H = 250;
@@ -25,23 +42,30 @@ function path(points: Array<[number, number]>): string {
 }
 
 /**
- * Blur in pixels against object distance over the task's working range (shaded), with the blur the model
+ * The combined blur (one MTF of defocus, diffraction, pixel aperture and motion, as an equivalent disc) against
+ * object distance over the task's working range (shaded), each part as its own line, with the blur the model
  * tolerates as a horizontal line and the focus distance marked. Distance runs on a log axis.
  */
-export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props) {
+export function BlurPlot({ curve: sensorCurve, toleratedBlurPx, unit = 'sensor-px', downscale = 1, nearM, farM, focusM }: Props) {
+  const k = unit === 'input-px' ? downscale : 1;
+  const scaled = (v: number | null | undefined) => (v === null || v === undefined ? null : v / k);
+  const curve: BlurPoint[] = sensorCurve.map((p) => ({
+    distanceM: p.distanceM, totalPx: scaled(p.totalPx), defocusPx: scaled(p.defocusPx), diffractionPx: scaled(p.diffractionPx), pixelPx: scaled(p.pixelPx), motionPx: scaled(p.motionPx),
+  }));
+  const unitText = unit === 'input-px' ? 'input px' : 'px';
   const finite = curve.filter((p) => p.totalPx !== null && Number.isFinite(p.totalPx));
   const lo = Math.min(nearM, focusM) / 1.35;
   const hi = Math.max(farM, focusM) * 1.35;
   const x = logScale([lo, hi], [M.left, W - M.right]);
   const maxBlur = Math.max(1, toleratedBlurPx ?? 0, ...finite.map((p) => p.totalPx as number));
   const y = linearScale([0, maxBlur * 1.15], [H - M.bottom, M.top]);
-  const line = (key: 'totalPx' | 'defocusPx' | 'diffractionPx') =>
-    path(curve.filter((p) => p[key] !== null && Number.isFinite(p[key])).map((p) => [x(p.distanceM), y(Math.min(p[key] as number, maxBlur * 1.15))]));
+  const line = (key: Key) =>
+    path(curve.filter((p) => p[key] != null && Number.isFinite(p[key])).map((p) => [x(p.distanceM), y(Math.min(p[key] as number, maxBlur * 1.15))]));
   const worst = finite.reduce<BlurPoint | null>((w, p) => (w === null || (p.totalPx as number) > (w.totalPx as number) ? p : w), null);
   const summary =
     `Blur against distance from ${num(nearM)} m to ${num(farM)} m, focus at ${num(focusM)} m. ` +
-    (worst ? `Worst ${num(worst.totalPx)} px at ${num(worst.distanceM)} m; ` : '') +
-    `the model tolerates ${num(toleratedBlurPx ?? null)} px.`;
+    (worst ? `Worst combined blur ${num(worst.totalPx)} ${unitText} at ${num(worst.distanceM)} m; ` : '') +
+    `the model tolerates ${num(toleratedBlurPx ?? null)} ${unitText}.`;
 
   return (
     <figure class="chart">
@@ -72,7 +96,7 @@ export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props)
           object distance (m, log scale)
         </text>
         <text x={14} y={(M.top + H - M.bottom) / 2} text-anchor="middle" class="axis-title" transform={`rotate(-90 14 ${(M.top + H - M.bottom) / 2})`}>
-          blur (px)
+          blur ({unitText})
         </text>
         <line x1={x(focusM)} x2={x(focusM)} y1={M.top} y2={H - M.bottom} stroke={OKABE_ITO.bluishGreen} stroke-width="1.5" stroke-dasharray="2 3" />
         <text x={x(focusM) + 4} y={H - M.bottom - 6} class="tick" fill={OKABE_ITO.bluishGreen}>
@@ -82,25 +106,21 @@ export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props)
           <g>
             <line x1={M.left} x2={W - M.right} y1={y(toleratedBlurPx)} y2={y(toleratedBlurPx)} stroke={OKABE_ITO.vermillion} stroke-width="2" stroke-dasharray="8 3 2 3" />
             <text x={W - M.right - 4} y={y(toleratedBlurPx) - 5} text-anchor="end" class="tick" fill={OKABE_ITO.vermillion}>
-              tolerated {num(toleratedBlurPx)} px
+              tolerated {num(toleratedBlurPx)} {unitText}
             </text>
           </g>
         )}
-        <path d={line('diffractionPx')} fill="none" stroke={OKABE_ITO.reddishPurple} stroke-width="1.5" stroke-dasharray="1 3" />
-        <path d={line('defocusPx')} fill="none" stroke={OKABE_ITO.orange} stroke-width="1.5" stroke-dasharray="5 3" />
-        <path d={line('totalPx')} fill="none" stroke={OKABE_ITO.blue} stroke-width="2.5" />
+        {[...SERIES].reverse().map((s) => (
+          <path d={line(s.key)} fill="none" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} data-series={s.key} />
+        ))}
       </svg>
       <figcaption>
         <ul class="legend">
-          <li>
-            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.blue} stroke-width="2.5" /></svg> total blur
-          </li>
-          <li>
-            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.orange} stroke-width="1.5" stroke-dasharray="5 3" /></svg> defocus
-          </li>
-          <li>
-            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.reddishPurple} stroke-width="1.5" stroke-dasharray="1 3" /></svg> diffraction
-          </li>
+          {SERIES.map((s) => (
+            <li>
+              <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} /></svg> {s.label}
+            </li>
+          ))}
           <li>
             <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.vermillion} stroke-width="2" stroke-dasharray="8 3 2 3" /></svg> tolerated blur
           </li>
@@ -111,9 +131,11 @@ export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props)
             <thead>
               <tr>
                 <th scope="col">distance (m)</th>
-                <th scope="col">defocus (px)</th>
-                <th scope="col">diffraction (px)</th>
-                <th scope="col">total (px)</th>
+                <th scope="col">defocus ({unitText})</th>
+                <th scope="col">diffraction ({unitText})</th>
+                <th scope="col">pixel ({unitText})</th>
+                <th scope="col">motion ({unitText})</th>
+                <th scope="col">combined ({unitText})</th>
               </tr>
             </thead>
             <tbody>
@@ -122,6 +144,8 @@ export function BlurPlot({ curve, toleratedBlurPx, nearM, farM, focusM }: Props)
                   <td>{num(p.distanceM)}</td>
                   <td>{num(p.defocusPx)}</td>
                   <td>{num(p.diffractionPx)}</td>
+                  <td>{num(p.pixelPx)}</td>
+                  <td>{num(p.motionPx)}</td>
                   <td>{num(p.totalPx)}</td>
                 </tr>
               ))}

@@ -1,6 +1,6 @@
 import type { JSX } from 'preact';
 import { num } from '../format.js';
-import type { Candidate } from '../types.js';
+import type { Candidate } from '../../../api-client/response-types.js';
 import { linearScale, OKABE_ITO, SERIES_COLOURS } from './scale.js';
 
 interface Props {

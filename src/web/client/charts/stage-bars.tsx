@@ -41,7 +41,7 @@ export function StageBars({ title, unit, stages, total, budget }: Props) {
           <g>
             <line x1={x(budget)} x2={x(budget)} y1={M.top} y2={H - M.bottom + 4} stroke={OKABE_ITO.vermillion} stroke-width="2.5" />
             <text x={x(budget)} y={H - 4} text-anchor="middle" class="tick" fill={OKABE_ITO.vermillion}>
-              budget {num(budget)}
+              budget {num(budget)} {unit}
             </text>
           </g>
         )}

@@ -1,7 +1,7 @@
 import { useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
-import type { AuditEntry } from '../types.js';
+import type { AuditEntry } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading } from '../ui/status.js';
 
 interface Filter {
@@ -116,7 +116,7 @@ export function AuditPage() {
         <Loading what="the audit log" />
       ) : (
         <div class="table-wrap">
-          <table class="grid compact" aria-label="Audit log">
+          <table class="grid compact audit-log" aria-label="Audit log">
             <thead>
               <tr>
                 <th scope="col">When</th>
@@ -129,15 +129,15 @@ export function AuditPage() {
             <tbody>
               {entries.data.map((a) => (
                 <tr>
-                  <td class="nowrap">{dateTime(a.at)}</td>
-                  <td>{a.actor}</td>
-                  <td class="nowrap">
+                  <td class="nowrap" data-label="When">{dateTime(a.at)}</td>
+                  <td data-label="Who">{a.actor}</td>
+                  <td class="nowrap" data-label="Action">
                     <code>{a.action}</code>
                   </td>
-                  <td class="nowrap">
-                    <code>{a.target}</code>
+                  <td data-label="Target">
+                    <code class="wrap-anywhere">{a.target}</code>
                   </td>
-                  <td class="detail">
+                  <td class="detail" data-label="Detail">
                     <Detail detail={a.detail} />
                   </td>
                 </tr>

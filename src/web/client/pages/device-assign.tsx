@@ -1,6 +1,6 @@
 import { useState } from 'preact/hooks';
 import { useLoad, useSession } from '../context.js';
-import type { ReleaseSummary } from '../types.js';
+import type { ReleaseSummary } from '../../../api-client/response-types.js';
 import { ErrorNote } from '../ui/status.js';
 
 /** Send one release to this one robot: the way to try a release on a single unit before a rollout. */

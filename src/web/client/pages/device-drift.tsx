@@ -1,13 +1,13 @@
 import { dateTime, duration, num } from '../format.js';
-import type { DriftRecord } from '../types.js';
+import type { DriftEpisode } from '../../../api-client/response-types.js';
 
-const QUANTITY: Record<DriftRecord['quantity'], string> = { latency: 'inference time', energy: 'inference energy' };
+const QUANTITY: Record<DriftEpisode['quantity'], string> = { latency: 'inference time', energy: 'inference energy' };
 
 /**
  * Episodes where this unit's measured ÷ predicted ratio left the rest of its class's by more than the
  * tolerance: a hint of a worn or differently built unit, or one running hot. Newest first.
  */
-export function DeviceDrift({ episodes }: { episodes: DriftRecord[] }) {
+export function DeviceDrift({ episodes }: { episodes: DriftEpisode[] }) {
   return (
     <section class="panel drift" aria-labelledby="drift-title">
       <h2 id="drift-title">Drift from its class</h2>

@@ -4,7 +4,7 @@ import { fittedWindow, zoomWindow } from '../charts/time-axis.js';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { ago, dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { DeviceDetail } from '../types.js';
+import type { DeviceDetail } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
 import { DeviceAssign } from './device-assign.js';
 import { DeviceDrift } from './device-drift.js';

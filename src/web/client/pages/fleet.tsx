@@ -2,7 +2,7 @@ import { useMemo, useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { ago, dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { DeviceListItem } from '../types.js';
+import type { DeviceListItem } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, OnlineBadge } from '../ui/status.js';
 
 type OnlineFilter = 'all' | 'online' | 'offline';

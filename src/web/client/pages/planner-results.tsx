@@ -3,7 +3,7 @@ import { FrontPlot } from '../charts/front-plot.js';
 import { num, unitText } from '../format.js';
 import { offerPlannedDraft } from '../planned-draft.js';
 import { href } from '../router.js';
-import type { Candidate, NearMiss, PlanAnswer, RevisionSummary, Task } from '../types.js';
+import type { Candidate, NearMiss, PlanAnswer, RevisionSummary, Task } from '../../../api-client/response-types.js';
 import { SafetyCaution, StatusBadge } from '../ui/status.js';
 
 interface Props {

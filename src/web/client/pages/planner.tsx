@@ -1,7 +1,7 @@
 import { useEffect, useState } from 'preact/hooks';
 import { useLoad, useSession } from '../context.js';
 import { href } from '../router.js';
-import type { DeviceClass, PlanAnswer, RevisionSummary, StoredDocument, Task } from '../types.js';
+import type { DeviceClass, PlanAnswer, RevisionSummary, StoredDocument, Task } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading } from '../ui/status.js';
 import { PlannerResults } from './planner-results.js';
 

@@ -3,7 +3,7 @@ import { ApiError } from '../api.js';
 import { useLoad, useSession } from '../context.js';
 import { plannedProfile, takePlannedDraft, type PlannedDraft } from '../planned-draft.js';
 import { href } from '../router.js';
-import type { DeviceClass, Profile, Revision, RevisionSummary, StoredDocument, Task, ValidateAnswer } from '../types.js';
+import type { DeviceClass, Profile, Revision, RevisionSummary, StoredDocument, Task, ValidateAnswer } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, SafetyCaution, StatusBadge } from '../ui/status.js';
 import { ProfileForm, type FieldProblem } from './profile-form.js';
 import { ProfileReport } from './profile-report.js';

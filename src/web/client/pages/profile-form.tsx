@@ -1,4 +1,4 @@
-import type { DeviceClass, Profile } from '../types.js';
+import type { DeviceClass, Profile } from '../../../api-client/response-types.js';
 
 export interface FieldProblem {
   path: string;

@@ -1,6 +1,7 @@
 import { BlurPlot, type BlurPoint } from '../charts/blur-plot.js';
+import { MtfPlot, type MtfPoint } from '../charts/mtf-plot.js';
 import { StageBars } from '../charts/stage-bars.js';
-import type { Report, Task, ValidationFigures } from '../types.js';
+import type { Report, Task, ValidationFigures } from '../../../api-client/response-types.js';
 import { ChecksTable } from '../ui/checks-table.js';
 import { StatusBadge } from '../ui/status.js';
 
@@ -11,7 +12,10 @@ interface Props {
   checking: boolean;
 }
 
-/** What the validator says of the settings on screen: the verdict, every check, blur over distance, cost by stage. */
+/**
+ * What the validator says of the settings on screen: the verdict and every check, with the plots beside them
+ * (combined blur over distance with its parts, the MTF at the worst point, cost by stage).
+ */
 export function ProfileReport({ report, task, focusM, checking }: Props) {
   const f = report.figures ?? {};
   const latency = f.latency;
@@ -21,14 +25,33 @@ export function ProfileReport({ report, task, focusM, checking }: Props) {
       <h2 id="report-title">
         Validation <StatusBadge status={report.status} /> {checking && <span class="muted small">checking…</span>}
       </h2>
-      <ChecksTable checks={report.checks} />
-      <div class="charts">
+      <div class="report-body">
+      <div class="report-checks">
+        <ChecksTable checks={report.checks} />
+      </div>
+      <div class="report-plots">
         <div>
-          <h3>Blur over the working range</h3>
+          <h3>Combined blur over the working range</h3>
           {task && f.blurCurve ? (
-            <BlurPlot curve={f.blurCurve as BlurPoint[]} toleratedBlurPx={f.toleratedBlurPx} nearM={task.nearDistanceM} farM={task.farDistanceM} focusM={focusM} />
+            <BlurPlot
+              curve={f.blurCurve as BlurPoint[]}
+              toleratedBlurPx={f.toleratedBlurPx}
+              unit={f.toleratedBlurUnit}
+              downscale={f.downscale}
+              nearM={task.nearDistanceM}
+              farM={task.farDistanceM}
+              focusM={focusM}
+            />
           ) : (
             <p class="muted">No blur figures in this report.</p>
+          )}
+        </div>
+        <div>
+          <h3>MTF at the worst point{f.worstBlur ? ` (${f.worstBlur.distanceM.toPrecision(3)} m)` : ''}</h3>
+          {f.mtfAtWorst && f.worstBlur ? (
+            <MtfPlot points={f.mtfAtWorst as MtfPoint[]} distanceM={f.worstBlur.distanceM} downscale={f.downscale ?? 1} />
+          ) : (
+            <p class="muted">No MTF figures in this report.</p>
           )}
         </div>
         <div>
@@ -66,6 +89,7 @@ export function ProfileReport({ report, task, focusM, checking }: Props) {
             />
           )}
         </div>
+      </div>
       </div>
     </section>
   );

@@ -1,7 +1,7 @@
 import { useEffect, useState } from 'preact/hooks';
 import { useSession } from '../context.js';
 import { dateTime } from '../format.js';
-import type { FieldChange, RevisionSummary } from '../types.js';
+import type { FieldChange, RevisionSummary } from '../../../api-client/response-types.js';
 import { ErrorNote, StatusBadge } from '../ui/status.js';
 
 function show(v: unknown): string {

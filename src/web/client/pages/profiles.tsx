@@ -1,6 +1,6 @@
 import { useLoad, useSession } from '../context.js';
 import { href } from '../router.js';
-import type { DeviceClass, RevisionSummary, StoredDocument, Task } from '../types.js';
+import type { DeviceClass, RevisionSummary, StoredDocument, Task } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, StatusBadge } from '../ui/status.js';
 
 /** Profiles laid out by task (rows) and device class (columns), each with its latest revision's verdict. */

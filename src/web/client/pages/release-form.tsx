@@ -1,6 +1,6 @@
 import { useEffect, useMemo, useState } from 'preact/hooks';
 import { useLoad, useSession } from '../context.js';
-import type { Check, DeviceClass, Revision, RevisionSummary, StoredDocument } from '../types.js';
+import type { Check, DeviceClass, Revision, RevisionSummary, StoredDocument } from '../../../api-client/response-types.js';
 import { ErrorNote, StatusBadge } from '../ui/status.js';
 
 interface TaskChoice {

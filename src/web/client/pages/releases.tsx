@@ -2,10 +2,18 @@ import { useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { ReleaseSummary } from '../types.js';
+import type { ReleaseSummary } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, SafetyCaution } from '../ui/status.js';
 import { ReleaseForm } from './release-form.js';
 import { RolloutsPanel } from './rollouts.js';
+
+const plural = (n: number, one: string, many: string) => `${n} ${n === 1 ? one : many}`;
+
+/** "3 robots (1 offline), 4 assigned". */
+function robotsText(r: NonNullable<ReleaseSummary['robots']>): string {
+  const total = r.applied.online + r.applied.offline;
+  return `${plural(total, 'robot', 'robots')}${r.applied.offline ? ` (${r.applied.offline} offline)` : ''}, ${r.assigned} assigned`;
+}
 
 /** Releases (signed, never changed) and the rollouts that carry them to robots in waves. */
 export function ReleasesPage() {
@@ -40,7 +48,8 @@ export function ReleasesPage() {
                     <th scope="col">Release</th>
                     <th scope="col">Class</th>
                     <th scope="col">Tasks (profile rev)</th>
-                    <th scope="col">Applied</th>
+                    <th scope="col">Apply policy</th>
+                    <th scope="col">Robots running it</th>
                     <th scope="col">Created</th>
                   </tr>
                 </thead>
@@ -67,6 +76,9 @@ export function ReleasesPage() {
                         </ul>
                       </td>
                       <td>{r.applyPolicy === 'when-idle' ? 'when idle' : 'at once'}</td>
+                      <td data-robots={r.robots ? r.robots.applied.online + r.robots.applied.offline : ''}>
+                        {r.robots ? robotsText(r.robots) : '—'}
+                      </td>
                       <td>
                         {dateTime(r.createdAt)}
                         <div class="muted small">{r.createdBy}</div>
@@ -75,7 +87,7 @@ export function ReleasesPage() {
                   ))}
                   {list.length === 0 && (
                     <tr>
-                      <td colSpan={5} class="muted">
+                      <td colSpan={6} class="muted">
                         No releases yet.
                       </td>
                     </tr>

@@ -1,6 +1,6 @@
 import { useEffect, useState } from 'preact/hooks';
 import { useLoad, useSession } from '../context.js';
-import type { DeviceListItem, ReleaseSummary } from '../types.js';
+import type { DeviceListItem, ReleaseSummary } from '../../../api-client/response-types.js';
 import { ErrorNote } from '../ui/status.js';
 import { parseWaves } from '../waves.js';
 

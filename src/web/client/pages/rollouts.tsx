@@ -2,7 +2,7 @@ import { useEffect, useState } from 'preact/hooks';
 import { useLiveChanges, useLoad, useSession } from '../context.js';
 import { dateTime } from '../format.js';
 import { href } from '../router.js';
-import type { ReleaseSummary, RolloutDetail, RolloutDevice, RolloutSummary } from '../types.js';
+import type { ReleaseSummary, RolloutDetail, RolloutDevice, RolloutSummary } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading } from '../ui/status.js';
 import { RolloutForm } from './rollout-form.js';
 
@@ -43,7 +43,7 @@ function pauseText(reason: unknown): string | null {
   if (r.kind === 'operator') return `paused by ${r.by ?? 'an operator'}`;
   if (r.kind === 'gate') {
     const list = (r.failures ?? []).map((f) => `${f.deviceId}: ${f.reason}`).join('; ');
-    return `wave ${(r.wave ?? 0) + 1} failed its gate${list ? ` (${list})` : ''}`;
+    return `wave ${r.wave ?? '?'} failed its gate${list ? ` (${list})` : ''}`;
   }
   return JSON.stringify(reason);
 }
@@ -58,7 +58,7 @@ function Waves({ detail }: { detail: RolloutDetail }) {
         .map(([wave, devices]) => (
           <li class={wave === detail.currentWave ? 'wave current' : 'wave'}>
             <span class="wave-title">
-              Wave {wave + 1}
+              Wave {wave}
               {wave === detail.currentWave && detail.status === 'running' ? ' (open)' : ''}
             </span>
             <ul class="plain chips">
@@ -103,8 +103,13 @@ function RolloutCard({ summary, onChanged }: { summary: RolloutSummary; onChange
         <Badge status={s} table={ROLLOUT_STATUS} />
       </header>
       <p class="muted small">
-        Release <code>{summary.releaseId}</code> · wave {Math.min(summary.currentWave + 1, summary.waveCount)} of {summary.waveCount} · started {dateTime(summary.createdAt)} by {summary.createdBy}
+        Release <code>{summary.releaseId}</code> · wave {summary.currentWave} of {summary.waveCount} · started {dateTime(summary.createdAt)} by {summary.createdBy}
       </p>
+      {summary.spec?.note && (
+        <p class="rollout-note" data-note>
+          <strong>Note:</strong> {summary.spec.note}
+        </p>
+      )}
       {reason && (
         <p class="note note-warn">
           <strong>Stopped:</strong> {reason}

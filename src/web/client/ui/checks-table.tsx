@@ -1,5 +1,5 @@
 import { num, unitText } from '../format.js';
-import type { Check } from '../types.js';
+import type { Check } from '../../../api-client/response-types.js';
 import { StatusBadge } from './status.js';
 
 const ORDER = { fail: 0, warn: 1, pass: 2 } as const;

@@ -1,14 +1,14 @@
-/** Shapes of the API's answers as the console reads them (see src/api/*-routes.ts). */
-import type { Check, Report } from '../../schema/report.js';
-import type { Profile } from '../../schema/profile.js';
-import type { Task } from '../../schema/task.js';
-import type { DeviceClass } from '../../schema/device-class.js';
-import type { StateMessage } from '../../protocol/messages.js';
-import type { ValidationFigures } from '../../validate/validate.js';
-import type { Candidate, NearMiss, PlanResult } from '../../plan/types.js';
-import type { DriftRecord } from '../../store/drift.js';
+/** Shapes of the API's answers as its clients read them (src/api/routes/); imports no storage code. */
+import type { Check, Report } from '../schema/report.js';
+import type { Profile } from '../schema/profile.js';
+import type { Task } from '../schema/task.js';
+import type { DeviceClass } from '../schema/device-class.js';
+import type { StateMessage } from '../protocol/messages.js';
+import type { ValidationFigures } from '../validate/validate.js';
+import type { Candidate, NearMiss, PlanResult } from '../plan/types.js';
+import type { DriftEpisode } from '../schema/drift.js';
 
-export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures, Candidate, NearMiss, DriftRecord };
+export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures, Candidate, NearMiss, DriftEpisode };
 
 /** POST /plan: the planner's result, the calibration it applied and the document versions it read. */
 export interface PlanAnswer extends PlanResult {
@@ -36,7 +36,7 @@ export interface DeviceDetail extends DeviceListItem {
   reported: { state: StateMessage | null; online: boolean; lastSeenAt: string } | null;
   assignments: Array<{ id: number; releaseId: string; cause: string; actor: string; createdAt: string }>;
   /** Drift episodes, newest first. */
-  drift: DriftRecord[];
+  drift: DriftEpisode[];
 }
 
 export interface StoredDocument<T> {
@@ -74,6 +74,8 @@ export interface ReleaseSummary {
   defaultTask: string;
   tasks: Record<string, { profileId: string; revision: number }>;
   overridden: boolean;
+  /** Robots whose latest report says they run it (online and offline), and robots assigned it. */
+  robots?: { applied: { online: number; offline: number }; assigned: number };
 }
 
 export interface AuditEntry {
@@ -100,6 +102,8 @@ export interface RolloutSummary {
   waveCount: number;
   currentWave: number;
   pauseReason: unknown;
+  /** The rollout as requested: its note, gate and offline rules. */
+  spec?: { note?: string };
   createdAt: string;
   createdBy: string;
   updatedAt: string;
