@@ -12,14 +12,15 @@ export const AGENT_NODE_FLAGS = ['--max-semi-space-size=1', '--lite-mode'];
 
 /**
  * Modules the agent never reaches, replaced by empty ones: zod's translated error messages (the agent
- * reports in English), and the WebSocket and SOCKS proxy transports of mqtt (it connects over TCP/TLS).
+ * reports in English), and mqtt's SOCKS proxy transport (it connects over TCP/TLS). `ws` stays: the ROS 2
+ * task source reaches rosbridge through it.
  */
-const UNUSED = /^(ws|socks)$|zod\/v4\/locales\/index\.js$/;
+const UNUSED = /^socks$|zod\/v4\/locales\/index\.js$/;
 
 const leaveOut: Plugin = {
   name: 'leave-out-unused',
   setup(b) {
-    b.onResolve({ filter: /^(ws|socks)$|locales\/index\.js$/ }, (args) => {
+    b.onResolve({ filter: /^socks$|locales\/index\.js$/ }, (args) => {
       const full = args.path.startsWith('.') ? join(args.resolveDir, args.path) : args.path;
       return UNUSED.test(full) ? { path: full, namespace: 'unused' } : undefined;
     });

@@ -3,6 +3,7 @@ import { createHash } from 'node:crypto';
 import type { ReleaseTask } from '../src/protocol/index.js';
 import type { DeviceClass } from '../src/schema/device-class.js';
 import { demoDeviceClass } from '../tests/support/agent-fixtures.js';
+import { calibratedRowcam } from '../tests/support/v4l2-rig.js';
 
 /** The agent tests' demo camera under its own id, so bench devices never mix with test ones. */
 export const benchDeviceClass: DeviceClass = { ...demoDeviceClass, id: 'bench-rowcam', name: 'Bench row camera (demo data)' };
@@ -22,3 +23,6 @@ export function benchTask(modelId: string, files: Map<string, Buffer>, focusDist
     predicted: { inferenceMs: 12, inferenceMj: 30, frameLatencyMs: 25, frameEnergyMj: 45 },
   };
 }
+
+/** The tests' calibrated UVC row camera (focus and gain tables) under a bench id, for the V4L2 driver. */
+export const benchV4l2DeviceClass: DeviceClass = { ...calibratedRowcam, id: 'bench-rowcam-v4l2', name: 'Bench UVC row camera (demo data)' };

@@ -1,6 +1,8 @@
 // Agent bench: start-up time to a broker connection, switch overhead inside the agent, resident memory of an
-// agent process, and the bridge's event-storage rate. Everything runs on loopback with the simulated driver
-// at time scale 0, so switch figures are the agent's own overhead (actuation is reported separately).
+// agent process, and the bridge's event-storage rate. Everything runs on loopback. The first switch figures use
+// the simulated driver at time scale 0, so they are the agent's own overhead (actuation is reported separately);
+// the V4L2 figure runs the real V4L2 driver against the v4l2-ctl stand-in and subtracts the stand-in's own run
+// time (spawn to exit of each v4l2-ctl), and agent-rss is that agent: V4L2 driver plus the ROS 2 task source.
 import { signedReleaseText } from '../src/protocol/release.js';
 import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -15,12 +17,16 @@ import { PROTOCOL_VERSION, RELEASE_FORMAT, deviceTopic, generateSigningKeyPair, 
 import { openStore } from '../src/store/index.js';
 import { callControl } from '../device-agent/control-client.js';
 import { AGENT_NODE_FLAGS, bundleAgent } from './agent-bundle.js';
-import { benchDeviceClass, benchTask } from './agent-fixture.js';
+import { benchDeviceClass, benchTask, benchV4l2DeviceClass } from './agent-fixture.js';
+import { startRosbridge } from '../tests/support/rosbridge-rig.js';
+import { v4l2Standin } from '../tests/support/v4l2-rig.js';
 import type { BenchFigure } from './figure.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 const SWITCH_WARMUP = 300;
 const SWITCHES = 3000;
+const V4L2_WARMUP = 20;
+const V4L2_SWITCHES = 300;
 const START_RUNS = 3;
 const EVENT_DEVICES = 50;
 const EVENT_BATCHES_PER_DEVICE = 20;
@@ -78,15 +84,17 @@ export async function run(): Promise<BenchFigure[]> {
     const keyPath = join(work, 'server.pem');
     writeFileSync(keyPath, keys.publicKeyPem);
 
-    async function startAgent(deviceId: string): Promise<{ child: ChildProcess; startMs: number; controlPort: number }> {
-      const enrolled = store.devices.enrol({ id: deviceId, deviceClassId: benchDeviceClass.id, tags: [], actor: 'bench', at: new Date().toISOString() })!;
+    async function startAgent(
+      deviceId: string, deviceClassId = benchDeviceClass.id, extra: string[] = [], env: NodeJS.ProcessEnv = process.env,
+    ): Promise<{ child: ChildProcess; startMs: number; controlPort: number }> {
+      const enrolled = store.devices.enrol({ id: deviceId, deviceClassId, tags: [], actor: 'bench', at: new Date().toISOString() })!;
       const dataDir = join(work, deviceId);
       const args = [
-        agentMain, '--device-id', deviceId, '--device-class-id', benchDeviceClass.id, '--broker-url', broker.url, '--password', enrolled.password,
-        '--server-url', serverUrl, '--public-key-path', keyPath, '--data-dir', dataDir, '--control-port', '0', '--sim-time-scale', '0',
+        agentMain, '--device-id', deviceId, '--device-class-id', deviceClassId, '--broker-url', broker.url, '--password', enrolled.password,
+        '--server-url', serverUrl, '--public-key-path', keyPath, '--data-dir', dataDir, '--control-port', '0', '--sim-time-scale', '0', ...extra,
       ];
       const t0 = performance.now();
-      const child = spawn(process.execPath, [...AGENT_NODE_FLAGS, ...args], { cwd: ROOT, stdio: ['ignore', 'pipe', 'inherit'] });
+      const child = spawn(process.execPath, [...AGENT_NODE_FLAGS, ...args], { cwd: ROOT, env, stdio: ['ignore', 'pipe', 'inherit'] });
       children.push(child);
       const controlOpen = waitForLine(child, /agent: control endpoint/);
       await waitForLine(child, /agent: connected to/);
@@ -120,7 +128,43 @@ export async function run(): Promise<BenchFigure[]> {
       if (!body.ok) throw new Error(`bench: switch refused: ${JSON.stringify(body)}`);
       if (i >= SWITCH_WARMUP) overheads.push(body.overheadMs);
     }
-    const rss = rssMb(agent.child.pid!);
+    const rssSim = rssMb(agent.child.pid!);
+    agent.child.kill('SIGKILL');
+
+    // V4L2 driver against the v4l2-ctl stand-in, with the ROS 2 task source on a loopback rosbridge.
+    const standin = v4l2Standin(work);
+    standin.setCameras({ '/dev/video0': { fixture: 'uvc-rowcam', frameRates: [10, 15, 30] } });
+    const ros = await startRosbridge();
+    const v4l2Overheads: number[] = [];
+    let rss = 0;
+    try {
+      const v4l2 = await startAgent('bench-v4l2', benchV4l2DeviceClass.id, ['--driver', 'v4l2', '--task-source', 'ros2', '--rosbridge-url', ros.url], standin.env);
+      const v4l2Release: Release = {
+        ...release, id: 'bench-rel-v4l2', deviceClassId: benchV4l2DeviceClass.id, deviceClass: benchV4l2DeviceClass,
+        tasks: {
+          rows: { ...benchTask('rows-net', weights, 0.5, 2.8), frameRateHz: 10 },
+          leaves: { ...benchTask('leaf-net', weights, 0.25, 2.8), camera: { focusDistanceM: 0.25, fNumber: 2.8, exposureUs: 4000, analogGain: 4 }, frameRateHz: 15 },
+        },
+      };
+      await bridge.publishRelease('bench-v4l2', signedReleaseText(signRelease(v4l2Release, keys.privateKeyPem, keys.publicKeyPem)));
+      const v4l2Endpoint = { kind: 'tcp' as const, host: '127.0.0.1', port: v4l2.controlPort };
+      for (;;) {
+        const s = (await callControl(v4l2Endpoint, 'GET', '/state')).body as { activeTask: string | null };
+        if (s.activeTask === 'rows') break;
+        await new Promise((r) => setTimeout(r, 20));
+      }
+      for (let i = 0; i < V4L2_WARMUP + V4L2_SWITCHES; i++) {
+        const r = await callControl(v4l2Endpoint, 'POST', '/task', { task: i % 2 === 0 ? 'leaves' : 'rows' });
+        const body = r.body as { ok: boolean; overheadMs: number; actuationMs: number; toolMs: number };
+        if (!body.ok) throw new Error(`bench: V4L2 switch refused: ${JSON.stringify(body)}`);
+        // Everything but the stand-in's own run time: the agent, the driver's planning, parsing and spawning.
+        if (i >= V4L2_WARMUP) v4l2Overheads.push(body.overheadMs + body.actuationMs - body.toolMs);
+      }
+      rss = rssMb(v4l2.child.pid!);
+      v4l2.child.kill('SIGKILL');
+    } finally {
+      await ros.stop();
+    }
 
     // Bridge: events from many devices, stored and acked.
     const ids = Array.from({ length: EVENT_DEVICES }, (_v, i) => `bench-ev-${i}`);
@@ -141,7 +185,9 @@ export async function run(): Promise<BenchFigure[]> {
     return [
       figure('agent-switch-p50', percentile(overheads, 50), 'ms', 0.5),
       figure('agent-switch-p99', percentile(overheads, 99), 'ms', 2),
+      figure('agent-switch-v4l2-p99', percentile(v4l2Overheads, 99), 'ms', 5),
       figure('agent-rss', rss, 'MB', 60),
+      figure('agent-rss-sim', rssSim, 'MB', 60),
       figure('agent-start', percentile(startTimes, 50), 'ms', 500),
       { name: 'bridge-events', value: Math.round(eventsPerS), unit: 'events/s', target: 20_000, ok: eventsPerS >= 20_000 },
     ];

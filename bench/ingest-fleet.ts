@@ -53,7 +53,7 @@ async function main(): Promise<void> {
 
   const publicKeyPem = readFileSync(settings.publicKeyPath, 'utf8');
   const agents: Agent[] = settings.devices.map((d, i) => {
-    const { publicKeyPath: _unused, ...config } = agentSettingsSchema.parse({
+    const { publicKeyPath: _unused, password: _given, passwordFile: _none, ...config } = agentSettingsSchema.parse({
       deviceId: d.id,
       deviceClassId: settings.deviceClassId,
       brokerUrl: settings.brokerUrl,
@@ -67,7 +67,7 @@ async function main(): Promise<void> {
       // includes whatever duplicates that still costs.
     });
     const driver = createSimDriver({ clock: systemClock, timeScale: 0, seed: i + 1 });
-    return createAgent({ config: { ...config, publicKeyPem }, driver, log: (line) => process.stderr.write(`${d.id}: ${line}\n`) });
+    return createAgent({ config: { ...config, password: d.password, publicKeyPem }, driver, log: (line) => process.stderr.write(`${d.id}: ${line}\n`) });
   });
   await Promise.all(agents.map((a) => a.start()));
   say({ phase: 'started' });

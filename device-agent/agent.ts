@@ -3,6 +3,7 @@ import { join } from 'node:path';
 import { decodeMessage } from '../src/protocol/decode.js';
 import { MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
 import { PROTOCOL_VERSION, eventBodySchema, type EventBody, type StateMessage } from '../src/protocol/messages.js';
+import { taskOf } from '../src/protocol/release.js';
 import { systemClock, type AgentClock } from './clock.js';
 import type { AgentConfig } from './config.js';
 import { startControlServer, type ControlEndpoint, type ControlServer } from './control-server.js';
@@ -12,6 +13,7 @@ import { openLink, type Link, type MqttConnect } from './link.js';
 import { createOutbox, type Outbox } from './outbox.js';
 import { createProfileRunner, type ProfileRunner, type TaskResult } from './profile-runner.js';
 import { createReleaseStore, type ReleaseStore } from './release-store.js';
+import { sweepTemporaryFiles } from './sweep.js';
 import { createWeightsCache } from './weights-cache.js';
 
 export const AGENT_VERSION = '0.1.0';
@@ -20,6 +22,8 @@ export interface AgentDeps {
   config: AgentConfig;
   driver: ProfileDriver;
   clock?: AgentClock;
+  /** Replaces the event log's appends (a test hands in one that fails like a full disk). */
+  eventWrite?: (fd: number, text: string) => void;
   /** Replaces mqtt.connect (e.g. to count connections in a test). */
   mqttConnect?: MqttConnect;
   log?: (line: string) => void;
@@ -71,7 +75,8 @@ export function createAgent(deps: AgentDeps): Agent {
 
   function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {
     const v = runner!.view();
-    const task = v.running?.task ?? (v.release && v.activeTask ? v.release.tasks[v.activeTask] : undefined);
+    const task = v.running?.task ?? (v.release && v.activeTask ? taskOf(v.release, v.activeTask) : undefined);
+    const storageFault = events!.fault() ?? releases!.fault();
     return {
       v: PROTOCOL_VERSION,
       online,
@@ -86,6 +91,8 @@ export function createAgent(deps: AgentDeps): Agent {
       pending: v.pending,
       refused: v.refused,
       lastSeq: events!.lastSeq(),
+      releaseDigest: v.digest,
+      storageFault: storageFault === null ? null : storageFault.slice(0, 500),
       ...(!online && offlineReason ? { offlineReason } : {}),
     };
   }
@@ -142,14 +149,15 @@ export function createAgent(deps: AgentDeps): Agent {
     start: async function start() {
       // The hardware is read first: a camera that cannot be reached stops the start with its reason.
       await driver.start?.();
-      mkdirSync(config.dataDir, { recursive: true });
-      events = openEventLog(config.dataDir, clock, { log });
+      mkdirSync(config.dataDir, { recursive: true, mode: 0o700 });
+      for (const path of sweepTemporaryFiles([config.dataDir, join(config.dataDir, 'weights')])) log(`agent: removed ${path}, left by an interrupted write`);
+      events = openEventLog(config.dataDir, clock, { log, onFault: changed, ...(deps.eventWrite ? { write: deps.eventWrite } : {}) });
       const username = config.username ?? config.deviceId;
       outbox = createOutbox({ log: events, ackTimeoutMs: config.ackTimeoutMs, send: (payload) => link?.publishEvents(payload) });
       const cache = createWeightsCache({ dir: join(config.dataDir, 'weights'), maxBytes: config.cacheMaxBytes, serverUrl: config.serverUrl, username, password: config.password, log });
-      releases = createReleaseStore(config.dataDir, log);
+      releases = createReleaseStore({ dir: config.dataDir, rootKeyPem: config.publicKeyPem, log, onFault: changed });
       runner = createProfileRunner({
-        driver, clock, cache, releases, publicKeyPem: config.publicKeyPem,
+        driver, clock, cache, releases, deviceId: config.deviceId,
         deviceClassId: config.deviceClassId, emit, changed, log,
       });
       emit({ type: 'agent-started', agentVersion: AGENT_VERSION });
@@ -166,9 +174,10 @@ export function createAgent(deps: AgentDeps): Agent {
         },
         onDisconnected: () => outbox!.onDisconnected(),
       });
-      const endpoint: ControlEndpoint = config.controlSocket
-        ? { kind: 'unix', socketPath: config.controlSocket }
-        : { kind: 'tcp', host: config.controlHost, port: config.controlPort };
+      const endpoint: ControlEndpoint =
+        config.controlPort !== undefined && config.controlSocket === undefined
+          ? { kind: 'tcp', host: config.controlHost, port: config.controlPort }
+          : { kind: 'unix', socketPath: config.controlSocket ?? join(config.dataDir, 'control.sock') };
       const [, server] = await Promise.all([
         restoring,
         startControlServer(endpoint, {
@@ -181,8 +190,12 @@ export function createAgent(deps: AgentDeps): Agent {
       // Lets `ocellus-agent task` find the endpoint, including a port picked by the system. Runtime
       // information, rewritten on every start: replaced by rename, without waiting for the disk.
       const controlPath = join(config.dataDir, 'control.json');
-      writeFileSync(`${controlPath}.tmp`, JSON.stringify(control.endpoint));
-      renameSync(`${controlPath}.tmp`, controlPath);
+      try {
+        writeFileSync(`${controlPath}.tmp`, JSON.stringify(control.endpoint));
+        renameSync(`${controlPath}.tmp`, controlPath);
+      } catch (e) {
+        log(`agent: could not write ${controlPath} (${(e as Error).message}); give the endpoint to 'ocellus-agent' by its option instead`);
+      }
       telemetryTimer = setInterval(sendTelemetry, config.telemetryIntervalS * 1000);
       telemetryTimer.unref?.();
     },
@@ -193,6 +206,7 @@ export function createAgent(deps: AgentDeps): Agent {
       await runner?.idle();
       await releases?.settle();
       outbox?.close();
+      releases?.close();
       await link?.close(runner ? JSON.stringify(buildState(false, 'shutdown')) : undefined);
       await control?.close();
       events?.close();

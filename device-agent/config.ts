@@ -19,7 +19,10 @@ export const agentSettingsSchema = z.strictObject({
   brokerUrl: z.string().regex(/^(mqtts?|tcp|ssl):\/\/[^/]+/, 'must be an mqtt:// or mqtts:// URL'),
   /** MQTT user name; the device id unless told otherwise. */
   username: z.string().min(1).optional(),
-  password: z.string().min(1),
+  /** The MQTT password; better from passwordFile or OCELLUS_AGENT_PASSWORD than a flag, which `ps` shows to every user. */
+  password: z.string().min(1).optional(),
+  /** A file holding the password (mode 0600 or stricter; the agent refuses a file others can read). */
+  passwordFile: z.string().min(1).optional(),
   /** Base URL of the Ocellus server, for weights downloads. */
   serverUrl: z.string().regex(/^https?:\/\/[^/]+/, 'must be an http:// or https:// URL'),
   /** PEM file of the server's Ed25519 public key, which every release must be signed with. */
@@ -28,9 +31,9 @@ export const agentSettingsSchema = z.strictObject({
   /** What moves the camera and accelerator: see device-agent/README.md, "Drivers". */
   driver: z.enum(['sim', 'v4l2', 'libcamera', 'command']).default('sim'),
   controlHost: z.enum(['127.0.0.1', '::1', 'localhost']).default('127.0.0.1'),
-  /** Loopback port of the control endpoint; 0 picks a free one (written to <dataDir>/control.json). */
-  controlPort: z.number().int().min(0).max(65535).default(7717),
-  /** A Unix socket instead of the loopback port. */
+  /** A loopback port for the control endpoint instead of its Unix socket (tools and tests); 0 picks a free one (written to <dataDir>/control.json). */
+  controlPort: z.number().int().min(0).max(65535).optional(),
+  /** The control endpoint's Unix socket (mode 0600); <dataDir>/control.sock unless told otherwise or given controlPort. */
   controlSocket: z.string().min(1).optional(),
   telemetryIntervalS: z.number().positive().default(30),
   ackTimeoutMs: z.number().int().min(100).default(2000),
@@ -80,11 +83,16 @@ export const agentSettingsSchema = z.strictObject({
   }
 });
 
+export const agentSettingsChecked = agentSettingsSchema.refine((v) => (v.password === undefined) !== (v.passwordFile === undefined), {
+  message: 'give the MQTT password by passwordFile (a 0600 file) or OCELLUS_AGENT_PASSWORD, exactly one of them',
+  path: ['password'],
+});
+
 export type AgentSettings = z.output<typeof agentSettingsSchema>;
 type Key = keyof AgentSettings;
 
-/** What createAgent needs: the settings, with the public key read from its file. */
-export type AgentConfig = Omit<AgentSettings, 'publicKeyPath'> & { publicKeyPem: string };
+/** What createAgent needs: the settings, with the public key and the password read from their files. */
+export type AgentConfig = Omit<AgentSettings, 'publicKeyPath' | 'password' | 'passwordFile'> & { publicKeyPem: string; password: string };
 
 const NUMBER_KEYS = new Set<Key>([
   'controlPort', 'telemetryIntervalS', 'ackTimeoutMs', 'cacheMaxBytes', 'reconnectMs', 'keepaliveS', 'simTimeScale', 'simEfficiency', 'simSeed',
@@ -153,7 +161,7 @@ export function resolveAgentSettings(sources: ConfigSources): ConfigResult {
     else (values[key] = coerce(key, text)), (origin[key] = flag);
   }
   if (issues.length > 0) return { ok: false, issues };
-  const parsed = agentSettingsSchema.safeParse(values);
+  const parsed = agentSettingsChecked.safeParse(values);
   if (!parsed.success) {
     return {
       ok: false,
@@ -166,4 +174,33 @@ export function resolveAgentSettings(sources: ConfigSources): ConfigResult {
     };
   }
   return { ok: true, settings: parsed.data };
+}
+
+export interface PasswordFileAccess {
+  /** Permission bits of the file (stat's mode). */
+  modeOf(path: string): number;
+  readFile(path: string): string;
+}
+
+/**
+ * The MQTT password: from passwordFile, which only its owner may read (like ssh's private keys: a file
+ * others can read is refused), or as given (OCELLUS_AGENT_PASSWORD or the config file). Trailing newlines are dropped.
+ */
+export function resolvePassword(settings: Pick<AgentSettings, 'password' | 'passwordFile'>, files: PasswordFileAccess): { ok: true; password: string } | { ok: false; issue: InputIssue } {
+  if (settings.passwordFile === undefined) return { ok: true, password: settings.password! };
+  const path = settings.passwordFile;
+  let mode: number;
+  let text: string;
+  try {
+    mode = files.modeOf(path);
+    text = files.readFile(path);
+  } catch (e) {
+    return { ok: false, issue: { path, message: `cannot read the password file: ${(e as Error).message}` } };
+  }
+  if ((mode & 0o077) !== 0) {
+    return { ok: false, issue: { path, message: `the password file has mode ${(mode & 0o777).toString(8).padStart(4, '0')}; others can read it: chmod 600 it` } };
+  }
+  const password = text.replace(/[\r\n]+$/, '');
+  if (password.length === 0) return { ok: false, issue: { path, message: 'the password file is empty' } };
+  return { ok: true, password };
 }

@@ -1,4 +1,4 @@
-import { existsSync, unlinkSync } from 'node:fs';
+import { chmodSync, existsSync, unlinkSync } from 'node:fs';
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import { z } from 'zod';
 import type { TaskResult } from './profile-runner.js';
@@ -46,7 +46,36 @@ function readJson(req: IncomingMessage): Promise<{ ok: true; value: unknown } | 
   });
 }
 
-async function handle(handlers: ControlHandlers, req: IncomingMessage, res: ServerResponse) {
+/** Host names a local caller uses; anything else is a page that resolved its own name to loopback (DNS rebinding). */
+const LOCAL_HOSTS = new Set(['localhost', '127.0.0.1', '[::1]']);
+
+/**
+ * Why a request is not from a local program, or null. Browsers send Origin on cross-origin requests (and on
+ * every POST); local tools never do. A foreign Host is a rebound name. Only JSON bodies are taken, which a
+ * page cannot send cross-origin without a preflight (Fetch standard, CORS-safelisted content types).
+ */
+export function foreignRequest(req: IncomingMessage, endpoint: ControlEndpoint): { status: number; error: string } | null {
+  if (req.headers.origin !== undefined) return { status: 403, error: `requests with an Origin header (${String(req.headers.origin).slice(0, 100)}) are refused: the control endpoint is for local programs, not web pages` };
+  const host = req.headers.host;
+  if (host === undefined) return endpoint.kind === 'unix' ? null : { status: 400, error: 'a Host header is required' };
+  const m = /^(\[[^\]]+\]|[^:]+)(?::(\d+))?$/.exec(host.toLowerCase());
+  const port = endpoint.kind === 'tcp' ? String(endpoint.port) : null;
+  if (!m || !LOCAL_HOSTS.has(m[1]!) || (m[2] !== undefined && port !== null && m[2] !== port)) {
+    return { status: 403, error: `Host ${host.slice(0, 100)} is not this machine's loopback name; refused` };
+  }
+  if (req.method === 'POST') {
+    const type = String(req.headers['content-type'] ?? '').split(';')[0]!.trim().toLowerCase();
+    if (type !== 'application/json') return { status: 415, error: `a POST needs Content-Type application/json, got ${type || 'none'}` };
+  }
+  return null;
+}
+
+async function handle(handlers: ControlHandlers, endpoint: ControlEndpoint, req: IncomingMessage, res: ServerResponse) {
+  const foreign = foreignRequest(req, endpoint);
+  if (foreign) {
+    req.resume();
+    return reply(res, foreign.status, { ok: false, error: foreign.error });
+  }
   const route = `${req.method} ${new URL(req.url ?? '/', 'http://agent').pathname}`;
   if (route === 'GET /state') return reply(res, 200, handlers.state());
   if (route !== 'POST /task' && route !== 'POST /motion') return reply(res, 404, { ok: false, error: `no route ${route}; try POST /task, POST /motion or GET /state` });
@@ -72,11 +101,13 @@ function taskStatus(result: TaskResult): number {
 
 /**
  * The robot's local way to tell the agent what it is doing: `POST /task {task}`, `POST /motion
- * {moving}`, `GET /state`. Listens only on loopback or a Unix socket, and needs no network.
+ * {moving}`, `GET /state`. Listens on a Unix socket (mode 0600: only the agent's user) or on loopback,
+ * needs no network, and refuses what a web page could send (see foreignRequest).
  */
 export async function startControlServer(endpoint: ControlEndpoint, handlers: ControlHandlers): Promise<ControlServer> {
+  let actual: ControlEndpoint = endpoint;
   const server: Server = createServer((req, res) => {
-    handle(handlers, req, res).catch((e: unknown) => reply(res, 500, { ok: false, error: (e as Error).message }));
+    handle(handlers, actual, req, res).catch((e: unknown) => reply(res, 500, { ok: false, error: (e as Error).message }));
   });
   if (endpoint.kind === 'unix' && existsSync(endpoint.socketPath)) unlinkSync(endpoint.socketPath);
   await new Promise<void>((resolve, reject) => {
@@ -85,8 +116,8 @@ export async function startControlServer(endpoint: ControlEndpoint, handlers: Co
     else server.listen(endpoint.port, endpoint.host, resolve);
   });
   const address = server.address();
-  const actual: ControlEndpoint =
-    endpoint.kind === 'tcp' && typeof address === 'object' && address ? { kind: 'tcp', host: endpoint.host, port: address.port } : endpoint;
+  if (endpoint.kind === 'unix') chmodSync(endpoint.socketPath, 0o600);
+  actual = endpoint.kind === 'tcp' && typeof address === 'object' && address ? { kind: 'tcp', host: endpoint.host, port: address.port } : endpoint;
   return {
     endpoint: actual,
     close: () =>

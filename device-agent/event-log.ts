@@ -1,4 +1,4 @@
-import { closeSync, existsSync, fdatasync, openSync, readFileSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, fdatasync, fstatSync, ftruncateSync, openSync, readFileSync, truncateSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { EventBody } from '../src/protocol/messages.js';
 import { readJsonIfExists, writeFileAtomicSync } from './atomic-file.js';
@@ -20,6 +20,8 @@ export interface EventLog {
   ack(upTo: number): void;
   lastSeq(): number;
   ackedUpTo(): number;
+  /** Why events are being kept in memory only (the disk refused a write), or null when every event is on disk. */
+  fault(): string | null;
   unackedCount(): number;
   /** Resolves when no compaction is running (each one runs in the background, off the event loop's path). */
   settled(): Promise<void>;
@@ -30,6 +32,16 @@ export interface EventLogOptions {
   /** The disk's fsync; a test hands in one it can hold. */
   disk?: RewriteDisk;
   log?: (line: string) => void;
+  /** Replaces writeSync for appends (a test hands in one that fails like a full disk). */
+  write?: (fd: number, text: string) => void;
+  /** Called when fault() changes. */
+  onFault?: () => void;
+}
+
+/** writeSync until every byte is written (one write(2) may write fewer). */
+function writeAll(fd: number, text: string): void {
+  const bytes = Buffer.from(text, 'utf8');
+  for (let at = 0; at < bytes.length; ) at += writeSync(fd, bytes, at);
 }
 
 /**
@@ -53,6 +65,7 @@ const COMPACT_WHEN_DRAINED_LINES = 50;
 export function openEventLog(dir: string, clock: AgentClock, options: EventLogOptions = {}): EventLog {
   const disk = options.disk ?? systemDisk;
   const say = options.log ?? (() => {});
+  const write = options.write ?? writeAll;
   const logPath = join(dir, 'events.log');
   const ackPath = join(dir, 'events-acked.json');
   removeLeftover(logPath);
@@ -65,9 +78,15 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
   let last = acked;
   let fileLines = 0;
   if (existsSync(logPath)) {
-    const text = readFileSync(logPath, 'utf8');
-    // A last line without its newline is torn: count it so the file is rewritten without it.
-    if (text.length > 0 && !text.endsWith('\n')) fileLines += 1;
+    let text = readFileSync(logPath, 'utf8');
+    // A last line without its newline is torn by a crash mid-write: cut it off in place (needs no free space),
+    // so the next append starts on a line of its own.
+    if (text.length > 0 && !text.endsWith('\n')) {
+      const keep = text.lastIndexOf('\n') + 1;
+      truncateSync(logPath, Buffer.byteLength(text.slice(0, keep), 'utf8'));
+      say(`agent: cut a torn last line (${text.length - keep} characters) off ${logPath}`);
+      text = text.slice(0, keep);
+    }
     for (const line of text.split('\n')) {
       if (!line) continue;
       fileLines += 1;
@@ -84,14 +103,59 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
   }
   const linesOf = (from: number) => pending.slice(from).map((e) => `${e.json}\n`).join('');
   let linesInFile = pending.length;
-  // Start from a clean file (no acknowledged lines, no torn tail) before appending more; rewrite only when needed.
-  if (pending.length !== fileLines) writeFileAtomicSync(logPath, linesOf(0));
+  let faulted: string | null = null;
+  /** Lines the disk refused, oldest first: in memory (and in `pending`) until a write or a compaction lands them. */
+  let unwritten: string[] = [];
+  function setFault(value: string | null) {
+    if (value === faulted) return;
+    faulted = value;
+    options.onFault?.();
+  }
+  // Start from a file without acknowledged lines before appending more; rewrite only when needed. On a full
+  // disk the file keeps them (a restart resends some events the server already has; it ignores them).
+  if (pending.length !== fileLines) {
+    try {
+      writeFileAtomicSync(logPath, linesOf(0));
+    } catch (e) {
+      say(`agent: could not compact ${logPath} at start (${(e as Error).message}); keeping its acknowledged lines`);
+    }
+  }
   let fd = openSync(logPath, 'a');
+  /** Bytes in the file, so a write the disk cut short can be cut off again. */
+  let fileBytes = fstatSync(fd).size;
   let syncQueued = false;
   let compaction: Promise<void> | null = null;
   /** Lines appended while a background rewrite runs, for it to copy before its rename. */
   let appendedDuringRewrite: string[] | null = null;
   let closed = false;
+
+  /** Writes text at the end of the file, or leaves the file as it was (a partial write cut off) and throws. */
+  function appendOrUndo(text: string) {
+    try {
+      write(fd, text);
+      fileBytes += Buffer.byteLength(text, 'utf8');
+    } catch (e) {
+      try {
+        ftruncateSync(fd, fileBytes);
+      } catch {
+        // the next start cuts a torn tail off anyway
+      }
+      throw e;
+    }
+  }
+
+  /** Tries once more to write the lines the disk refused, in order; they stay in memory if it still refuses. */
+  function flushUnwritten() {
+    const text = unwritten.join('');
+    try {
+      appendOrUndo(text);
+    } catch {
+      return;
+    }
+    unwritten = [];
+    say('agent: the disk takes events again; the event log is complete');
+    setFault(null);
+  }
 
   function queueDataSync() {
     // The write already survives a crash of this process; the data sync (for power loss) runs off the hot path.
@@ -127,6 +191,8 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
     closeSync(fd);
     writeFileAtomicSync(logPath, linesOf(head));
     fd = openSync(logPath, 'a');
+    fileBytes = fstatSync(fd).size;
+    unwritten = [];
     linesInFile = pending.length - head;
   }
 
@@ -154,8 +220,11 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
         swapped: function useRewrittenFile() {
           closeSync(fd);
           fd = openSync(logPath, 'a');
+          fileBytes = fstatSync(fd).size;
           linesInFile = lines;
           appendedDuringRewrite = null;
+          // The rewrite copied every pending line from memory, those the disk had refused included.
+          if (unwritten.length > 0) (unwritten = []), setFault(null);
         },
       });
     } finally {
@@ -183,7 +252,18 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
       const seq = last + 1;
       const json = JSON.stringify({ seq, ts: new Date(clock.now()).toISOString(), ...body });
       const line = `${json}\n`;
-      writeSync(fd, line);
+      // Behind lines the disk refused, this one waits too: the file never has a gap in its order.
+      if (unwritten.length > 0) unwritten.push(line);
+      else {
+        try {
+          appendOrUndo(line);
+        } catch (e) {
+          unwritten.push(line);
+          say(`agent: event log write failed (${(e as Error).message}); keeping events in memory until the disk takes them`);
+          setFault(`event log: ${(e as Error).message}`);
+        }
+      }
+      if (unwritten.length > 1) flushUnwritten();
       appendedDuringRewrite?.push(line);
       last = seq;
       pending.push({ seq, json });
@@ -211,6 +291,7 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
     },
     lastSeq: () => last,
     ackedUpTo: () => acked,
+    fault: () => faulted,
     unackedCount: () => pending.length - head,
     settled: async function settled() {
       while (compaction) await compaction;
@@ -219,8 +300,16 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
       if (closed) return;
       // A background compaction stops before its rename; this one, synchronous, supersedes it.
       closed = true;
-      if (linesInFile > pending.length - head) compactSync();
-      closeSync(fd);
+      try {
+        if (unwritten.length > 0 || linesInFile > pending.length - head) compactSync();
+      } catch (e) {
+        say(`agent: could not write the event log on close (${(e as Error).message}); ${unwritten.length} events were only in memory`);
+      }
+      try {
+        closeSync(fd);
+      } catch {
+        // a failed compaction closed it already
+      }
     },
   };
 }

@@ -48,6 +48,9 @@ export function openLink(options: LinkOptions): Link {
     keepalive: options.keepaliveS ?? 30,
     connectTimeout: 10_000,
     will,
+    // mqtt-packet's write cache holds 65,536 two-byte Buffers for packet ids (about 6 MB of heap);
+    // an agent sends a few packets a second, so it allocates the two bytes per packet instead.
+    writeCache: false,
   });
   const topics = new Map<string, 'release' | 'cmd' | 'ack'>(INBOUND.map((c) => [deviceTopic(options.deviceId, c as DeviceChannel), c]));
   let up = false;

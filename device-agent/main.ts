@@ -7,11 +7,11 @@
  *   ocellus-agent motion moving|stopped [same endpoint options]
  *   ocellus-agent state [same endpoint options]
  */
-import { readFileSync } from 'node:fs';
+import { readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { describeIssues } from '../src/schema/issues.js';
 import { createAgent } from './agent.js';
-import { resolveAgentSettings, envOf, flagOf, agentSettingsSchema } from './config.js';
+import { resolveAgentSettings, resolvePassword, envOf, flagOf, agentSettingsSchema } from './config.js';
 import { callControl } from './control-client.js';
 import type { ControlEndpoint } from './control-server.js';
 import { systemClock } from './clock.js';
@@ -68,7 +68,9 @@ async function control(argv: string[], method: 'GET' | 'POST', path: string, bod
 async function run(argv: string[]): Promise<void> {
   const resolved = resolveAgentSettings({ argv, env: process.env, readFile: (p) => readFileSync(p, 'utf8') });
   if (!resolved.ok) fail(`ocellus-agent: bad configuration\n${describeIssues(resolved.issues)}\n\n${USAGE}`);
-  const { publicKeyPath, ...settings } = resolved.settings;
+  const { publicKeyPath, password: _given, passwordFile: _file, ...settings } = resolved.settings;
+  const secret = resolvePassword(resolved.settings, { modeOf: (p) => statSync(p).mode, readFile: (p) => readFileSync(p, 'utf8') });
+  if (!secret.ok) fail(`ocellus-agent: bad configuration\n${describeIssues([secret.issue])}`);
   let publicKeyPem: string;
   try {
     publicKeyPem = readFileSync(publicKeyPath, 'utf8');
@@ -78,7 +80,7 @@ async function run(argv: string[]): Promise<void> {
   const log = (line: string) => process.stdout.write(`${new Date().toISOString()} ${line}\n`);
   const driver = await selectDriver(resolved.settings, systemClock, log);
   let source: TaskSource | null = null;
-  const agent = createAgent({ config: { ...settings, publicKeyPem }, driver, log, onStateChange: (state) => source?.report(state) });
+  const agent = createAgent({ config: { ...settings, password: secret.password, publicKeyPem }, driver, log, onStateChange: (state) => source?.report(state) });
   source = await selectTaskSource(resolved.settings, { setTask: (task) => agent.robotTask(task), setMotion: (moving) => agent.setMotion(moving), log });
   let stopping = false;
   const stop = () => {

@@ -1,7 +1,7 @@
 import { existsSync, mkdirSync, readdirSync, renameSync, statSync, unlinkSync, utimesSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Release } from '../src/protocol/release.js';
-import { downloadWithResume, sha256OfFile } from './weights-fetch.js';
+import { weightsPathByHash, type Release } from '../src/protocol/release.js';
+import { downloadWithResume, OversizeError, sha256OfFile } from './weights-fetch.js';
 
 /** The weights the server sent do not match the release: the release cannot be trusted and is refused. */
 export class WeightsMismatchError extends Error {
@@ -57,11 +57,19 @@ export function createWeightsCache(options: WeightsCacheOptions): WeightsCache {
   async function fetchOne(model: Release['tasks'][string]['model']): Promise<void> {
     const finalPath = pathOf(model.sha256);
     const partPath = `${finalPath}.part`;
-    const url = new URL(model.weightsPath, options.serverUrl).toString();
+    // By content, whatever path the release wrote: a release made before weights were named by hash still gets its own bytes.
+    const path = weightsPathByHash(model);
+    const url = new URL(path, options.serverUrl).toString();
     // A resumed download can join bytes of two different files; one fresh attempt tells that apart from bad weights.
     for (let attempt = 1; attempt <= 2; attempt++) {
       const resumed = existsSync(partPath);
-      await downloadWithResume({ url, username: options.username, password: options.password, partPath, expectedBytes: model.sizeBytes });
+      try {
+        await downloadWithResume({ url, username: options.username, password: options.password, partPath, expectedBytes: model.sizeBytes });
+      } catch (e) {
+        if (!(e instanceof OversizeError)) throw e;
+        if (existsSync(partPath)) unlinkSync(partPath);
+        throw new WeightsMismatchError(`weights of model ${model.id} from ${path}: ${e.message} (the release says ${model.sha256}, ${model.sizeBytes} bytes)`);
+      }
       const size = statSync(partPath).size;
       const actual = await sha256OfFile(partPath);
       if (actual === model.sha256 && size === model.sizeBytes) {
@@ -69,7 +77,7 @@ export function createWeightsCache(options: WeightsCacheOptions): WeightsCache {
         return;
       }
       unlinkSync(partPath);
-      const detail = `weights of model ${model.id} from ${model.weightsPath}: sha256 ${actual} (${size} bytes), the release says ${model.sha256} (${model.sizeBytes} bytes)`;
+      const detail = `weights of model ${model.id} from ${path}: sha256 ${actual} (${size} bytes), the release says ${model.sha256} (${model.sizeBytes} bytes)`;
       if (!resumed || attempt === 2) throw new WeightsMismatchError(detail);
       log(`agent: ${detail}; downloading again from the start`);
     }

@@ -8,6 +8,11 @@ export class FetchError extends Error {
   override readonly name = 'FetchError';
 }
 
+/** The server sent (or announced) more bytes than the release declares; nothing beyond the declared size was written. */
+export class OversizeError extends Error {
+  override readonly name = 'OversizeError';
+}
+
 export interface DownloadRequest {
   url: string;
   /** HTTP Basic credentials (device id and MQTT password). */
@@ -38,19 +43,52 @@ function get(req: DownloadRequest, headers: Record<string, string>): Promise<Inc
   });
 }
 
-function save(res: IncomingMessage, path: string, append: boolean): Promise<void> {
+/**
+ * Streams the answer into the file, counting as it goes: at most `maxBytes` are ever written. A chunk
+ * that would go past it ends the download (and the connection) before it is written.
+ */
+function save(res: IncomingMessage, path: string, append: boolean, maxBytes: number): Promise<void> {
   return new Promise((resolve, reject) => {
+    const announced = Number(res.headers['content-length']);
+    if (Number.isFinite(announced) && announced > maxBytes) {
+      res.destroy();
+      return reject(new OversizeError(`the server announced ${announced} bytes where ${maxBytes} were left to fetch`));
+    }
     const out = createWriteStream(path, { flags: append ? 'a' : 'w' });
-    res.on('error', (e) => {
-      out.destroy();
-      reject(new FetchError(`download interrupted: ${e.message}`));
+    let written = 0;
+    let failed = false;
+    const fail = (e: Error) => {
+      if (failed) return;
+      failed = true;
+      res.unpipe(out);
+      res.destroy();
+      out.end(() => reject(e));
+    };
+    res.on('data', (chunk: Buffer) => {
+      if (failed) return;
+      if (written + chunk.length > maxBytes) return fail(new OversizeError(`the server sent more than the ${maxBytes} bytes left to fetch`));
+      written += chunk.length;
+      if (!out.write(chunk)) {
+        res.pause();
+        out.once('drain', () => res.resume());
+      }
     });
-    out.on('error', (e) => reject(e));
-    out.on('finish', () => {
-      if (!res.complete) reject(new FetchError('download interrupted: connection closed early'));
-      else resolve();
+    res.on('error', (e) => fail(new FetchError(`download interrupted: ${e.message}`)));
+    out.on('error', (e) => {
+      failed = true;
+      res.destroy();
+      reject(e);
     });
-    res.pipe(out);
+    res.on('end', () => {
+      if (failed) return;
+      out.end(() => {
+        if (!res.complete) reject(new FetchError('download interrupted: connection closed early'));
+        else resolve();
+      });
+    });
+    res.on('close', () => {
+      if (!failed && !res.complete) fail(new FetchError('download interrupted: connection closed early'));
+    });
   });
 }
 
@@ -74,9 +112,9 @@ export async function downloadWithResume(req: DownloadRequest): Promise<void> {
       unlinkSync(req.partPath);
       throw new FetchError(`server resumed at byte ${start ?? '?'} instead of ${from}; starting over`);
     }
-    return save(res, req.partPath, true);
+    return save(res, req.partPath, true, req.expectedBytes - from);
   }
-  if (res.statusCode === 200) return save(res, req.partPath, false);
+  if (res.statusCode === 200) return save(res, req.partPath, false, req.expectedBytes);
   res.resume();
   if (res.statusCode === 416 && sizeOf(req.partPath) >= req.expectedBytes) return;
   if (res.statusCode === 416) unlinkSync(req.partPath);

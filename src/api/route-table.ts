@@ -91,6 +91,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'releases.list', method: 'get', path: R, access: 'viewer', mutates: false, query: releaseQuerySchema, summary: 'List releases', tag: 'releases' },
   { key: 'releases.create', method: 'post', path: R, access: 'operator', mutates: true, body: releaseRequestSchema, summary: 'Build, sign and store a release from validated profile revisions', tag: 'releases' },
   { key: 'releases.read', method: 'get', path: `${R}/:id`, access: 'viewer', mutates: false, summary: 'A release in its signed form', tag: 'releases' },
+  { key: 'releases.reissue', method: 'post', path: `${R}/:id/reissue`, access: 'operator', mutates: true, summary: 'Go back to a release: a new release with the next sequence number and its content (devices refuse a lower sequence)', tag: 'releases' },
   { key: 'releases.replace', method: 'put', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },
   { key: 'releases.patch', method: 'patch', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },
   { key: 'releases.delete', method: 'delete', path: `${R}/:id`, access: 'operator', mutates: true, summary: 'Refused: releases are immutable (409)', tag: 'releases' },

@@ -23,6 +23,7 @@ export const commands: Record<string, CommandEntry> = {
   schema: { summary: 'print the JSON Schema of a document kind', load: () => import('./schema.js') },
   plan: { summary: 'search settings for a task on a device class and list the best feasible candidates', load: () => import('./plan.js') },
   serve: { summary: 'run the server: HTTP API, signed releases, weights store', load: () => import('./serve.js') },
+  key: { summary: 'rotate the release signing key (the old key signs the new one in)', load: () => import('./key.js') },
   token: { summary: 'create an API token in the server\'s data folder (shown once)', load: () => import('./token.js') },
   push: { summary: 'send documents (and weights) to a running server in dependency order', load: () => import('./push.js') },
   release: { summary: 'build and sign a release on a running server', load: () => import('./release.js') },

@@ -7,6 +7,7 @@ import { CLIENT_FLAGS, createServerClient, reportServerError } from './server-cl
 
 export const usage = `usage: ocellus release create --device-class D --task name=profileId[@revision]... [--default-task T]
                               [--policy when-idle|immediate] [--override-reason R] [--server URL] [--token T] [--json]
+       ocellus release reissue RELEASE_ID [--server URL] [--token T] [--json]
   Asks the server to build and sign a release for one device class from saved profile revisions (the latest
   revision when @revision is left out). The default task is the first --task unless --default-task names
   another. The apply policy is when-idle unless --policy says immediate: devices then defer the release while
@@ -14,6 +15,8 @@ export const usage = `usage: ocellus release create --device-class D --task name
   it must go out anyway; the reason and who gave it are signed into the release.
   Caution: a release changes what robots see. Try it on one unit first, roll out in stages, and follow the
   site's risk assessment and robot safety rules.
+  reissue goes back to an older release: devices never apply a lower sequence number than they have, so
+  the server makes a NEW release with the next number and the old one's content (weights by hash), to assign.
   Exit 0 when the release was made, 1 when checks fail, 2 for bad input or a refusal.
 `;
 
@@ -34,7 +37,25 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       true,
     );
     if (values.help) return io.stdout(usage), EXIT_OK;
-    if (positionals[0] !== 'create' || positionals.length > 1) throw new UsageError(`expected 'release create', got 'release ${positionals.join(' ')}'`);
+    if (positionals[0] === 'reissue') {
+      if (positionals.length !== 2) throw new UsageError('name the release to re-issue: ocellus release reissue RELEASE_ID');
+      const client = createServerClient(values, io);
+      try {
+        const signed = await client.json<SignedRelease>('POST', `/api/v1/releases/${encodeURIComponent(positionals[1]!)}/reissue`);
+        if (values.json) printJson(io, signed);
+        else {
+          const r = signed.release;
+          io.stdout(`release ${r.id}: version ${r.version} of ${r.deviceClassId}, the content of ${r.reissueOf?.releaseId} (version ${r.reissueOf?.version}), expires ${r.expiresAt}
+`);
+          io.stdout('Caution: try this release on one unit first and roll it out in stages.\n');
+        }
+        return EXIT_OK;
+      } catch (e) {
+        if (e instanceof ApiError) return reportServerError(io, e);
+        throw e;
+      }
+    }
+    if (positionals[0] !== 'create' || positionals.length > 1) throw new UsageError(`expected 'release create' or 'release reissue ID', got 'release ${positionals.join(' ')}'`);
     const deviceClassId = values['device-class'];
     if (!deviceClassId) throw new UsageError('missing --device-class');
     const taskArgs = values.task ?? [];

@@ -78,7 +78,7 @@ export async function enrolFleet(options: FleetOptions): Promise<EnrolledRobot[]
     const dataDir = join(options.robotsDir, spec.deviceId);
     mkdirSync(dataDir, { recursive: true });
     const password = await enrol(options.api, spec, dataDir);
-    const { publicKeyPath: _unused, ...settings } = agentSettingsSchema.parse({
+    const { publicKeyPath: _unused, password: _given, passwordFile: _none, ...settings } = agentSettingsSchema.parse({
       deviceId: spec.deviceId,
       deviceClassId: spec.demoClass.deviceClassId,
       brokerUrl: options.brokerUrl,
@@ -92,7 +92,7 @@ export async function enrolFleet(options: FleetOptions): Promise<EnrolledRobot[]
       simSeed: spec.index + 1,
     });
     const driver = createSimDriver({ clock: systemClock, timeScale: settings.simTimeScale, efficiency: spec.efficiency, seed: settings.simSeed });
-    const agent = createAgent({ config: { ...settings, publicKeyPem: options.publicKeyPem }, driver, log: (line) => options.log(spec.deviceId, line) });
+    const agent = createAgent({ config: { ...settings, password, publicKeyPem: options.publicKeyPem }, driver, log: (line) => options.log(spec.deviceId, line) });
     out.push({ ...spec, agent, driver, dataDir });
   }
   return out;

@@ -6,3 +6,4 @@ export * from './signing.js';
 export * from './messages.js';
 export * from './decode.js';
 export * from './verify-release.js';
+export * from './key-rotation.js';

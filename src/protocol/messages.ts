@@ -24,6 +24,10 @@ export const stateMessageSchema = z.strictObject({
   /** The last release this device refused, and why. */
   refused: z.strictObject({ releaseId: z.string().max(64).nullable(), reason: z.string().max(2000) }).nullable(),
   lastSeq: count,
+  /** sha256 (hex) of the applied release's signature: what tells two releases apart, whatever their ids say. */
+  releaseDigest: z.string().regex(/^[0-9a-f]{64}$/).nullable().optional(),
+  /** Why the agent keeps events or its run state in memory only (a full disk, say); null when all is on disk. */
+  storageFault: z.string().max(500).nullable().optional(),
   /**
    * On an offline state only: 'shutdown' when the agent published it itself before a clean disconnect,
    * 'connection-lost' in the last will the broker publishes when the connection drops. Absent from older agents.

@@ -2,8 +2,16 @@ import { z } from 'zod';
 import { deviceClassSchema } from '../schema/device-class.js';
 import { cameraSettingsSchema, memoryPartitionSchema } from '../schema/profile.js';
 import { idSchema } from '../schema/common.js';
+import { keyRotationSchema } from './key-rotation.js';
+import { DEVICE_ID_PATTERN } from './topics.js';
 
-export const RELEASE_FORMAT = 'ocellus.release/1';
+/**
+ * Format 2 adds a signed audience, an expiry and, for a release that restores older content, the
+ * release it re-issues. Format 1 (releases stored before) stays readable: it is treated as meant for
+ * every device of its class and as never expiring, and is held to the same sequence rule.
+ */
+export const RELEASE_FORMAT = 'ocellus.release/2';
+export const LEGACY_RELEASE_FORMAT = 'ocellus.release/1';
 
 /** A model's weights as the device must fetch them: content-addressed, verified by sha256 before use. */
 export const releaseModelSchema = z.strictObject({
@@ -11,7 +19,10 @@ export const releaseModelSchema = z.strictObject({
   version: z.string(),
   sha256: z.string().regex(/^[0-9a-f]{64}$/),
   sizeBytes: z.number().int().nonnegative(),
-  /** Path on the server, relative to its base URL: /api/v1/models/<id>/weights. */
+  /**
+   * Path on the server, relative to its base URL: /api/v1/models/<id>/weights?sha256=<sha256>. Format 1
+   * releases name the model's latest weights without the hash; the agent adds the hash itself.
+   */
   weightsPath: z.string(),
 });
 
@@ -33,23 +44,49 @@ export const releaseTaskSchema = z.strictObject({
   predicted: predictionSchema,
 });
 
-export const releaseSchema = z.strictObject({
-  format: z.literal(RELEASE_FORMAT),
-  id: idSchema,
-  /** Monotonic per device class; a device never goes back to a lower version unless the release says rollback. */
-  version: z.number().int().positive(),
+/** Which devices a release is for: its device class and, when listed, only these device ids. */
+export const audienceSchema = z.strictObject({
   deviceClassId: idSchema,
-  deviceClass: deviceClassSchema,
-  createdAt: z.string(),
-  createdBy: z.string(),
-  /** 'when-idle': the device defers the release while the robot reports that it is moving. */
-  applyPolicy: z.enum(['immediate', 'when-idle']),
-  defaultTask: z.string().min(1).max(64),
-  tasks: z.record(z.string().min(1).max(64), releaseTaskSchema).refine((t) => Object.keys(t).length > 0, {
-    message: 'a release needs at least one task',
-  }),
-  override: z.strictObject({ reason: z.string().min(1), by: z.string() }).optional(),
+  deviceIds: z.array(z.string().regex(DEVICE_ID_PATTERN)).min(1).max(10_000).optional(),
 });
+export type ReleaseAudience = z.infer<typeof audienceSchema>;
+
+const isoTime = z.string().datetime({ offset: true });
+
+export const releaseSchema = z
+  .strictObject({
+    format: z.enum([RELEASE_FORMAT, LEGACY_RELEASE_FORMAT]),
+    id: idSchema,
+    /**
+     * The release's sequence number: strictly increasing per device class. A device never applies a lower
+     * one than it has applied; going back to older content is a new release (reissueOf) with a higher number.
+     */
+    version: z.number().int().positive(),
+    deviceClassId: idSchema,
+    deviceClass: deviceClassSchema,
+    createdAt: z.string(),
+    createdBy: z.string(),
+    /** Format 2: who may apply it, and until when a device may start applying it. */
+    audience: audienceSchema.optional(),
+    expiresAt: isoTime.optional(),
+    /** Format 2: this release carries the content of an older one (a rollback). */
+    reissueOf: z.strictObject({ releaseId: idSchema, version: z.number().int().positive() }).optional(),
+    /** 'when-idle': the device defers the release while the robot reports that it is moving. */
+    applyPolicy: z.enum(['immediate', 'when-idle']),
+    defaultTask: z.string().min(1).max(64),
+    tasks: z.record(z.string().min(1).max(64), releaseTaskSchema).refine((t) => Object.keys(t).length > 0, {
+      message: 'a release needs at least one task',
+    }),
+    override: z.strictObject({ reason: z.string().min(1), by: z.string() }).optional(),
+  })
+  .superRefine((r, ctx) => {
+    if (r.format !== RELEASE_FORMAT) return;
+    if (!r.audience) ctx.addIssue({ code: 'custom', path: ['audience'], message: `a ${RELEASE_FORMAT} release needs an audience` });
+    else if (r.audience.deviceClassId !== r.deviceClassId) {
+      ctx.addIssue({ code: 'custom', path: ['audience', 'deviceClassId'], message: `must equal deviceClassId (${r.deviceClassId})` });
+    }
+    if (!r.expiresAt) ctx.addIssue({ code: 'custom', path: ['expiresAt'], message: `a ${RELEASE_FORMAT} release needs an expiry` });
+  });
 
 export type Release = z.infer<typeof releaseSchema>;
 export type ReleaseTask = z.infer<typeof releaseTaskSchema>;
@@ -61,8 +98,26 @@ export const signedReleaseSchema = z.strictObject({
   signature: z.string().min(1),
   /** sha256 (hex, first 16 digits) of the signing public key's DER, so a device can tell keys apart. */
   keyId: z.string(),
+  /**
+   * Key rotations from the first signing key to the one that signed this release, each signed by the key
+   * before it; a device that trusts an earlier key follows it. Absent while the first key signs.
+   */
+  keyChain: z.array(keyRotationSchema).max(32).optional(),
 });
 export type SignedRelease = z.infer<typeof signedReleaseSchema>;
+
+/** The weights URL path a device fetches: always by content, whatever the release's format wrote. */
+export function weightsPathByHash(model: { id: string; sha256: string }): string {
+  return `/api/v1/models/${encodeURIComponent(model.id)}/weights?sha256=${model.sha256}`;
+}
+
+/**
+ * A task of a release by name, own properties only: `constructor` or `__proto__` are not tasks, whatever
+ * the object's prototype holds.
+ */
+export function taskOf(release: Pick<Release, 'tasks'>, name: string): ReleaseTask | undefined {
+  return Object.hasOwn(release.tasks, name) ? release.tasks[name] : undefined;
+}
 
 /**
  * A signed release as it travels: `raw` is the exact text that was stored and is sent (the bytes on the bus

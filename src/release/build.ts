@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import { z } from 'zod';
-import { RELEASE_FORMAT, releaseSchema, type Release, type ReleaseTask } from '../protocol/release.js';
+import { RELEASE_FORMAT, releaseSchema, weightsPathByHash, type Release, type ReleaseTask } from '../protocol/release.js';
 import type { DeviceClass } from '../schema/device-class.js';
 import type { InputIssue } from '../schema/issues.js';
 import type { Model } from '../schema/model.js';
@@ -33,11 +33,24 @@ export function releaseIdFor(deviceClassId: string, version: number): string {
   return `${deviceClassId.slice(0, 64 - suffix.length - tag.length - 1)}-${tag}${suffix}`;
 }
 
+/**
+ * How long a device may start applying a release after it was made (its signed expiry). A device that
+ * finds an expired release keeps what it runs and reports the refusal; a re-issue gives it a fresh one.
+ */
+export const RELEASE_VALIDITY_DAYS = 90;
+
 export interface BuildContext {
   store: Store;
   blobs: BlobStore;
   actor: string;
   at: string;
+  /** Days until the release expires; RELEASE_VALIDITY_DAYS when absent. */
+  validityDays?: number;
+}
+
+/** The signed expiry of a release made at `at`. */
+export function expiryFor(at: string, validityDays = RELEASE_VALIDITY_DAYS): string {
+  return new Date(Date.parse(at) + validityDays * 86_400_000).toISOString();
 }
 
 /**
@@ -103,7 +116,7 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Outcom
         version: model.document.version,
         sha256: model.document.sha256,
         sizeBytes: model.document.sizeBytes,
-        weightsPath: `/api/v1/models/${model.id}/weights`,
+        weightsPath: weightsPathByHash({ id: model.id, sha256: model.document.sha256 }),
       },
       frameRateHz: task.document.frameRateHz,
       predicted: {
@@ -131,6 +144,8 @@ export function buildRelease(request: ReleaseRequest, ctx: BuildContext): Outcom
     deviceClass: deviceClass.document,
     createdAt: ctx.at,
     createdBy: ctx.actor,
+    audience: { deviceClassId: request.deviceClassId, ...(request.deviceIds ? { deviceIds: request.deviceIds } : {}) },
+    expiresAt: expiryFor(ctx.at, ctx.validityDays),
     applyPolicy: request.applyPolicy,
     defaultTask: request.defaultTask,
     tasks,

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { isValidDeviceId } from '../protocol/topics.js';
 import { idSchema } from '../schema/common.js';
 
 /** Task names inside a release: the same slug rules as ids, so they are safe in topics and file names. */
@@ -15,6 +16,8 @@ export const releaseRequestSchema = z
     defaultTask: taskNameSchema,
     applyPolicy: z.enum(['immediate', 'when-idle']).default('when-idle'),
     override: z.strictObject({ reason: z.string().trim().min(1, 'give the reason for overriding failed checks').max(2000) }).optional(),
+    /** Limit the release to these devices of the class (signed into its audience); every device of the class when absent. */
+    deviceIds: z.array(z.string().refine(isValidDeviceId, { message: 'not a device id' })).min(1).max(10_000).optional(),
   })
   .refine((r) => Object.hasOwn(r.tasks, r.defaultTask), { message: 'defaultTask must be one of the tasks', path: ['defaultTask'] });
 export type ReleaseRequest = z.infer<typeof releaseRequestSchema>;

@@ -1,3 +1,4 @@
+import type { KeyRotation } from '../protocol/key-rotation.js';
 import { keyIdOf } from '../protocol/signing.js';
 import { signRelease } from '../protocol/verify-release.js';
 import type { Release, SignedRelease } from '../protocol/release.js';
@@ -6,15 +7,18 @@ import type { Release, SignedRelease } from '../protocol/release.js';
 export interface Signer {
   readonly keyId: string;
   readonly publicKeyPem: string;
+  /** The rotations from the first key to this one, carried with every signed release. */
+  readonly keyChain: readonly KeyRotation[];
   sign(release: Release): SignedRelease;
 }
 
-export function createSigner(keys: { privateKeyPem: string; publicKeyPem: string }): Signer {
+export function createSigner(keys: { privateKeyPem: string; publicKeyPem: string }, keyChain: readonly KeyRotation[] = []): Signer {
   return {
     keyId: keyIdOf(keys.publicKeyPem),
     publicKeyPem: keys.publicKeyPem,
+    keyChain,
     sign: function sign(release) {
-      return signRelease(release, keys.privateKeyPem, keys.publicKeyPem);
+      return signRelease(release, keys.privateKeyPem, keys.publicKeyPem, keyChain);
     },
   };
 }

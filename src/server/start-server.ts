@@ -6,7 +6,7 @@ import { createCalibrationEngine, type CalibrationEngineOptions } from '../fleet
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
 import { generateSigningKeyPair } from '../protocol/signing.js';
-import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
+import { createBlobStore, loadKeyChain, loadOrCreateSigningKey, openStore, type Store } from '../store/index.js';
 import { seedAdminToken, type AdminSeed } from './admin-seed.js';
 
 /** What the bus hook is handed: the open store and the metrics registry, both shared with the HTTP API. */
@@ -86,8 +86,10 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
   let stopEngine: () => Promise<void> = async () => {};
   try {
     const blobs = createBlobStore(options.dataDir);
+    // The chain first: it finishes a key rotation a crash interrupted before the key is read.
+    const keyChain = loadKeyChain(options.dataDir);
     const key = loadOrCreateSigningKey(options.dataDir, generateSigningKeyPair);
-    const signer = createSigner(key);
+    const signer = createSigner(key, keyChain);
     const metrics = createMetricsRegistry();
     const adminSeed = seedAdminToken(store, options.adminToken, (options.clock?.now() ?? new Date()).toISOString());
 

@@ -6,6 +6,8 @@ export { createBlobStore } from './blobs.js';
 export type { BlobStore, BlobPutResult, BlobPutExpectation } from './blobs.js';
 export { loadOrCreateSigningKey } from './signing-key.js';
 export type { SigningKeyFile } from './signing-key.js';
+export { loadKeyChain, rotateSigningKey } from './signing-key-chain.js';
+export type { Rotation } from './signing-key-chain.js';
 export { ROLES } from './tokens.js';
 export type { Role, TokenRecord, TokenRepository } from './tokens.js';
 export type { DocumentRecord, DocumentRepository, VersionedKind } from './documents.js';

@@ -194,6 +194,13 @@ export const migrations: Migration[] = [
       CREATE INDEX device_connections_by_device ON device_connections (device_id, at, id);
     `,
   },
+  {
+    version: 5,
+    name: 'rollback through re-issued releases',
+    // A rollback no longer re-sends the old release (devices refuse a lower sequence): each moved device gets
+    // a re-issue of its previous release, a new release with a higher sequence, recorded here.
+    sql: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

@@ -44,6 +44,8 @@ export interface RolloutDeviceRecord {
   appliedAt: string | null;
   rollbackStatus: RollbackStatus | null;
   rollbackAssignmentId: number | null;
+  /** The re-issue of previousReleaseId a rollback assigns (null for rollbacks recorded before re-issues). */
+  restoreReleaseId: string | null;
 }
 
 interface RolloutRow {
@@ -77,6 +79,7 @@ export interface DeviceRow {
   applied_at: string | null;
   rollback_status: RollbackStatus | null;
   rollback_assignment_id: number | null;
+  restore_release_id?: string | null;
 }
 
 function toRollout(r: RolloutRow): RolloutRecord {
@@ -112,6 +115,7 @@ export function toDevice(r: DeviceRow): RolloutDeviceRecord {
     appliedAt: r.applied_at,
     rollbackStatus: r.rollback_status,
     rollbackAssignmentId: r.rollback_assignment_id,
+    restoreReleaseId: r.restore_release_id ?? null,
   };
 }
 
@@ -150,6 +154,8 @@ export interface RolloutRepository {
   /** null → assigned (or nothing-to-restore); false when the device's rollback was already started. */
   markRollback(rolloutId: string, deviceId: string, status: RollbackStatus, assignmentId: number | null): boolean;
   setRollbackStatus(rolloutId: string, deviceId: string, status: RollbackStatus): void;
+  /** Every device of the rollout whose previous release is `previousReleaseId` will be restored with `restoreReleaseId`. */
+  setRestoreRelease(rolloutId: string, previousReleaseId: string, restoreReleaseId: string): void;
   /** How many assignments rows carry a cause, per device (the idempotency check of a rollout). */
   assignmentCounts(cause: string): Map<string, number>;
 }
@@ -167,6 +173,7 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
   const holderOf = db.prepare(`SELECT d.rollout_id AS rolloutId FROM rollout_devices d JOIN rollouts r ON r.id = d.rollout_id
       WHERE d.device_id = ? AND r.status IN ('running', 'paused', 'rolling-back') AND r.id <> ?`);
   const setStatusRow = db.prepare('UPDATE rollouts SET status = ?, pause_reason = ?, updated_at = ? WHERE id = ?');
+  const restoreRows = db.prepare('UPDATE rollout_devices SET restore_release_id = ? WHERE rollout_id = ? AND previous_release_id = ? AND rollback_status IS NULL');
   const rollbackByRow = db.prepare("UPDATE rollouts SET status = 'rolling-back', rollback_by = ?, pause_reason = NULL, updated_at = ? WHERE id = ?");
   const startWaveRow = db.prepare('UPDATE rollouts SET current_wave = ?, wave_started_at = ?, updated_at = ? WHERE id = ?');
   const assignedRow = db.prepare(`UPDATE rollout_devices SET status = 'assigned', assignment_id = ?, previous_release_id = ?,
@@ -244,6 +251,9 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
     },
     setRollbackStatus: function setRollbackStatus(rolloutId, deviceId, status) {
       rollbackStatusRow.run(status, rolloutId, deviceId);
+    },
+    setRestoreRelease: function setRestoreRelease(rolloutId, previousReleaseId, restoreReleaseId) {
+      restoreRows.run(restoreReleaseId, rolloutId, previousReleaseId);
     },
     assignmentCounts: function assignmentCounts(cause) {
       return new Map((countsRows.all(cause) as Array<{ deviceId: string; n: number }>).map((r) => [r.deviceId, r.n]));

@@ -32,14 +32,19 @@ describe('release building and signing', () => {
     expect(res.status).toBe(201);
     const signed = signedReleaseSchema.parse(await res.json());
     const { release } = signed;
-    expect(release).toMatchObject({ format: 'ocellus.release/1', version: 1, deviceClassId: deviceClass.id, applyPolicy: 'when-idle', defaultTask: 'count' });
+    expect(release).toMatchObject({
+      format: 'ocellus.release/2', version: 1, deviceClassId: deviceClass.id, applyPolicy: 'when-idle', defaultTask: 'count',
+      audience: { deviceClassId: deviceClass.id },
+    });
+    // Signed expiry: 90 days after it was made (the server's release validity).
+    expect(Date.parse(release.expiresAt!) - Date.parse(release.createdAt)).toBe(90 * 86_400_000);
     expect(release.id).toBe(`${deviceClass.id}-v1`);
     expect(release.createdBy).toMatch(/^test operator#/);
     expect(release.deviceClass.lens.focalLengthMm).toBe(6);
     const t = release.tasks.count!;
     expect(t.camera).toEqual(goodProfile.camera);
     expect(t.memory).toEqual(goodProfile.memory);
-    expect(t.model).toEqual({ id: model.id, version: model.version, sha256: weightsSha256, sizeBytes: model.sizeBytes, weightsPath: `/api/v1/models/${model.id}/weights` });
+    expect(t.model).toEqual({ id: model.id, version: model.version, sha256: weightsSha256, sizeBytes: model.sizeBytes, weightsPath: `/api/v1/models/${model.id}/weights?sha256=${weightsSha256}` });
     expect(t.frameRateHz).toBe(task.frameRateHz);
     const stored = (await (await h.call('GET', `/api/v1/profiles/${goodProfile.id}/revisions/1`)).json()) as {
       report: { figures: { latency: { inferenceMs: number; totalMs: number }; energy: { inferenceMj: number; totalMj: number } } };

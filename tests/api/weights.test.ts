@@ -1,7 +1,8 @@
 import { readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { createHarness, deviceClass, model, network, removeDir, tempDataDir, weights, weightsSha256, type Harness } from '../support/api-fixtures.js';
+import type { SignedRelease } from '../../src/protocol/release.js';
+import { createHarness, deviceClass, goodProfile, model, network, removeDir, task, tempDataDir, weights, weightsSha256, type Harness } from '../support/api-fixtures.js';
 
 let h: Harness;
 const url = `/api/v1/models/${model.id}/weights`;
@@ -132,9 +133,26 @@ describe('weights download', () => {
     const enrol = await h.call('POST', '/api/v1/devices', { body: { id: 'gh-07', deviceClassId: deviceClass.id, tags: [] } });
     const { mqtt } = (await enrol.json()) as { mqtt: { username: string; password: string } };
     const basic = (u: string, p: string) => ({ authorization: `Basic ${Buffer.from(`${u}:${p}`).toString('base64')}` });
-    const ok = await h.call('GET', url, { token: null, headers: basic(mqtt.username, mqtt.password) });
+    // Nothing assigned yet: the device has no business with these weights.
+    expect((await h.call('PUT', url, { body: weights, token: h.tokens.engineer })).status).toBe(201);
+    const early = await h.call('GET', url, { token: null, headers: basic(mqtt.username, mqtt.password) });
+    expect(early.status).toBe(403);
+    expect(((await early.json()) as { issues: Array<{ path: string }> }).issues[0]!.path).toBe('query.sha256');
+    await h.call('POST', '/api/v1/tasks', { body: task });
+    expect((await h.call('POST', '/api/v1/profiles', { body: goodProfile })).status).toBe(201);
+    const rel = await h.call('POST', '/api/v1/releases', {
+      body: { deviceClassId: deviceClass.id, tasks: { count: { profileId: goodProfile.id, revision: 1 } }, defaultTask: 'count' },
+      token: h.tokens.operator,
+    });
+    expect(rel.status).toBe(201);
+    const { release } = (await rel.json()) as SignedRelease;
+    expect((await h.call('POST', '/api/v1/devices/gh-07/assign', { body: { releaseId: release.id }, token: h.tokens.operator })).status).toBe(200);
+    const ok = await h.call('GET', release.tasks.count!.model.weightsPath, { token: null, headers: basic(mqtt.username, mqtt.password) });
     expect(ok.status).toBe(200);
     expect(Buffer.from(await ok.arrayBuffer()).equals(weights)).toBe(true);
+    // Another enrolled device, with no release of its own, still may not.
+    const other = (await (await h.call('POST', '/api/v1/devices', { body: { id: 'gh-08', deviceClassId: deviceClass.id, tags: [] } })).json()) as { mqtt: { password: string } };
+    expect((await h.call('GET', url, { token: null, headers: basic('gh-08', other.mqtt.password) })).status).toBe(403);
     const wrong = await h.call('GET', url, { token: null, headers: basic(mqtt.username, `${mqtt.password}x`) });
     expect(wrong.status).toBe(401);
     expect(wrong.headers.get('www-authenticate')).toContain('Basic');

@@ -113,7 +113,7 @@ describe('rollout in waves to 50 simulated agents (embedded broker, real agents,
     expect(counts.every((r) => r.n === 1)).toBe(true);
   });
 
-  it('rolls back: every moved device gets its previous release again and the rollout tracks convergence', async () => {
+  it('rolls back: every moved device gets its previous release\'s content again, as a new release with a higher sequence, and the rollout tracks convergence', async () => {
     const asked = await rig.call('POST', `/api/v1/rollouts/${rolloutId}/rollback`);
     expect(asked.status).toBe(200);
     const done = await waitFor(async () => {
@@ -121,7 +121,15 @@ describe('rollout in waves to 50 simulated agents (embedded broker, real agents,
       return r.status === 'rolled-back' ? r : null;
     }, 'rolled back', 60_000);
     expect(done.rollback).toEqual({ restored: DEVICES, pending: 0, nothingToRestore: 0 });
-    expect(ids.every((id) => reportedRelease(id) === 'gh-rel-1')).toBe(true);
+    // Devices refuse a lower sequence, so the rollback made ONE re-issue of gh-rel-1 above gh-rel-2 and assigned it.
+    const restoreIds = new Set(done.devices.map((d: { restoreReleaseId: string | null }) => d.restoreReleaseId));
+    expect(restoreIds.size).toBe(1);
+    const restoreId = [...restoreIds][0] as string;
+    const restore = (await rig.call('GET', `/api/v1/releases/${restoreId}`)).body;
+    expect(restore.release).toMatchObject({ version: 3, reissueOf: { releaseId: 'gh-rel-1', version: 1 } });
+    const original = (await rig.call('GET', '/api/v1/releases/gh-rel-1')).body;
+    expect(restore.release.tasks).toEqual(original.release.tasks);
+    expect(ids.every((id) => reportedRelease(id) === restoreId)).toBe(true);
     const counts = assignmentsByCause(`rollback:${rolloutId}`);
     expect(counts).toHaveLength(DEVICES);
     expect(counts.every((r) => r.n === 1)).toBe(true);

@@ -8,7 +8,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { connect } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { generateSigningKeyPair, signRelease, RELEASE_FORMAT, type Release, type ReleaseTask, type SignedRelease } from '../../src/protocol/index.js';
+import { generateSigningKeyPair, signRelease, LEGACY_RELEASE_FORMAT, RELEASE_FORMAT, type Release, type ReleaseTask, type SignedRelease } from '../../src/protocol/index.js';
 import { deviceClassSchema, type DeviceClass } from '../../src/schema/device-class.js';
 
 export const keys = generateSigningKeyPair();
@@ -44,7 +44,7 @@ export function demoTask(modelId: string, weights: { bytes: Buffer; sha256: stri
     revision: 1,
     camera: { focusDistanceM, fNumber, exposureUs: 2000, analogGain: 2 },
     memory: { weightBufferKib: 1024, activationBufferKib: 512 },
-    model: { id: modelId, version: '1', sha256: weights.sha256, sizeBytes: weights.bytes.length, weightsPath: `/api/v1/models/${modelId}/weights` },
+    model: { id: modelId, version: '1', sha256: weights.sha256, sizeBytes: weights.bytes.length, weightsPath: `/api/v1/models/${modelId}/weights?sha256=${weights.sha256}` },
     frameRateHz: 10,
     predicted: { inferenceMs: 12, inferenceMj: 30, frameLatencyMs: 25, frameEnergyMj: 45 },
   };
@@ -59,11 +59,22 @@ export function demoRelease(id: string, version: number, tasks: Record<string, R
     deviceClass: demoDeviceClass,
     createdAt: '2025-01-01T00:00:00.000Z',
     createdBy: 'test (demo data)',
+    audience: { deviceClassId: demoDeviceClass.id },
+    expiresAt: '2099-01-01T00:00:00.000Z',
     applyPolicy: 'immediate',
     defaultTask: Object.keys(tasks)[0]!,
     tasks,
     ...extra,
   };
+}
+
+/** A release as the server made them before format 2: no audience, no expiry, weights named by the model's latest URL. */
+export function legacyRelease(id: string, version: number, tasks: Record<string, ReleaseTask>): Release {
+  const { audience: _a, expiresAt: _e, ...rest } = demoRelease(id, version, tasks);
+  const legacyTasks = Object.fromEntries(
+    Object.entries(tasks).map(([n, t]) => [n, { ...t, model: { ...t.model, weightsPath: `/api/v1/models/${t.model.id}/weights` } }]),
+  );
+  return { ...rest, format: LEGACY_RELEASE_FORMAT, tasks: legacyTasks };
 }
 
 export function sign(release: Release): SignedRelease {

@@ -20,8 +20,10 @@ export interface WeightsServer {
   url: string;
   /** Bytes served per path; tests may replace them (to serve wrong bytes). */
   files: Map<string, Buffer>;
+  /** Bytes served for `?sha256=<hash>` whatever the path, as the server serves any stored version of a model by hash. */
+  bySha: Map<string, Buffer>;
   /** Every request: path and Range header. */
-  requests: Array<{ path: string; range: string | undefined; user: string }>;
+  requests: Array<{ path: string; range: string | undefined; user: string; sha256: string | null }>;
   /** When set, a full download of this path is cut off after this many bytes (once). */
   cutOnce: Map<string, number>;
   close(): Promise<void>;
@@ -35,12 +37,15 @@ function basicUser(req: IncomingMessage): string {
 /** A small real HTTP server with RFC 9110 byte ranges, standing in for the weights route. */
 export async function startWeightsServer(): Promise<WeightsServer> {
   const files = new Map<string, Buffer>();
+  const bySha = new Map<string, Buffer>();
   const requests: WeightsServer['requests'] = [];
   const cutOnce = new Map<string, number>();
   const server: Server = createServer((req, res) => {
-    const path = new URL(req.url ?? '/', 'http://x').pathname;
-    requests.push({ path, range: req.headers.range, user: basicUser(req) });
-    const body = files.get(path);
+    const url = new URL(req.url ?? '/', 'http://x');
+    const path = url.pathname;
+    const sha256 = url.searchParams.get('sha256');
+    requests.push({ path, range: req.headers.range, user: basicUser(req), sha256 });
+    const body = (sha256 !== null ? bySha.get(sha256) : undefined) ?? files.get(path);
     if (!basicUser(req)) return void res.writeHead(401).end();
     if (!body) return void res.writeHead(404).end();
     const m = /^bytes=(\d+)-$/.exec(req.headers.range ?? '');
@@ -62,7 +67,7 @@ export async function startWeightsServer(): Promise<WeightsServer> {
   await new Promise<void>((r) => server.listen(0, '127.0.0.1', r));
   const port = (server.address() as { port: number }).port;
   return {
-    url: `http://127.0.0.1:${port}`, files, requests, cutOnce,
+    url: `http://127.0.0.1:${port}`, files, bySha, requests, cutOnce,
     close: () => new Promise<void>((r) => { server.closeAllConnections(); server.close(() => r()); }),
   };
 }
@@ -131,10 +136,10 @@ export interface AgentRig {
 
 /** Every setting's default, as the agent's schema gives it. */
 function settingDefaults(): Omit<AgentConfig, 'publicKeyPem'> {
-  const { publicKeyPath: _unused, ...defaults } = agentSettingsSchema.parse({
+  const { publicKeyPath: _unused, passwordFile: _none, ...defaults } = agentSettingsSchema.parse({
     deviceId: 'x', deviceClassId: 'x', brokerUrl: 'mqtt://x', password: 'x', serverUrl: 'http://x', publicKeyPath: 'x', dataDir: 'x',
   });
-  return defaults;
+  return { ...defaults, password: 'x' };
 }
 
 export function agentConfig(deviceId: string, password: string, brokerUrl: string, serverUrl: string, dataDir: string, extra: Partial<AgentConfig> = {}): AgentConfig {

@@ -30,7 +30,8 @@ const hardwareFile = process.env.FAULT_HARDWARE_FILE;
 if (!hardwareFile) throw new Error('set FAULT_HARDWARE_FILE');
 const resolved = resolveAgentSettings({ argv: process.argv.slice(2), env: {}, readFile: (p) => readFileSync(p, 'utf8') });
 if (!resolved.ok) throw new Error(JSON.stringify(resolved.issues));
-const { publicKeyPath, ...settings } = resolved.settings;
+const { publicKeyPath, password: _given, passwordFile: _none, ...settings } = resolved.settings;
+const password = resolved.settings.password ?? readFileSync(resolved.settings.passwordFile!, 'utf8').trim();
 
 const hw: PersistedHardware = existsSync(hardwareFile)
   ? { ...(JSON.parse(readFileSync(hardwareFile, 'utf8')) as PersistedHardware), steps: 0, pid: process.pid }
@@ -63,7 +64,7 @@ const driver: ProfileDriver = {
 };
 
 const agent = createAgent({
-  config: { ...settings, publicKeyPem: readFileSync(publicKeyPath, 'utf8') },
+  config: { ...settings, password, publicKeyPem: readFileSync(publicKeyPath, 'utf8') },
   driver,
   log: (line) => process.stdout.write(`${line}\n`),
 });

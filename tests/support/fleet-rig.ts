@@ -10,14 +10,13 @@ import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.j
 import { createKeepaliveNotes } from '../../src/bus/connection-notes.js';
 import { createCalibrationEngine, type CalibrationEngine, type CalibrationEngineOptions } from '../../src/fleet/calibration/engine.js';
 import { createRolloutEngine, type RolloutEngine, type RolloutEngineOptions } from '../../src/fleet/rollout/engine.js';
-import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import type { SignedRelease } from '../../src/protocol/release.js';
-import { createBlobStore, loadOrCreateSigningKey, openStore, type Store } from '../../src/store/index.js';
+import { createBlobStore, openStore, type Store } from '../../src/store/index.js';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
 import type { AgentConfig } from '../../device-agent/config.js';
 import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
 import { systemClock } from '../../device-agent/clock.js';
-import { demoDeviceClass, demoRelease, demoTask, demoWeights, sign, tempDir } from './agent-fixtures.js';
+import { demoDeviceClass, demoRelease, demoTask, demoWeights, keys, sign, tempDir } from './agent-fixtures.js';
 import { agentConfig, startWeightsServer, type WeightsServer } from './agent-rig.js';
 
 /** Demo data: two tasks of a greenhouse row camera, with the weights the weights server hands out. */
@@ -80,8 +79,13 @@ export async function startFleetRig(options: RolloutEngineOptions & CalibrationE
   });
   calibration.start();
   engine.start();
-  const key = loadOrCreateSigningKey(dir.path, generateSigningKeyPair);
-  const app = createApp({ store, blobs: createBlobStore(dir.path), signer: createSigner(key), publisher: bridge, onError: (e) => { throw e; } });
+  // The agents' trusted key signs here too (re-issues of a rollback), and the blob store holds the weights a re-issue checks.
+  const blobs = createBlobStore(dir.path);
+  for (const w of [rowsWeights, leavesWeights]) {
+    const put = await blobs.put((async function* () { yield w.bytes; })(), { sha256: w.sha256, sizeBytes: w.bytes.length, maxBytes: w.bytes.length });
+    if (!put.ok) throw new Error(`fleet rig: storing demo weights failed: ${put.detail}`);
+  }
+  const app = createApp({ store, blobs, signer: createSigner(keys), publisher: bridge, onError: (e) => { throw e; } });
   const operatorToken = store.tokens.create({ role: 'operator', label: 'fleet test operator', actor: 'test set-up', at: new Date().toISOString() }).secret;
 
   function enrol(deviceId: string, tags: string[] = []): string {

@@ -38,7 +38,7 @@ describe.skipIf(!hasChromium)(`offline time in the history, the CSV, the CLI and
       deviceId: ROBOT, deviceClassId: 'gh-scout-a', brokerUrl: proxy.url, password: enrolled.mqtt.password, serverUrl: rig.server.url,
       publicKeyPath: join(dir.path, 'key.pem'), dataDir: join(dir.path, 'agent'), controlPort: 0, telemetryIntervalS: 1, keepaliveS: 1, reconnectMs: 200,
     });
-    agent = createAgent({ config: { ...settings, publicKeyPem }, driver: createSimDriver({ clock: systemClock, timeScale: 0, efficiency: 1, seed: 77 }) });
+    agent = createAgent({ config: { ...settings, password: enrolled.mqtt.password, publicKeyPem }, driver: createSimDriver({ clock: systemClock, timeScale: 0, efficiency: 1, seed: 77 }) });
     await agent.start();
     await rig.api.json('POST', `/api/v1/devices/${ROBOT}/assign`, { releaseId: rig.firstReleases.get('gh-scout-a') });
     await until(() => (agent.state().releaseId === rig.firstReleases.get('gh-scout-a') ? true : undefined), 'the robot to apply its release');

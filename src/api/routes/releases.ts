@@ -3,6 +3,7 @@ import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { conflict, notFound } from '../errors.js';
 import { createRelease } from '../../release/create.js';
+import { reissueRelease } from '../../release/reissue.js';
 import { releaseRequestSchema } from '../../release/request.js';
 import { releaseQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
@@ -17,6 +18,13 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
   route('releases.create', async (c) => {
     const request = await readJson(c, releaseRequestSchema, deps.limits.maxJsonBytes);
     const stored = unwrap(createRelease(request, { store, blobs: deps.blobs, signer, actor: actorOf(c), at: deps.clock.now().toISOString() }));
+    return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
+  });
+
+  route('releases.reissue', (c) => {
+    const at = deps.clock.now().toISOString();
+    const id = c.req.param('id') ?? '';
+    const stored = unwrap(store.transaction(() => reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at })));
     return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 
@@ -47,6 +55,9 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
           defaultTask: release.defaultTask,
           tasks: Object.fromEntries(Object.entries(release.tasks).map(([n, t]) => [n, { profileId: t.profileId, revision: t.revision }])),
           overridden: release.override !== undefined,
+          format: release.format,
+          expiresAt: release.expiresAt ?? null,
+          reissueOf: release.reissueOf ?? null,
           robots: { applied: applied.get(r.id) ?? { online: 0, offline: 0 }, assigned: assigned.get(r.id) ?? 0 },
         };
       }),

@@ -1,6 +1,7 @@
 import { createRolloutService, ROLLOUT_CAUTION } from '../../fleet/rollout/service.js';
 import { rolloutRequestSchema } from '../../fleet/rollout/spec.js';
 import { rolloutQuerySchema } from '../../fleet/queries.js';
+import { reissueRelease } from '../../release/reissue.js';
 import { actorOf } from '../auth.js';
 import { readJson, readQuery } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
@@ -15,7 +16,12 @@ import { withWaveNumbers } from './wave-numbers.js';
  * The routes only change the stored rollout; the fleet's rollout engine does the assigning on its next tick.
  */
 export function registerRolloutRoutes(route: Router, deps: ResolvedDeps): void {
-  const service = createRolloutService(deps.store);
+  const service = createRolloutService(deps.store, {
+    reissue: function reissue(releaseId, actor, at) {
+      const r = reissueRelease(releaseId, { store: deps.store, blobs: deps.blobs, signer: deps.signer, actor, at });
+      return r.ok ? { ok: true, releaseId: r.value.id } : { ok: false, message: r.message, issues: r.issues };
+    },
+  });
   const now = () => deps.clock.now().toISOString();
 
   route('rollouts.create', async (c) => {

@@ -8,6 +8,7 @@ import { HttpError, notFound } from '../errors.js';
 import { decideRange, etagMatches } from '../http-range.js';
 import { weightsQuerySchema } from '../request-schemas.js';
 import type { Router } from '../routing.js';
+import { weightsInScope } from '../../release/download-scope.js';
 
 /** Streamed, hash-checked upload and resumable, cache-validated download of model weights. */
 export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
@@ -43,6 +44,14 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     // Without ?sha256 the latest version's weights; with it, those of any version of this model (older releases).
     const sha256 = query.sha256 ?? history[history.length - 1]!.document.sha256;
     if (!history.some((v) => v.document.sha256 === sha256)) throw notFound(`weights ${sha256} of model '${id}'`);
+    const principal = c.get('principal');
+    if (principal?.kind === 'device') {
+      if (!weightsInScope(store, principal.deviceId, store.deviceStates.get(principal.deviceId)).has(sha256)) {
+        throw new HttpError(403, `device '${principal.deviceId}' may download only the weights of its assigned or reported releases`, {
+          issues: [{ path: 'query.sha256', message: `${sha256} (model '${id}') is in none of them` }],
+        });
+      }
+    }
     const size = blobs.sizeOf(sha256);
     if (size === null) throw notFound(`weights of model '${id}' (${sha256}) — not uploaded yet`);
 

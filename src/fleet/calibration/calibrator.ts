@@ -1,4 +1,4 @@
-import { releaseSchema, type Release } from '../../protocol/release.js';
+import { releaseSchema, taskOf, type Release } from '../../protocol/release.js';
 import type { Store } from '../../store/store.js';
 import type { Calibration } from '../../validate/input.js';
 import { CALIBRATION_MINIMUM, RECENT_WINDOWS_PER_DEVICE, fitThroughOrigin, isEnough, type RatioFit, type RatioSample, type SampleCounts } from './fit.js';
@@ -88,7 +88,9 @@ export function createCalibrator(store: Pick<Store, 'eventRanges' | 'devices' | 
     const out: DeviceSamples = { latency: [], energy: [], windows: 0, frames: 0 };
     for (const e of reader.latest(deviceId, 'telemetry', RECENT_WINDOWS_PER_DEVICE)) {
       const t = e.event as unknown as Telemetry;
-      const predicted = releaseOf(t.releaseId)?.tasks[t.task]?.predicted;
+      const release = releaseOf(t.releaseId);
+      // Own properties only: a device-reported name such as `constructor` is not a task.
+      const predicted = release ? taskOf(release, String(t.task))?.predicted : undefined;
       if (!predicted || !(t.frames > 0)) continue;
       out.latency.push({ measured: t.inferenceMsMean, predicted: predicted.inferenceMs, weight: t.frames });
       out.energy.push({ measured: t.inferenceMjMean, predicted: predicted.inferenceMj, weight: t.frames });

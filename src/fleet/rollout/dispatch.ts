@@ -52,7 +52,7 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
   function inputsOf(r: RolloutRecord, batch: readonly RolloutDeviceRecord[], rollback: boolean, at: string): AssignInput[] {
     return batch.map((d) => ({
       deviceId: d.deviceId,
-      releaseId: rollback ? d.previousReleaseId! : r.releaseId,
+      releaseId: rollback ? (d.restoreReleaseId ?? d.previousReleaseId!) : r.releaseId,
       actor: rollback ? (r.rollbackBy ?? r.createdBy) : r.createdBy,
       cause: `${rollback ? 'rollback' : 'rollout'}:${r.id}`,
       at,

@@ -185,7 +185,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       for (const d of moved) {
         if (d.rollbackStatus === null && d.previousReleaseId === null) repo.markRollback(r.id, d.deviceId, 'nothing-to-restore', null);
         else if (d.rollbackStatus === null) toRestore.push(d);
-        else if (d.rollbackStatus === 'assigned' && facts.reported(d.deviceId)?.releaseId === d.previousReleaseId) {
+        else if (d.rollbackStatus === 'assigned' && facts.reported(d.deviceId)?.releaseId === (d.restoreReleaseId ?? d.previousReleaseId)) {
           repo.setRollbackStatus(r.id, d.deviceId, 'restored');
         }
       }

@@ -1,4 +1,4 @@
-import type { Release } from '../../protocol/release.js';
+import { taskOf, type Release } from '../../protocol/release.js';
 import type { RolloutDeviceRecord } from '../../store/rollouts.js';
 import type { OpenRolloutDevice, RolloutFactsRepository } from '../../store/rollout-facts.js';
 import type { DeviceFacts } from './gate.js';
@@ -64,7 +64,8 @@ export function createFactsReader(rows: RolloutFactsRepository): FactsReader {
         if (type === 'release-applied' && body.releaseId === release.id) applied = true;
         else if (type === 'release-refused' && body.releaseId === release.id) refusedReason = String(body.reason);
         else if (type === 'telemetry' && body.releaseId === release.id) {
-          const predicted = release.tasks[String(body.task)]?.predicted.inferenceMs;
+          // Own properties only: a device-reported name such as `constructor` is not a task.
+          const predicted = taskOf(release, String(body.task))?.predicted.inferenceMs;
           const frames = Number(body.frames);
           if (predicted === undefined || !(frames > 0)) continue;
           telemetry.frames += frames;

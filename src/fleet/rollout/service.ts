@@ -1,6 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import type { InputIssue } from '../../schema/issues.js';
-import { refuse, type Outcome } from '../../schema/refusal.js';
+import { refuse, type Outcome, type Refusal } from '../../schema/refusal.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { HOLDING_STATUSES, type RolloutDeviceRecord, type RolloutRecord, type RolloutStatus } from '../../store/rollouts.js';
 import type { Store } from '../../store/store.js';
@@ -40,7 +40,10 @@ export interface RolloutService {
   /** Reopens the gate of the failed devices of the current wave (only their new events count) and runs again. */
   resume(id: string, actor: string, at: string): ServiceResult<RolloutView>;
   abort(id: string, actor: string, at: string): ServiceResult<RolloutView>;
-  /** Re-assigns each moved device's previous release (the engine sends them and tracks convergence). */
+  /**
+   * Gives each moved device its previous release's content again, as a re-issue with a higher sequence
+   * (the engine sends them and tracks convergence).
+   */
   rollback(id: string, actor: string, at: string): ServiceResult<RolloutView>;
 }
 
@@ -74,7 +77,25 @@ function resolveTargets(store: Store, request: RolloutRequest, deviceClassId: st
   return { ok: true, value: devices };
 }
 
-export function createRolloutService(store: Store, options: { newId?: () => string } = {}): RolloutService {
+/**
+ * Makes a new release carrying an older one's content, with the next sequence number (src/release/reissue.ts
+ * with the server's signer); returns its id, or why it cannot. Runs inside the rollback's transaction.
+ */
+export type Reissuer = (releaseId: string, actor: string, at: string) => { ok: true; releaseId: string } | { ok: false; message: string; issues: InputIssue[] };
+
+export interface RolloutServiceOptions {
+  newId?: () => string;
+  /** Needed for rollbacks: devices refuse a release with a lower sequence than they applied, so going back is a re-issue. */
+  reissue?: Reissuer;
+}
+
+class ReissueFailed extends Error {
+  constructor(readonly failure: Refusal<RolloutRefusalCode>) {
+    super(failure.message);
+  }
+}
+
+export function createRolloutService(store: Store, options: RolloutServiceOptions = {}): RolloutService {
   const repo = store.rollouts;
   const ranges = store.eventRanges;
   const newId = options.newId ?? (() => `ro-${randomBytes(5).toString('hex')}`);
@@ -186,7 +207,25 @@ export function createRolloutService(store: Store, options: { newId?: () => stri
           { conflicts: held },
         );
       }
-      return transition(id, ['running', 'paused', 'completed', 'aborted'], 'rollback', actor, at, () => repo.startRollback(id, actor, at));
+      const reissue = options.reissue;
+      if (!reissue) return fail('conflict', 'cannot roll back: this server was started without a release signer to re-issue the previous releases');
+      try {
+        return transition(id, ['running', 'paused', 'completed', 'aborted'], 'rollback', actor, at, () => {
+          // One re-issue per distinct previous release, in the same transaction as the rollback's start.
+          const previous = new Set(
+            repo.devices(id).filter((d) => d.assignmentId !== null && d.rollbackStatus === null && d.previousReleaseId !== null && d.restoreReleaseId === null).map((d) => d.previousReleaseId!),
+          );
+          for (const releaseId of previous) {
+            const made = reissue(releaseId, actor, at);
+            if (!made.ok) throw new ReissueFailed(fail('conflict', `cannot roll back: ${made.message}`, made.issues));
+            repo.setRestoreRelease(id, releaseId, made.releaseId);
+          }
+          repo.startRollback(id, actor, at);
+        });
+      } catch (e) {
+        if (e instanceof ReissueFailed) return e.failure;
+        throw e;
+      }
     },
   };
 }
