@@ -59,7 +59,7 @@ export function demoRelease(id: string, version: number, tasks: Record<string, R
     deviceClass: demoDeviceClass,
     createdAt: '2025-01-01T00:00:00.000Z',
     createdBy: 'test (demo data)',
-    audience: { deviceClassId: demoDeviceClass.id },
+    audience: { deviceClassId: extra.deviceClassId ?? demoDeviceClass.id },
     expiresAt: '2099-01-01T00:00:00.000Z',
     applyPolicy: 'immediate',
     defaultTask: Object.keys(tasks)[0]!,
