@@ -78,7 +78,7 @@ export async function run(): Promise<BenchFigure[]> {
     const agentMain = await bundleAgent(work, ROOT);
     const release: Release = {
       format: RELEASE_FORMAT, id: 'bench-rel-1', version: 1, deviceClassId: benchDeviceClass.id, deviceClass: benchDeviceClass,
-      createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', applyPolicy: 'immediate', defaultTask: 'rows',
+      createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', audience: { deviceClassId: benchDeviceClass.id }, expiresAt: '2099-01-01T00:00:00.000Z', applyPolicy: 'immediate', defaultTask: 'rows',
       tasks: { rows: benchTask('rows-net', weights, 0.5, 4), leaves: benchTask('leaf-net', weights, 0.25, 2.8) },
     };
     const keyPath = join(work, 'server.pem');

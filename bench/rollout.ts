@@ -147,7 +147,7 @@ function storeRelease(store: Store, n: number, round: number, keys: { privateKey
   const files = new Map<string, Buffer>();
   const release: Release = {
     format: RELEASE_FORMAT, id: `bench-rel-${n}-${round + 1}`, version: round + 1, deviceClassId: benchDeviceClass.id, deviceClass: benchDeviceClass,
-    createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', applyPolicy: 'immediate', defaultTask: 'rows',
+    createdAt: new Date().toISOString(), createdBy: 'bench (demo data)', audience: { deviceClassId: benchDeviceClass.id }, expiresAt: '2099-01-01T00:00:00.000Z', applyPolicy: 'immediate', defaultTask: 'rows',
     tasks: { rows: benchTask('rows-net', files, 0.5, 4), leaves: benchTask('leaf-net', files, 0.25, 2.8) },
   };
   const signed = signRelease(release, keys.privateKeyPem, keys.publicKeyPem);

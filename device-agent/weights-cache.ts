@@ -3,7 +3,7 @@ import { join } from 'node:path';
 import { weightsPathByHash, type Release } from '../src/protocol/release.js';
 import { downloadWithResume, OversizeError, sha256OfFile } from './weights-fetch.js';
 
-/** The weights the server sent do not match the release: the release cannot be trusted and is refused. */
+/** The weights the server sent do not match the release (hash, size, or more bytes than declared): reported, and fetched again later. */
 export class WeightsMismatchError extends Error {
   override readonly name = 'WeightsMismatchError';
 }

@@ -11,8 +11,8 @@ import { num, table } from './text.js';
 
 export const usage = `usage: ocellus render --profile PROFILE.json --image IMG --distance-m D [--luminance-cd-m2 L] [--catalog DIR ...] [--seed N] [--out PNG] [--json]
   What the robot's network would see: the sample image resized to the model's input, blurred by the profile's
-  point-spread function at distance D (defocus and diffraction as one blur disc, motion at the task's speed, the
-  pixel aperture: the validator's image model) and given the sensor's noise at the scene luminance (default the
+  point-spread function at distance D (the validator's image chain: diffraction at the working f-number, defocus,
+  pixel aperture and motion, as one transfer function) and given the sensor's noise at the scene luminance (default the
   task's darkest). Documents the profile names are found under --catalog (default: the folder above the profile's).
   Writes a PNG (default IMG-seen.png beside the image). A preview only: check any change on one robot, in a safe
   state, before a fleet runs it.
@@ -76,7 +76,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       table([
         ['profile', `${input.profile.id} at ${num(distanceM)} m`],
         ['network input', `${input.model.inputWidthPx}×${input.model.inputHeightPx} px (sensor ÷ ${num(psf.downscale)})`],
-        ['blur spot', `${num(psf.blurSpotSensorPx)} sensor px = ${num(psf.blurSpotInputPx)} input px (defocus and diffraction in quadrature)`],
+        ['blur spot', `${num(psf.blurSpotSensorPx)} sensor px = ${num(psf.blurSpotInputPx)} input px (equivalent disc of the whole chain, same MTF50)`],
         ['motion', `${num(psf.motionInputPx)} input px along x`],
         ['noise', `SNR ${num(psf.snrInputDb)} dB per input pixel at ${num(psf.luminanceCdM2)} cd/m²`],
         ['written', shownOut],

@@ -114,6 +114,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       accuracyVsBlur: result.accuracyVsBlur,
       accuracyVsSnr: result.accuracyVsSnr,
       curveMetric: result.metric,
+      blurUnit: 'input-px' as const,
     };
     if (values.out !== undefined) {
       const out = at(values.out);

@@ -69,7 +69,7 @@ describe('agent process on the V4L2 driver with the ROS 2 task source', () => {
     const a = robotAgent('robot-v4l2', '/dev/video0');
     const first = await a.start();
     await first.waitForOutput(/task source ros2 via rosbridge/, 'ROS 2 source started');
-    await bus.bridge.publishRelease(a.id, signedReleaseText(sign(demoRelease('rel-robot-1', 1, tasks, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id }))));
+    await bus.bridge.publishRelease(a.id, signedReleaseText(sign(demoRelease('rel-robot-1', 1, tasks, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id, audience: { deviceClassId: calibratedRowcam.id } }))));
     await waitFor(async () => (await a.state()).activeTask === 'rows', 'release applied on rows');
     expect(standin.values('/dev/video0')).toMatchObject({ auto_exposure: 1, exposure_time_absolute: 20, gain: 43, focus_absolute: 50 });
 
@@ -101,7 +101,7 @@ describe('agent process on the V4L2 driver with the ROS 2 task source', () => {
   it('refuses a release that needs a control the camera lacks, and says why in its state', async () => {
     const a = robotAgent('robot-fixed', '/dev/video1');
     await a.start();
-    await bus.bridge.publishRelease(a.id, signedReleaseText(sign(demoRelease('rel-robot-ff', 1, tasks, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id }))));
+    await bus.bridge.publishRelease(a.id, signedReleaseText(sign(demoRelease('rel-robot-ff', 1, tasks, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id, audience: { deviceClassId: calibratedRowcam.id } }))));
     const refused = await waitFor(async () => (await a.state()).refused, 'release refused');
     expect(refused.reason).toMatch(/^this device cannot run it \(v4l2 \/dev\/video1 \+ accelerator none\): task rows: needs the V4L2 control focus_absolute/);
     expect((await a.state()).activeTask).toBeNull();

@@ -114,7 +114,7 @@ describe('V4L2 driver against the v4l2-ctl stand-in', () => {
   it('a release that needs a control the camera lacks is refused with the reason, before anything moves', async () => {
     standin.setCameras({ '/dev/video3': { fixture: 'uvc-fixedfocus' } });
     const driver = await driverFor('/dev/video3');
-    const release = demoRelease('rel-ff', 1, { rows: rowsTask }, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id });
+    const release = demoRelease('rel-ff', 1, { rows: rowsTask }, { deviceClass: calibratedRowcam, deviceClassId: calibratedRowcam.id, audience: { deviceClassId: calibratedRowcam.id } });
     expect(driver.checkRelease!(release)).toMatch(/^task rows: needs the V4L2 control focus_absolute \(focus 0.5 m; the device class has a focus table\), which this camera does not offer; it has: brightness,/);
     // Only the control list and the frame rate were read from this camera: nothing was written.
     expect(standin.calls().filter((c) => c[1] === '/dev/video3')).toEqual([['-d', '/dev/video3', '--list-ctrls-menus'], ['-d', '/dev/video3', '--get-parm']]);
