@@ -19,6 +19,7 @@ export const commands: Record<string, CommandEntry> = {
   mtf: { summary: 'MTF of the image chain: diffraction, defocus, pixel and motion; MTF50 and equivalent blur', load: () => import('./mtf.js') },
   exposure: { summary: 'exposure value, EV100 and focal-plane exposure', load: () => import('./exposure.js') },
   photons: { summary: 'photons, electrons and SNR of one pixel (EMVA 1288)', load: () => import('./photons.js') },
+  light: { summary: 'photons and electrons of one pixel for light of a given spectrum (CIE illuminants, LEDs)', load: () => import('./light.js') },
   schema: { summary: 'print the JSON Schema of a document kind', load: () => import('./schema.js') },
   plan: { summary: 'search settings for a task on a device class and list the best feasible candidates', load: () => import('./plan.js') },
   serve: { summary: 'run the server: HTTP API, signed releases, weights store', load: () => import('./serve.js') },

@@ -23,6 +23,8 @@ export interface LayerAnalysis {
   /** Elements of all inputs together. */
   inputElements: number;
   outputElements: number;
+  /** Index of the layer producing each input; −1 for the network's input. */
+  inputLayers: number[];
 }
 
 export interface NetworkAnalysis {
@@ -232,6 +234,7 @@ function costOf(layer: Layer, shapes: Shape[]): LayerCost {
 export function analyzeNetwork(network: Network): NetworkAnalysis {
   const inputShape: Shape = [network.input.channels, network.input.height, network.input.width];
   const shapeById = new Map<string, Shape>();
+  const indexById = new Map<string, number>();
   const layers: LayerAnalysis[] = [];
   let previous = inputShape;
   let macs = 0;
@@ -250,14 +253,17 @@ export function analyzeNetwork(network: Network): NetworkAnalysis {
     const refs = layerInputRefs(layer);
     const refField = MULTI_INPUT_OPS.has(layer.op) ? 'inputs' : 'input';
     const shapes: Shape[] = [];
+    const inputLayers: number[] = [];
     if (refs === undefined) {
       shapes.push(previous);
+      inputLayers.push(i - 1);
     } else {
       if (refs.length === 0) fail(`${layer.op} needs a list of input layer ids`, 'inputs');
       for (const ref of refs) {
         const shape = shapeById.get(String(ref));
         if (!shape) fail(`input ${JSON.stringify(ref)} does not name an earlier layer`, refField);
         shapes.push(shape!);
+        inputLayers.push(indexById.get(String(ref))!);
       }
     }
     let cost: LayerCost;
@@ -271,12 +277,13 @@ export function analyzeNetwork(network: Network): NetworkAnalysis {
     for (const s of shapes) inputElements += elements(s);
     const outputElements = elements(cost.outShape);
     const first = shapes[0]!;
-    layers.push({ id, op: layer.op, inShape: [first[0], first[1], first[2]], outShape: cost.outShape, macs: cost.macs, params: cost.params, inputElements, outputElements });
+    layers.push({ id, op: layer.op, inShape: [first[0], first[1], first[2]], outShape: cost.outShape, macs: cost.macs, params: cost.params, inputElements, outputElements, inputLayers });
     macs += cost.macs;
     params += cost.params;
     batchNormParams += cost.batchNormParams ?? 0;
     peak = Math.max(peak, inputElements + outputElements);
     shapeById.set(id, cost.outShape);
+    indexById.set(id, i);
     previous = cost.outShape;
   });
   return { macs, params, batchNormParams, peakActivationElements: peak, inputElements: elements(inputShape), layers };

@@ -16,6 +16,7 @@ export const FAIL_CODES = [
   'latency',
   'energy-per-frame',
   'average-power',
+  'throughput',
   'accuracy',
 ] as const satisfies readonly CheckCode[];
 

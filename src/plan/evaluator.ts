@@ -81,13 +81,13 @@ export function evaluateAt(t: PlanTables, m: number, p: number, e: number, f: nu
     mask |= BIT['motion-blur'];
     overshoot += overshootAbove(motionPx, motionLimit);
   }
-  const feg = (f * t.E + e) * t.G + g;
-  const snrDb = t.snrDarkDb[feg]!;
+  const fseg = fse * t.G + g;
+  const snrDb = t.snrDarkDb[fseg]!;
   if (!(snrDb >= task.minSnrDb)) {
     mask |= BIT['snr-dark'];
     overshoot += overshootBelow(snrDb, task.minSnrDb);
   }
-  const clipping = t.clippingPercent[feg]!;
+  const clipping = t.clippingPercent[fseg]!;
   if (!(clipping < 100)) {
     mask |= BIT['clipping-bright'];
     overshoot += Number.isNaN(clipping) ? 10 : overshootAbove(clipping, 100);
@@ -97,26 +97,31 @@ export function evaluateAt(t: PlanTables, m: number, p: number, e: number, f: nu
     mask |= BIT['exposure-fits-frame'];
     overshoot += overshootAbove(exposureUs, t.framePeriodUs);
   }
-  const mp = m * t.P + p;
-  const latencyMs = t.latencyMs[mp * t.E + e]!;
+  const mpe = (m * t.P + p) * t.E + e;
+  const latencyMs = t.latencyMs[mpe]!;
   if (!(latencyMs <= task.latencyBudgetMs)) {
     mask |= BIT.latency;
     overshoot += overshootAbove(latencyMs, task.latencyBudgetMs);
   }
-  const energyMj = t.energyMj[mp]!;
+  const energyMj = t.energyMj[mpe]!;
   if (!(energyMj <= task.energyBudgetMjPerFrame)) {
     mask |= BIT['energy-per-frame'];
     overshoot += overshootAbove(energyMj, task.energyBudgetMjPerFrame);
   }
-  const powerW = t.averagePowerW[mp]!;
+  const powerW = t.averagePowerW[mpe]!;
   const powerBudgetW = t.deviceClass.platform.powerBudgetW;
   if (!(powerW <= powerBudgetW)) {
     mask |= BIT['average-power'];
     overshoot += overshootAbove(powerW, powerBudgetW);
   }
+  const busiestMs = t.busiestStageMs[mpe]!;
+  if (!(busiestMs <= t.framePeriodMs)) {
+    mask |= BIT.throughput;
+    overshoot += overshootAbove(busiestMs, t.framePeriodMs);
+  }
   // Predicted accuracy: the lower of the accuracy at the worst blur and at the dark-scene SNR, where known.
   const byBlur = t.accuracyAtBlur[mfse]!;
-  const bySnr = t.accuracyAtSnr[m * t.F * t.E * t.G + feg]!;
+  const bySnr = t.accuracyAtSnr[m * t.F * t.S * t.E * t.G + fseg]!;
   const accuracy = Number.isNaN(byBlur) ? bySnr : Number.isNaN(bySnr) ? byBlur : bySnr < byBlur ? bySnr : byBlur;
   // A blur beyond the measured curve fails accuracy, as in the validator: the curve says nothing there.
   if ((!Number.isNaN(accuracy) && !(accuracy >= task.minAccuracy)) || (!Number.isNaN(byBlur) && modelBlurPx > t.curveEndPx[m]!)) {

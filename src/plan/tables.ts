@@ -3,18 +3,20 @@
  * as the validator makes them, so that every candidate's figures come out identical to validate()'s:
  *  - image per (f-number, focus, exposure): worst combined blur (one MTF of defocus, diffraction, pixel and
  *    motion) over the sampled range, sensor px, and per model in the unit of its curve;
- *  - signal per (f-number, exposure, gain): dark-scene SNR and bright-scene share of saturation;
+ *  - signal per (f-number, focus, exposure, gain): dark-corner SNR and bright-centre share of saturation
+ *    (the working f-number depends on the focus), from the scene's light integrated once;
  *  - motion per exposure; model accuracy per (model, image) and per (model, signal);
- *  - compute per (model, memory partition): inference cost, then the frame budget per exposure.
+ *  - compute per (model, memory partition): inference cost, then the frame budget (latency, energy with idle
+ *    draw and the robot light, power, throughput) per exposure.
  * Each table is a flat typed array; the inner loop only looks figures up.
  */
 import { acceleratorTotals } from '../physics/accelerator.js';
 import type { AcceleratorTotals } from '../physics/accelerator.js';
-import { frameBudget } from '../physics/frame-budget.js';
+import { acceleratorIdlePowerMw, frameBudget } from '../physics/frame-budget.js';
 import { smearPx } from '../physics/motion.js';
 import type { NetworkAnalysis } from '../physics/network-cost.js';
 import { objectPixelSizeMm } from '../physics/optics.js';
-import { pixelSignal, saturationElectrons, scenePhotonsPerPixel } from '../physics/sensor.js';
+import { brightPixel, darkPixel, sceneLight } from '../physics/scene-signal.js';
 import { mToMm, sToUs } from '../physics/units.js';
 import type { DeviceClass, Model, Network, Task } from '../schema/index.js';
 import { MIN_CALIBRATION_SAMPLES, accuracyAtBlur, accuracyAtSnr, curvesFor, downscaleFactor, imageSetup, toleratedBlurPx, worstCombinedBlurPx } from '../validate/index.js';
@@ -52,16 +54,18 @@ export interface PlanTables {
   // per (m, f, s, e): the same in the model's unit, and the accuracy there (NaN without an accuracy-vs-blur curve)
   modelBlurPx: Float64Array;
   accuracyAtBlur: Float64Array;
-  // per (f, e, g); NaN SNR when it cannot be estimated
+  // per (f, s, e, g); NaN SNR when it cannot be estimated
   snrDarkDb: Float64Array;
   clippingPercent: Float64Array;
-  // per (m, f, e, g); NaN when the model has no accuracy-vs-SNR curve or the SNR is unknown
+  // per (m, f, s, e, g); NaN when the model has no accuracy-vs-SNR curve or the SNR is unknown
   accuracyAtSnr: Float64Array;
-  // per (m, p)
+  // per (m, p, e)
   energyMj: Float64Array;
   averagePowerW: Float64Array;
-  // per (m, p, e)
   latencyMs: Float64Array;
+  /** The busiest pipeline stage, ms, and the frame period it must fit. */
+  busiestStageMs: Float64Array;
+  framePeriodMs: number;
 }
 
 function calibrationFactors(calibration: Calibration | undefined): { latency: number; energy: number } {
@@ -131,40 +135,44 @@ export function buildTables(
     }
   }
 
-  const snr = new Float64Array(F * E * G);
-  const clipping = new Float64Array(F * E * G);
-  const accSnr = new Float64Array(M * F * E * G);
+  const snr = new Float64Array(F * S * E * G);
+  const clipping = new Float64Array(F * S * E * G);
+  const accSnr = new Float64Array(M * F * S * E * G);
+  const light = sceneLight(task, deviceClass);
   for (let f = 0; f < F; f++) {
-    for (let e = 0; e < E; e++) {
-      const light = (luminanceCdM2: number) => {
-        try {
-          return scenePhotonsPerPixel({ luminanceCdM2, fNumber: axes.fNumbers[f]!, exposureUs: axes.exposuresUs[e]!, pixelPitchUm: sensor.pixelPitchUm, wavelengthNm: sensor.designWavelengthNm });
-        } catch {
-          return NaN;
+    for (let s = 0; s < S; s++) {
+      for (let e = 0; e < E; e++) {
+        for (let g = 0; g < G; g++) {
+          const camera = { fNumber: axes.fNumbers[f]!, focusDistanceM: axes.focusDistancesM[s]!, exposureUs: axes.exposuresUs[e]!, analogGain: axes.analogGains[g]! };
+          const i = ((f * S + s) * E + e) * G + g;
+          let snrDb = NaN;
+          let percent = NaN;
+          if (light.ok) {
+            try {
+              snrDb = darkPixel(light.value, deviceClass, task, camera).snrDb;
+              percent = brightPixel(light.value, deviceClass, task, camera).percentOfSaturation;
+            } catch {
+              // Light the validator cannot estimate fails both checks there too.
+            }
+          }
+          snr[i] = snrDb;
+          clipping[i] = percent;
+          curves.forEach((c, m) => {
+            accSnr[m * F * S * E * G + i] = c.accuracyVsSnr && !Number.isNaN(snrDb) ? accuracyAtSnr(c.accuracyVsSnr, snrDb).y : NaN;
+          });
         }
-      };
-      const darkPhotons = light(task.luminanceMinCdM2);
-      const brightPhotons = light(task.luminanceMaxCdM2);
-      for (let g = 0; g < G; g++) {
-        const gain = axes.analogGains[g]!;
-        const i = (f * E + e) * G + g;
-        const snrDb = Number.isNaN(darkPhotons)
-          ? NaN
-          : pixelSignal({ photons: darkPhotons, quantumEfficiency: sensor.quantumEfficiency, darkNoiseE: sensor.darkNoiseE, gainDnPerE: sensor.gainDnPerE, fullWellE: sensor.fullWellE, bitDepth: sensor.bitDepth, analogGain: gain }).snrDb;
-        snr[i] = snrDb;
-        const saturationE = saturationElectrons(sensor.fullWellE, sensor.bitDepth, sensor.gainDnPerE, gain);
-        clipping[i] = (100 * (sensor.quantumEfficiency * brightPhotons)) / saturationE;
-        curves.forEach((c, m) => {
-          accSnr[m * F * E * G + i] = c.accuracyVsSnr && !Number.isNaN(snrDb) ? accuracyAtSnr(c.accuracyVsSnr, snrDb).y : NaN;
-        });
       }
     }
   }
 
   const cal = calibrationFactors(calibration);
-  const energyMj = new Float64Array(M * P);
-  const powerW = new Float64Array(M * P);
+  const energyMj = new Float64Array(M * P * E);
+  const powerW = new Float64Array(M * P * E);
   const latencyMs = new Float64Array(M * P * E);
+  const busiestMs = new Float64Array(M * P * E);
+  const robotLight = task.scene?.robotLight !== undefined ? (deviceClass.lights?.find((l) => l.id === task.scene!.robotLight) ?? null) : null;
+  const acceleratorIdleMw = acceleratorIdlePowerMw(accelerator);
+  let framePeriodMs = 0;
   // Inference cost per (network, partition): models that share a network share its costs.
   const costsByNetwork = new Map<Network, AcceleratorTotals[]>();
   models.forEach(({ network, analysis }, m) => {
@@ -178,12 +186,13 @@ export function buildTables(
       const inferenceMs = cost.latencyMs * cal.latency;
       const inferenceMj = cost.energyMj * cal.energy;
       for (let e = 0; e < E; e++) {
-        const budget = frameBudget({ exposureUs: axes.exposuresUs[e]!, sensor, isp, inferenceMs, inferenceMj, frameRateHz: task.frameRateHz });
-        latencyMs[(m * P + p) * E + e] = budget.latency.totalMs;
-        if (e === 0) {
-          energyMj[m * P + p] = budget.energy.totalMj;
-          powerW[m * P + p] = budget.averagePowerW;
-        }
+        const budget = frameBudget({ exposureUs: axes.exposuresUs[e]!, sensor, isp, inferenceMs, inferenceMj, acceleratorIdleMw, light: robotLight, frameRateHz: task.frameRateHz });
+        const k = (m * P + p) * E + e;
+        latencyMs[k] = budget.latency.totalMs;
+        energyMj[k] = budget.energy.totalMj;
+        powerW[k] = budget.averagePowerW;
+        busiestMs[k] = budget.throughput.busiestMs;
+        framePeriodMs = budget.throughput.framePeriodMs;
       }
     });
   });
@@ -194,6 +203,6 @@ export function buildTables(
     motionBlurPx: motion, framePeriodUs: sToUs(1 / task.frameRateHz),
     worstBlurPx: worstBlur, modelBlurPx: modelBlur, accuracyAtBlur: accBlur,
     snrDarkDb: snr, clippingPercent: clipping, accuracyAtSnr: accSnr,
-    energyMj, averagePowerW: powerW, latencyMs,
+    energyMj, averagePowerW: powerW, latencyMs, busiestStageMs: busiestMs, framePeriodMs,
   };
 }

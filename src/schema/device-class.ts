@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { cameraControlsSchema } from './camera-controls.js';
-import { fraction, idSchema, nonNegative, positive, positiveInt, precisionSchema } from './common.js';
+import { finite, fraction, idSchema, nonNegative, positive, positiveInt, precisionSchema } from './common.js';
+import { fractionCurveSchema, robotLightSchema } from './light.js';
 
 export const lensSchema = z.strictObject({
   focalLengthMm: positive(),
@@ -14,6 +15,13 @@ export const lensSchema = z.strictObject({
   nearestFocusM: positive(),
   focusSettleMsPerDioptre: nonNegative(),
   apertureStepMs: nonNegative().default(0),
+  // Spectral transmission: a flat value, an optional curve that replaces it, and an optional ideal IR cut.
+  transmission: fraction().default(0.9),
+  transmissionCurve: fractionCurveSchema.optional(),
+  /** An ideal infrared-cut filter: nothing passes above this wavelength. */
+  irCutNm: positive().optional(),
+  /** Relative illumination apart from cos⁴ (mechanical vignetting), ISO 12232's v. */
+  vignetting: fraction().default(0.98),
 });
 
 export const sensorSchema = z.strictObject({
@@ -31,6 +39,27 @@ export const sensorSchema = z.strictObject({
   readoutEnergyPjPerPixel: nonNegative(),
   /** Wavelength used for diffraction and photon counts; 550 nm is the usual photopic choice (common practice). */
   designWavelengthNm: positive().default(550),
+  // Spectral response and noise as an EMVA 1288 report gives them.
+  /** QE against wavelength; replaces the flat `quantumEfficiency` for light when given. */
+  quantumEfficiencyCurve: fractionCurveSchema.optional(),
+  /** Input-referred read noise per analog gain, in increasing gain; replaces `darkNoiseE` when given. */
+  readNoiseByGain: z
+    .array(z.strictObject({ analogGain: positive(), readNoiseE: nonNegative() }))
+    .min(1)
+    .refine((pts) => pts.every((p, i) => i === 0 || p.analogGain > pts[i - 1]!.analogGain), { message: 'analog gains must be strictly increasing' })
+    .optional(),
+  darkCurrentEPerS: nonNegative().default(0),
+  darkCurrentRefTempC: finite().default(25),
+  /** Temperature rise that doubles the dark current; 7 °C is a project default (common practice: 6–8 °C). */
+  darkCurrentDoublingC: positive().default(7),
+  operatingTemperatureC: finite().optional(),
+  /** Bits handed to the network after the ADC (e.g. 8 for an int8 input); defaults to the ADC's bit depth. */
+  networkInputBits: positiveInt().max(24).optional(),
+  /** The next exposure can run while the previous frame reads out (overlapped mode). */
+  exposureDuringReadout: z.boolean().default(false),
+  /** Power while exposing and reading out, on top of the readout energy per pixel, and between frames. */
+  activePowerMw: nonNegative().default(0),
+  idlePowerMw: nonNegative().default(0),
   /** How rows are exposed: all at once ("global"), or one after another during readout ("rolling"). */
   shutter: z.enum(['global', 'rolling']).default('global'),
   /**
@@ -45,6 +74,7 @@ export const sensorSchema = z.strictObject({
 export const ispSchema = z.strictObject({
   latencyMsPerFrame: nonNegative(),
   energyPjPerPixel: nonNegative(),
+  idlePowerMw: nonNegative().default(0),
 });
 
 export const acceleratorSchema = z.strictObject({
@@ -58,7 +88,27 @@ export const acceleratorSchema = z.strictObject({
   energyPjPerDramByte: nonNegative(),
   staticPowerMw: nonNegative(),
   flashReadMbPerS: positive(),
+  /** Switched off between inferences; otherwise it draws `idlePowerMw` (default: the static power) while it waits. */
+  powerGated: z.boolean().default(false),
+  idlePowerMw: nonNegative().optional(),
+  /** Share of the peak MAC rate each op kind reaches (default 1). */
+  utilisation: z
+    .strictObject({ conv: fractionAboveZero(), dwconv: fractionAboveZero(), fc: fractionAboveZero() })
+    .partial()
+    .default({}),
+  /** Fixed cost of dispatching one layer. */
+  layerOverheadUs: nonNegative().default(0),
+  /** SRAM energy per byte by buffer size, in increasing size; replaces `energyPjPerSramByte` when given. */
+  sramEnergyBySize: z
+    .array(z.strictObject({ bufferKib: positive(), energyPjPerByte: nonNegative() }))
+    .min(1)
+    .refine((pts) => pts.every((p, i) => i === 0 || p.bufferKib > pts[i - 1]!.bufferKib), { message: 'buffer sizes must be strictly increasing' })
+    .optional(),
 });
+
+function fractionAboveZero() {
+  return fraction().refine((v) => v > 0, { message: 'must be greater than 0' });
+}
 
 export const platformSchema = z.strictObject({
   powerBudgetW: positive(),
@@ -75,6 +125,15 @@ export const deviceClassSchema = z.strictObject({
   isp: ispSchema,
   accelerator: acceleratorSchema,
   platform: platformSchema,
+  /** Lights carried by the robot; a task's scene switches one on by id. */
+  lights: z
+    .array(robotLightSchema)
+    .superRefine((lights, ctx) => {
+      lights.forEach((l, i) => {
+        if (lights.findIndex((o) => o.id === l.id) !== i) ctx.addIssue({ code: 'custom', path: [i, 'id'], message: `duplicate light id "${l.id}"` });
+      });
+    })
+    .optional(),
   /** Calibration tables from physical settings to the module's control codes (focus, gain, iris). */
   controls: cameraControlsSchema.optional(),
 });

@@ -1,4 +1,5 @@
 export * from './common.js';
+export * from './light.js';
 export * from './camera-controls.js';
 export * from './device-class.js';
 export * from './network.js';

@@ -14,6 +14,7 @@ export const CHECK_CODES = [
   'clipping-bright',
   'exposure-fits-frame',
   'latency',
+  'throughput',
   'energy-per-frame',
   'average-power',
   'memory-fits-sram',

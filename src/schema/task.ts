@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { fraction, finite, idSchema, nonNegative, positive } from './common.js';
+import { sceneSchema } from './light.js';
 
 export const taskSchema = z
   .strictObject({
@@ -35,6 +36,8 @@ export const taskSchema = z
     maxRollingSkewPx: positive().optional(),
     /** Lowest acceptable SNR at the darkest scene; 20 dB is a project default, not a standard. */
     minSnrDb: finite().default(20),
+    /** The light of the scene as a spectrum; without it, light is taken as one design wavelength. */
+    scene: sceneSchema.optional(),
   })
   .refine((t) => t.farDistanceM >= t.nearDistanceM, {
     message: 'farDistanceM must be at least nearDistanceM',

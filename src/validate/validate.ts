@@ -37,8 +37,9 @@ export type ValidationFigures = {
   toleratedBlurUnit: BlurUnit;
   cocMm: number;
   latency: { exposureMs: number; readoutMs: number; ispMs: number; inferenceMs: number; totalMs: number } | null;
-  energy: { readoutMj: number; ispMj: number; inferenceMj: number; totalMj: number } | null;
+  energy: { readoutMj: number; ispMj: number; inferenceMj: number; lightMj: number; idleMj: number; totalMj: number } | null;
   averagePowerW: number | null;
+  throughput: { framePeriodMs: number; sensorMs: number; ispMs: number; inferenceMs: number; busiestMs: number; busiest: string } | null;
   predictedAccuracy: number | null;
   snrDarkDb: number | null;
   hyperfocalM: number | null;
@@ -104,8 +105,9 @@ export function validate(input: ValidationInput, options: ValidateOptions = {}):
       toleratedBlurUnit: tolerance.unit,
       cocMm: dof.cocMm,
       latency: budget ? { ...budget.latency } : null,
-      energy: budget ? { ...budget.energy } : null,
+      energy: budget ? { readoutMj: budget.energy.readoutMj, ispMj: budget.energy.ispMj, inferenceMj: budget.energy.inferenceMj, lightMj: budget.energy.lightMj, idleMj: budget.energy.idleMj, totalMj: budget.energy.totalMj } : null,
       averagePowerW: budget ? budget.averagePowerW : null,
+      throughput: budget ? { ...budget.throughput } : null,
       predictedAccuracy: accuracy.predicted,
       snrDarkDb: dark.snrDb !== null && Number.isFinite(dark.snrDb) ? dark.snrDb : null,
       hyperfocalM: dof.hyperfocalM,

@@ -24,13 +24,13 @@ function write(rel: string, text: string) {
 }
 
 describe('ocellus check', () => {
-  it('checks every demo profile and exits 1 only because leaf-inspection-wide-open fails on purpose', async () => {
+  it('checks every demo profile and exits 1 only because leaf-inspection-wide-open and leaf-inspection-c-cpu fail on purpose', async () => {
     const r = await ocellus('check', 'profiles/', '--json');
     expect(r.code).toBe(1);
     const j = r.json();
     expect(Object.keys(j).sort()).toEqual(['issues', 'profiles']);
     expect(j.issues).toEqual([]);
-    expect(j.profiles).toHaveLength(9);
+    expect(j.profiles).toHaveLength(10);
     for (const p of j.profiles) {
       expect(Object.keys(p).sort()).toEqual(['checks', 'file', 'profile', 'status']);
       expect(p.checks.length).toBeGreaterThanOrEqual(13);
@@ -40,7 +40,12 @@ describe('ocellus check', () => {
       expect(combined.figures.combinedSensorPx).toBeGreaterThan(combined.figures.combinedInputPx);
     }
     const failing = j.profiles.filter((p: { status: string }) => p.status === 'fail').map((p: { profile: string }) => p.profile);
-    expect(failing).toEqual(['leaf-inspection-wide-open']);
+    expect(failing).toEqual(['leaf-inspection-c-cpu', 'leaf-inspection-wide-open']);
+    // The CPU-bound profile fails throughput although its latency fits, and the CPU's draw fails energy and power.
+    const cpu = j.profiles.find((p: { profile: string }) => p.profile === 'leaf-inspection-c-cpu');
+    const failed = cpu.checks.filter((c: { status: string }) => c.status === 'fail').map((c: { code: string }) => c.code);
+    expect(failed.sort()).toEqual(['average-power', 'energy-per-frame', 'throughput']);
+    expect(cpu.checks.find((c: { code: string }) => c.code === 'latency').status).toBe('pass');
     const wide = j.profiles.find((p: { profile: string }) => p.profile === 'leaf-inspection-wide-open');
     const blur = wide.checks.find((c: { code: string }) => c.code === 'blur-over-range');
     expect(blur).toMatchObject({ status: 'fail', path: 'camera.fNumber', unit: 'input px' });

@@ -21,10 +21,10 @@ function run(cmd: string[], cwd = repo): Promise<{ code: number; out: string; er
 }
 
 describe('ocellus as a process', () => {
-  it('`check profiles/` prints every demo profile and exits 1 for the one failing on purpose', async () => {
+  it('`check profiles/` prints every demo profile and exits 1 for the two failing on purpose', async () => {
     const r = await run([launcher, 'check', 'profiles/']);
     expect(r.code).toBe(1);
-    expect(r.out).toContain('9 profiles: 8 pass, 0 pass with warnings, 1 fail');
+    expect(r.out).toContain('10 profiles: 6 pass, 2 pass with warnings, 2 fail');
     expect(r.out).toContain('leaf-inspection-wide-open');
   });
 

@@ -24,11 +24,11 @@ const goodTask = {
 };
 
 describe('loading the demo catalog', () => {
-  it('reads every demo document with no issues: 2 device classes, 3 networks, 6 models, 4 tasks, 9 profiles', async () => {
+  it('reads every demo document with no issues: 3 device classes, 3 networks, 6 models, 4 tasks, 10 profiles', async () => {
     const catalog = await loadCatalog([demo]);
     expect(catalog.issues).toEqual([]);
     const count = (k: string) => catalog.documents.filter((d) => d.kind === k).length;
-    expect([count('device-class'), count('network'), count('model'), count('task'), count('profile')]).toEqual([2, 3, 6, 4, 9]);
+    expect([count('device-class'), count('network'), count('model'), count('task'), count('profile')]).toEqual([3, 3, 6, 4, 10]);
     expect(catalog.documents.every((d) => (d.value as { demoData?: boolean }).demoData === true)).toBe(true);
   });
 

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { acceleratorCost, acceleratorTotals, analyzeNetwork, frameBudget, ridgePointMacsPerByte } from '../../src/physics/index.js';
-import { networkSchema, type DeviceClass, type Network } from '../../src/schema/index.js';
+import { acceleratorSchema, ispSchema, networkSchema, sensorSchema, type DeviceClass, type Network } from '../../src/schema/index.js';
 import { mobileNetV1 } from '../support/physics-mobilenet.js';
 
 /**
@@ -12,7 +12,7 @@ import { mobileNetV1 } from '../support/physics-mobilenet.js';
  * Peak compute 100 MAC units × 100 MHz = 1e10 MAC/s = 1e7 MAC/ms; DRAM 1 GB/s = 1e6 bytes/ms.
  * Ridge point = 1e10 / 1e9 = 10 MAC per byte (Williams et al. 2009).
  */
-const accel: DeviceClass['accelerator'] = {
+const accel: DeviceClass['accelerator'] = acceleratorSchema.parse({
   macUnits: 100,
   clockMhz: 100,
   precision: 'int8',
@@ -23,7 +23,7 @@ const accel: DeviceClass['accelerator'] = {
   energyPjPerDramByte: 200,
   staticPowerMw: 100,
   flashReadMbPerS: 100,
-};
+});
 
 /** conv 3×3 16→32 on 16×8×8, then fc 2048→100 with bias. */
 const twoLayers: Network = {
@@ -41,9 +41,9 @@ describe('roofline (Williams, Waterman, Patterson, CACM 2009), hand-worked', () 
     expect(ridgePointMacsPerByte(accel)).toBe(10);
   });
 
-  // Weights 4,608 + 204,900 = 209,508 bytes do not fit an 8 KiB weight buffer: every layer streams its weights.
+  // Weights 4,608 + 204,900 = 209,508 bytes; neither layer's weights fit a 4 KiB (4,096-byte) weight buffer: every layer streams its weights.
   // Activations: conv I+O = 1,024 + 2,048 = 3,072 bytes, fc 2,048 + 100 = 2,148 bytes; both fit 8 KiB.
-  const cost = acceleratorCost(analysis, accel, { weightBufferKib: 8, activationBufferKib: 8 });
+  const cost = acceleratorCost(analysis, accel, { weightBufferKib: 4, activationBufferKib: 8 });
   const [conv, fcLayer] = cost.layers as [(typeof cost.layers)[0], (typeof cost.layers)[0]];
 
   it('the conv layer is compute-bound: 294,912 MACs → 0.0294912 ms against 5,632 DRAM bytes (4,608 weights + 1,024 frame) → 0.005632 ms', () => {
@@ -96,7 +96,7 @@ describe('roofline (Williams, Waterman, Patterson, CACM 2009), hand-worked', () 
   });
 
   it('acceleratorTotals returns the same totals as acceleratorCost', () => {
-    const partition = { weightBufferKib: 8, activationBufferKib: 8 };
+    const partition = { weightBufferKib: 4, activationBufferKib: 8 };
     const { layers, ...totals } = acceleratorCost(analysis, accel, partition);
     expect(layers).toHaveLength(2);
     expect(acceleratorTotals(analysis, accel, partition)).toEqual(totals);
@@ -167,7 +167,7 @@ describe('roofline properties', () => {
 });
 
 describe('frame budget', () => {
-  const sensor: DeviceClass['sensor'] = {
+  const sensor: DeviceClass['sensor'] = sensorSchema.parse({
     widthPx: 1_920,
     heightPx: 1_080,
     pixelPitchUm: 3,
@@ -182,8 +182,8 @@ describe('frame budget', () => {
     designWavelengthNm: 550,
     shutter: 'global',
     fillFactor: 1,
-  };
-  const isp = { latencyMsPerFrame: 5, energyPjPerPixel: 50 };
+  });
+  const isp = ispSchema.parse({ latencyMsPerFrame: 5, energyPjPerPixel: 50 });
 
   it('sums the stages: 2 ms exposure + 16 ms readout + 5 ms ISP + 12 ms inference = 35 ms (hand-worked)', () => {
     const b = frameBudget({ exposureUs: 2_000, sensor, isp, inferenceMs: 12, inferenceMj: 5, frameRateHz: 30 });

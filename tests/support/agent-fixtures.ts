@@ -9,12 +9,12 @@ import { connect } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { generateSigningKeyPair, signRelease, LEGACY_RELEASE_FORMAT, RELEASE_FORMAT, type Release, type ReleaseTask, type SignedRelease } from '../../src/protocol/index.js';
-import type { DeviceClass } from '../../src/schema/device-class.js';
+import { deviceClassSchema, type DeviceClass } from '../../src/schema/device-class.js';
 
 export const keys = generateSigningKeyPair();
 
 /** Demo data: a row-inspection camera of a greenhouse robot. */
-export const demoDeviceClass: DeviceClass = {
+export const demoDeviceClass: DeviceClass = deviceClassSchema.parse({
   id: 'gh-rowcam-a',
   name: 'Greenhouse row camera A (demo data)',
   demoData: true,
@@ -29,7 +29,7 @@ export const demoDeviceClass: DeviceClass = {
     energyPjPerMac: 0.3, energyPjPerSramByte: 1, energyPjPerDramByte: 40, staticPowerMw: 300, flashReadMbPerS: 100,
   },
   platform: { powerBudgetW: 10 },
-};
+});
 
 /** Demo weights: deterministic bytes, so each test knows the sha256. */
 export function demoWeights(label: string, sizeBytes = 64 * 1024): { bytes: Buffer; sha256: string } {

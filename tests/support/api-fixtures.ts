@@ -23,7 +23,7 @@ export const deviceClass = {
   isp: { latencyMsPerFrame: 3, energyPjPerPixel: 25 },
   accelerator: {
     macUnits: 256, clockMhz: 600, precision: 'int8', sramKib: 2048, dramBandwidthGbPerS: 3.2, energyPjPerMac: 0.25,
-    energyPjPerSramByte: 1.5, energyPjPerDramByte: 200, staticPowerMw: 120, flashReadMbPerS: 40,
+    energyPjPerSramByte: 1.5, energyPjPerDramByte: 200, staticPowerMw: 120, flashReadMbPerS: 40, powerGated: true,
   },
   platform: { powerBudgetW: 1.5 },
 };
@@ -96,7 +96,7 @@ export const task = {
   pixelsPerFeatureMin: 4,
   maxRelativeSpeedMPerS: 0.3,
   luminanceMinCdM2: 60,
-  luminanceMaxCdM2: 4000,
+  luminanceMaxCdM2: 3500,
   frameRateHz: 10,
   minAccuracy: 0.85,
   latencyBudgetMs: 100,
@@ -112,7 +112,7 @@ export const goodProfile = {
   taskId: task.id,
   deviceClassId: deviceClass.id,
   modelId: model.id,
-  camera: { focusDistanceM: 0.48, fNumber: 4, exposureUs: 2400, analogGain: 1 },
+  camera: { focusDistanceM: 0.48, fNumber: 4, exposureUs: 2500, analogGain: 1 },
   memory: { weightBufferKib: 256, activationBufferKib: 1024 },
 };
 

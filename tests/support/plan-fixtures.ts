@@ -50,7 +50,7 @@ export const testDeviceClass: DeviceClass = deviceClassSchema.parse({
   isp: { latencyMsPerFrame: 2, energyPjPerPixel: 25 },
   accelerator: {
     macUnits: 128, clockMhz: 500, precision: 'int8', sramKib: 256, dramBandwidthGbPerS: 2,
-    energyPjPerMac: 0.25, energyPjPerSramByte: 1.5, energyPjPerDramByte: 200, staticPowerMw: 100, flashReadMbPerS: 40,
+    energyPjPerMac: 0.25, energyPjPerSramByte: 1.5, energyPjPerDramByte: 200, staticPowerMw: 100, flashReadMbPerS: 40, powerGated: true,
   },
   platform: { powerBudgetW: 1 },
 });

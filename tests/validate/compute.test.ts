@@ -81,6 +81,6 @@ describe('memory-fits-sram', () => {
   });
   it('a weight buffer too small for the weights is noted as streaming from DRAM', () => {
     const c = checkOf(validate(fixture({ profile: { memory: { weightBufferKib: 1 } } })), 'memory-fits-sram');
-    expect(c.message).toContain('stream from DRAM every frame');
+    expect(c.message).toContain('streams from DRAM every frame');
   });
 });

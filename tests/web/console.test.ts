@@ -110,7 +110,7 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     const diff = page.getByRole('table', { name: 'Differences from revision 1 to 2' });
     await diff.waitFor();
     const cells = await diff.locator('tbody tr').evaluateAll((rows) => rows.map((r) => Array.from(r.children).map((c) => (c.textContent ?? '').trim()).join('|')));
-    expect(cells).toEqual(['camera.exposureUs|changed|2400|120000']);
+    expect(cells).toEqual([`camera.exposureUs|changed|${draft.profile.camera.exposureUs}|120000`]);
     await rig.screenshot(page, 'profile-revisions');
 
     await page.goto(`${rig.server.url}/#/releases`);

@@ -82,6 +82,9 @@ export function ProfileReport({ report, task, focusM, checking }: Props) {
                 { label: 'readout', value: energy.readoutMj },
                 { label: 'ISP', value: energy.ispMj },
                 { label: 'inference', value: energy.inferenceMj },
+                // Reports saved before the whole-frame power model carry neither figure.
+                { label: 'light', value: energy.lightMj ?? 0 },
+                { label: 'idle', value: energy.idleMj ?? 0 },
               ]}
             />
           )}
