@@ -1,6 +1,6 @@
 import { existsSync } from 'node:fs';
 import { join } from 'node:path';
-import { loadCatalog, mergeCatalogs, profilesOf, resolveProfile } from '../document-files/index.js';
+import { describeCatalogIssue, loadCatalog, mergeCatalogs, profilesOf, resolveProfile } from '../document-files/index.js';
 import type { CatalogIssue } from '../document-files/index.js';
 import type { Check, CheckStatus } from '../schema/index.js';
 import { formatReport, validate } from '../validate/index.js';
@@ -59,7 +59,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       io.stdout(`${results.length} profiles: ${count('pass')} pass, ${count('warn')} pass with warnings, ${count('fail')} fail\n`);
     }
     if (issues.length > 0) {
-      io.stderr(`${issues.length} input problem${issues.length === 1 ? '' : 's'}:\n${issues.map((i) => `${i.file}: ${i.path}: ${i.message}`).join('\n')}\n`);
+      io.stderr(`${issues.length} input problem${issues.length === 1 ? '' : 's'}:\n${issues.map(describeCatalogIssue).join('\n')}\n`);
       return EXIT_BAD_INPUT;
     }
     return results.some((r) => r.status === 'fail') ? EXIT_CHECK_FAILED : EXIT_OK;

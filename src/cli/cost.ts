@@ -1,5 +1,5 @@
 import { relative, resolve } from 'node:path';
-import { readDocumentFile } from '../document-files/index.js';
+import { readDocumentFile, withoutFile } from '../document-files/index.js';
 import { acceleratorCost } from '../physics/accelerator.js';
 import { analyzeNetwork } from '../physics/network-cost.js';
 import { BYTES_PER_ELEMENT, InputError, precisionSchema } from '../schema/index.js';
@@ -24,7 +24,7 @@ async function readKind<K extends DocumentKind>(io: CliIo, file: string, kind: K
   const shown = relative(io.cwd, resolve(io.cwd, file)) || file;
   const result = await readDocumentFile(resolve(io.cwd, file), kind);
   if (!result.ok) {
-    const issues = result.issues.map(({ path, message }) => ({ path, message }));
+    const issues = result.issues.map(withoutFile);
     throw new InputError(`${shown} is not a usable ${kind} document`, issues, shown);
   }
   return { ...result.document, file: shown };

@@ -1,6 +1,6 @@
 import { readFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
-import { parseText } from '../document-files/parse-file.js';
+import { parseText, withoutFile } from '../document-files/index.js';
 import { convertLightAtPixel } from '../physics/radiometry.js';
 import { illuminantName } from '../physics/spectra.js';
 import { InputError, fractionCurveSchema, illuminantSchema, parseWith } from '../schema/index.js';
@@ -52,7 +52,7 @@ async function readQeCurve(file: string, cwd: string): Promise<FractionCurve> {
     throw new InputError(`cannot read the QE curve ${file}`, [{ path: '(root)', message: e instanceof Error ? e.message : String(e) }], file);
   }
   const parsed = parseText(file, text);
-  if (!parsed.ok) throw new InputError(`the QE curve ${file} is not readable`, [{ path: parsed.issue.path, message: parsed.issue.message }], file);
+  if (!parsed.ok) throw new InputError(`the QE curve ${file} is not readable`, [withoutFile(parsed.issue)], file);
   const r = parseWith(fractionCurveSchema, parsed.data);
   if (!r.ok) throw new InputError(`the QE curve ${file} is not valid`, r.issues, file);
   return r.value;

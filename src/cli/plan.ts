@@ -1,7 +1,7 @@
 import { existsSync } from 'node:fs';
 import { writeFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
-import { findDocument, loadCatalog } from '../document-files/index.js';
+import { describeCatalogIssue, findDocument, loadCatalog } from '../document-files/index.js';
 import type { Catalog } from '../document-files/index.js';
 import { idSchema } from '../schema/index.js';
 import { candidateToProfile, plan } from '../plan/index.js';
@@ -123,7 +123,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const catalogDir = values.catalog ?? 'profiles';
     const catalog = await loadCatalog([catalogDir], { cwd: io.cwd });
     if (catalog.issues.length > 0) {
-      io.stderr(`${catalog.issues.length} input problem${catalog.issues.length === 1 ? '' : 's'} in ${catalogDir}:\n${catalog.issues.map((i) => `${i.file}: ${i.path}: ${i.message}`).join('\n')}\n`);
+      io.stderr(`${catalog.issues.length} input problem${catalog.issues.length === 1 ? '' : 's'} in ${catalogDir}:\n${catalog.issues.map(describeCatalogIssue).join('\n')}\n`);
       return EXIT_BAD_INPUT;
     }
     const task = findDocument(catalog, 'task', values.task);

@@ -1,5 +1,5 @@
 import { join, resolve } from 'node:path';
-import { loadCatalog } from '../document-files/index.js';
+import { describeCatalogIssue, loadCatalog } from '../document-files/index.js';
 import { ApiError } from '../api-client/api-client.js';
 import { inDependencyOrder, pushDocument, uploadWeightsFile, type PushOutcome } from '../api-client/push-documents.js';
 import { guard, parseFlags, printJson, UsageError } from './args.js';
@@ -49,7 +49,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     }
     if (values.json) printJson(io, { documents: outcomes, weights: notes, issues: catalog.issues });
     else for (const n of notes) io.stdout(`model ${n}\n`);
-    for (const i of catalog.issues) io.stderr(`${i.file}: ${i.path}: ${i.message}\n`);
+    for (const i of catalog.issues) io.stderr(`${describeCatalogIssue(i)}\n`);
     const refused = outcomes.filter((o) => o.result === 'refused').length;
     if (!values.json) io.stdout(`${outcomes.length} documents: ${outcomes.length - refused} accepted, ${refused} refused; ${catalog.issues.length} file problems\n`);
     return refused > 0 || catalog.issues.length > 0 ? EXIT_BAD_INPUT : EXIT_OK;

@@ -1,7 +1,7 @@
 import { createHash } from 'node:crypto';
 import { readFile, rename, writeFile } from 'node:fs/promises';
 import { relative, resolve } from 'node:path';
-import { parseText } from '../document-files/index.js';
+import { parseText, withoutFile } from '../document-files/index.js';
 import { onnxInputShape } from '../network-files/index.js';
 import { InputError, modelSchema, zodIssues } from '../schema/index.js';
 import { listImages, loadImages, type InputSize } from '../tolerance/images.js';
@@ -78,7 +78,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
 
     const modelFile = at(values.model!);
     const parsedText = parseText(modelFile.path, (await readOrFail(modelFile.path, modelFile.shown, 'model document')).toString('utf8'));
-    if (!parsedText.ok) throw new InputError(`${modelFile.shown} is not a readable document`, [{ path: parsedText.issue.path, message: parsedText.issue.message }], modelFile.shown);
+    if (!parsedText.ok) throw new InputError(`${modelFile.shown} is not a readable document`, [withoutFile(parsedText.issue)], modelFile.shown);
     const parsedModel = modelSchema.safeParse(parsedText.data);
     if (!parsedModel.success) throw new InputError(`${modelFile.shown} is not a usable model document`, zodIssues(parsedModel.error), modelFile.shown);
     const model = parsedModel.data;

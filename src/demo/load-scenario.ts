@@ -1,5 +1,5 @@
 import { join } from 'node:path';
-import { loadCatalog } from '../document-files/index.js';
+import { describeCatalogIssue, loadCatalog } from '../document-files/index.js';
 import type { ApiClient } from '../api-client/api-client.js';
 import { inDependencyOrder, pushDocument, uploadWeightsFile } from '../api-client/push-documents.js';
 import { canonicalJson } from '../protocol/canonical-json.js';
@@ -21,7 +21,7 @@ export interface LoadedScenario {
 export async function loadScenario(api: ApiClient, catalogDir: string): Promise<LoadedScenario> {
   const catalog = await loadCatalog([catalogDir]);
   if (catalog.issues.length > 0) {
-    throw new Error(`the demo scenario under ${catalogDir} has problems: ${catalog.issues.map((i) => `${i.file}: ${i.path}: ${i.message}`).join('; ')}`);
+    throw new Error(`the demo scenario under ${catalogDir} has problems: ${catalog.issues.map(describeCatalogIssue).join('; ')}`);
   }
   const out: LoadedScenario = { documents: { created: 0, updated: 0, unchanged: 0 }, weightsUploaded: 0, failingProfiles: [] };
   for (const doc of inDependencyOrder(catalog.documents)) {

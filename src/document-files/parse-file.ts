@@ -2,6 +2,7 @@ import { readFile } from 'node:fs/promises';
 import { basename, extname } from 'node:path';
 import { parse as parseYaml } from 'yaml';
 import { documentKinds, idSchema, isDocumentKind, parseWith, documentSchemas } from '../schema/index.js';
+import { firstJsonError, positionOfOffset, type TextPosition } from './text-position.js';
 import type { CatalogDocument, CatalogIssue } from './types.js';
 
 /** File endings the catalog reads; anything else in a folder is left alone. */
@@ -19,9 +20,24 @@ export function parseText(file: string, text: string): { ok: true; data: unknown
   try {
     return { ok: true, data: yaml ? parseYaml(text) : JSON.parse(text) };
   } catch (e) {
-    const reason = e instanceof Error ? e.message.split('\n')[0] : String(e);
-    return { ok: false, issue: { file, path: '(root)', message: `not valid ${yaml ? 'YAML' : 'JSON'}: ${reason}` } };
+    const at = yaml ? yamlErrorPosition(e) : jsonErrorPosition(text, e);
+    // The yaml package appends " at line L, column C:" and a code excerpt; the place is carried in line/column.
+    const reason = (e instanceof Error ? e.message.split('\n')[0] : String(e)).replace(/ at line \d+, column \d+:?$/, '');
+    const issue: CatalogIssue = { file, path: '(root)', message: `not valid ${yaml ? 'YAML' : 'JSON'}: ${reason}` };
+    return { ok: false, issue: at ? { ...issue, ...at } : issue };
   }
+}
+
+function yamlErrorPosition(e: unknown): TextPosition | undefined {
+  const linePos = (e as { linePos?: Array<{ line: number; col: number }> }).linePos;
+  return linePos?.[0] ? { line: linePos[0].line, column: linePos[0].col } : undefined;
+}
+
+function jsonErrorPosition(text: string, e: unknown): TextPosition {
+  const stated = /at position (\d+)/.exec(e instanceof Error ? e.message : '');
+  if (stated) return positionOfOffset(text, Number(stated[1]));
+  // "Unexpected end of JSON input" and "Unexpected token" name no place; a strict scanner finds it.
+  return positionOfOffset(text, firstJsonError(text)?.offset ?? text.length);
 }
 
 /**

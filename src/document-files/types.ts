@@ -5,6 +5,9 @@ export interface CatalogIssue {
   file: string;
   path: string;
   message: string;
+  /** 1-based line and column of the problem in the file's text, when the text itself could not be read as JSON/YAML. */
+  line?: number;
+  column?: number;
 }
 
 interface Located<K extends DocumentKind, T> {

@@ -4,6 +4,9 @@ import type { z } from 'zod';
 export interface InputIssue {
   path: string;
   message: string;
+  /** 1-based line and column in the source text, set when the text itself could not be parsed. */
+  line?: number;
+  column?: number;
 }
 
 export type ParseResult<T> = { ok: true; value: T } | { ok: false; issues: InputIssue[] };
@@ -34,7 +37,13 @@ export class InputError extends Error {
   }
 }
 
-/** Human-readable lines: "file: path: message". */
+/** Human-readable lines: "file: path: message", or "file:line:column: message" for a text that would not parse. */
 export function describeIssues(issues: InputIssue[], source?: string): string {
-  return issues.map((i) => `${source ? `${source}: ` : ''}${i.path}: ${i.message}`).join('\n');
+  return issues
+    .map((i) =>
+      i.line !== undefined
+        ? `${source ?? '(input)'}:${i.line}:${i.column ?? 1}: ${i.message}`
+        : `${source ? `${source}: ` : ''}${i.path}: ${i.message}`,
+    )
+    .join('\n');
 }

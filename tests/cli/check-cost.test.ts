@@ -74,8 +74,9 @@ describe('ocellus check', () => {
     write('broken/bad.json', '{ "kind": "profile", ');
     const r = await ocellusIn(tmp, 'check', 'broken', '--json');
     expect(r.code).toBe(2);
-    expect(r.json().issues).toEqual([{ file: 'broken/bad.json', path: '(root)', message: expect.stringMatching(/^not valid JSON/) }]);
-    expect(r.err).toContain('broken/bad.json: (root): not valid JSON');
+    // The text ends after 21 characters on line 1, so the problem is at line 1, column 22.
+    expect(r.json().issues).toEqual([{ file: 'broken/bad.json', path: '(root)', line: 1, column: 22, message: expect.stringMatching(/^not valid JSON/) }]);
+    expect(r.err).toContain('broken/bad.json:1:22: not valid JSON');
   });
 
   it('no paths, or paths without profiles, exit 2', async () => {
@@ -130,7 +131,7 @@ describe('ocellus cost', () => {
     write('nets/bad.json', '{"layers": [');
     const r = await ocellusIn(tmp, 'cost', 'nets/bad.json');
     expect(r.code).toBe(2);
-    expect(r.err).toContain('nets/bad.json: (root): not valid JSON');
+    expect(r.err).toContain('nets/bad.json:1:13: not valid JSON');
   });
 
   it('a schema error exits 2 naming the field path', async () => {
