@@ -1,5 +1,6 @@
 import type { Context } from 'hono';
 import type { z } from 'zod';
+import { jsonErrorPosition } from '../document-files/index.js';
 import { zodIssues } from '../schema/issues.js';
 import { HttpError } from './errors.js';
 
@@ -43,7 +44,8 @@ export async function readJson<S extends z.ZodType>(c: Context, schema: S, maxBy
   try {
     json = JSON.parse(text);
   } catch (e) {
-    throw new HttpError(400, 'request body is not valid JSON', { issues: [{ path: 'body', message: (e as Error).message }] });
+    const at = jsonErrorPosition(text, e);
+    throw new HttpError(400, 'request body is not valid JSON', { issues: [{ path: 'body', ...at, message: (e as Error).message }] });
   }
   return parseInput(schema, json, 'request body');
 }

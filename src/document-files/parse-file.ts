@@ -2,7 +2,7 @@ import { readFile } from 'node:fs/promises';
 import { basename, extname } from 'node:path';
 import { parse as parseYaml } from 'yaml';
 import { documentKinds, idSchema, isDocumentKind, parseWith, documentSchemas } from '../schema/index.js';
-import { firstJsonError, positionOfOffset, type TextPosition } from './text-position.js';
+import { jsonErrorPosition, type TextPosition } from './text-position.js';
 import type { CatalogDocument, CatalogIssue } from './types.js';
 
 /** File endings the catalog reads; anything else in a folder is left alone. */
@@ -31,13 +31,6 @@ export function parseText(file: string, text: string): { ok: true; data: unknown
 function yamlErrorPosition(e: unknown): TextPosition | undefined {
   const linePos = (e as { linePos?: Array<{ line: number; col: number }> }).linePos;
   return linePos?.[0] ? { line: linePos[0].line, column: linePos[0].col } : undefined;
-}
-
-function jsonErrorPosition(text: string, e: unknown): TextPosition {
-  const stated = /at position (\d+)/.exec(e instanceof Error ? e.message : '');
-  if (stated) return positionOfOffset(text, Number(stated[1]));
-  // "Unexpected end of JSON input" and "Unexpected token" name no place; a strict scanner finds it.
-  return positionOfOffset(text, firstJsonError(text)?.offset ?? text.length);
 }
 
 /**

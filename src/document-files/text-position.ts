@@ -31,3 +31,11 @@ export function firstJsonError(text: string): { offset: number; reason: string }
   const first = errors[0];
   return first ? { offset: first.offset, reason: printParseErrorCode(first.error) } : undefined;
 }
+
+/** Where JSON.parse failed on `text`, from the error it threw. */
+export function jsonErrorPosition(text: string, e: unknown): TextPosition {
+  const stated = /at position (\d+)/.exec(e instanceof Error ? e.message : '');
+  if (stated) return positionOfOffset(text, Number(stated[1]));
+  // "Unexpected end of JSON input" and "Unexpected token" name no place; a strict scanner finds it.
+  return positionOfOffset(text, firstJsonError(text)?.offset ?? text.length);
+}

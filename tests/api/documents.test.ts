@@ -74,6 +74,13 @@ describe('versioned documents', () => {
   it('answers JSON that is not valid with 400 naming the body', async () => {
     const res = await h.call('POST', '/api/v1/tasks', { body: '{"id": ' });
     expect(res.status).toBe(400);
-    expect(((await res.json()) as { issues: Array<{ path: string }> }).issues[0]!.path).toBe('body');
+    // The 7-character body ends on line 1, so the problem is at its end: line 1, column 8.
+    expect(((await res.json()) as { issues: Array<{ path: string }> }).issues[0]).toMatchObject({ path: 'body', line: 1, column: 8 });
+  });
+
+  it('names the line and column of a stray token in a multi-line body', async () => {
+    const res = await h.call('POST', '/api/v1/tasks', { body: '{\n  "id": "weeding",\n  "name": ,\n}' });
+    expect(res.status).toBe(400);
+    expect(((await res.json()) as { issues: Array<{ path: string }> }).issues[0]).toMatchObject({ path: 'body', line: 3, column: 11 });
   });
 });
