@@ -53,7 +53,7 @@ export async function readJson<S extends z.ZodType>(c: Context, schema: S, maxBy
 /** Checks a value with a schema; a 400 naming each bad field when it does not fit. */
 export function parseInput<S extends z.ZodType>(schema: S, value: unknown, what: string): z.infer<S> {
   const r = schema.safeParse(value);
-  if (!r.success) throw new HttpError(400, `invalid ${what}`, { issues: zodIssues(r.error) });
+  if (!r.success) throw new HttpError(400, `invalid ${what}`, { issues: zodIssues(r.error, value) });
   return r.data;
 }
 

@@ -80,7 +80,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const parsedText = parseText(modelFile.path, (await readOrFail(modelFile.path, modelFile.shown, 'model document')).toString('utf8'));
     if (!parsedText.ok) throw new InputError(`${modelFile.shown} is not a readable document`, [withoutFile(parsedText.issue)], modelFile.shown);
     const parsedModel = modelSchema.safeParse(parsedText.data);
-    if (!parsedModel.success) throw new InputError(`${modelFile.shown} is not a usable model document`, zodIssues(parsedModel.error), modelFile.shown);
+    if (!parsedModel.success) throw new InputError(`${modelFile.shown} is not a usable model document`, zodIssues(parsedModel.error, parsedText.data), modelFile.shown);
     const model = parsedModel.data;
 
     const weights = at(values.weights!);

@@ -138,7 +138,7 @@ describe('ocellus cost', () => {
     write('nets/no-layers.json', JSON.stringify({ name: 'x', input: { channels: 3, height: 8, width: 8 }, layers: [{ op: 'conv', kernel: 3 }] }));
     const r = await ocellusIn(tmp, 'cost', 'nets/no-layers.json');
     expect(r.code).toBe(2);
-    expect(r.err).toContain('nets/no-layers.json: layers[0].out');
+    expect(r.err).toContain('nets/no-layers.json: missing: layers[0].out (expected a number)');
   });
 
   it('a layer that cannot be built exits 2 naming the layer', async () => {
