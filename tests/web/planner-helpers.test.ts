@@ -2,6 +2,7 @@
 import { describe, expect, it } from 'vitest';
 import { modelStyles } from '../../src/web/client/charts/front-plot.js';
 import { OKABE_ITO } from '../../src/web/client/charts/scale.js';
+import { focusDistanceM, focusText } from '../../src/web/client/format.js';
 import { plannedProfile } from '../../src/web/client/planned-draft.js';
 import { href, parsePlace } from '../../src/web/client/router.js';
 import type { Candidate, Profile } from '../../src/api-client/response-types.js';
@@ -71,3 +72,29 @@ describe('marks of the front chart', () => {
     for (const s of all) expect(Object.values(OKABE_ITO)).toContain(s.colour);
   });
 });
+
+// Three significant figures: rounding to significant figures as in NIST SP 811 (2008), section 7.9 — common
+// practice for how precisely a quantity is stated; a lens is not set to focus finer than about a millimetre (from memory).
+describe('the focus distance a person sees', () => {
+  it('rounds to three significant figures in metres, the value staying a number of metres', () => {
+    expect(focusDistanceM(5 / 3)).toBe(1.67);
+    expect(focusDistanceM(0.48)).toBe(0.48);
+    expect(focusDistanceM(0.123456)).toBe(0.123);
+    expect(focusDistanceM(12.345)).toBe(12.3);
+    expect(focusDistanceM(0)).toBe(0);
+    expect(focusText(5 / 3)).toBe('1.67 m');
+    expect(focusText(0.3)).toBe('0.3 m');
+    expect(focusText(null)).toBe('—');
+  });
+
+  it('hands a planner candidate to the editor with its focus rounded, and says so in the notes', () => {
+    const odd: Candidate = { ...candidate, camera: { ...candidate.camera, focusDistanceM: 5 / 3 } };
+    const p = plannedProfile(base, odd);
+    expect(p.camera.focusDistanceM).toBe(1.67);
+    expect(p.camera.fNumber).toBe(odd.camera.fNumber);
+    expect(odd.camera.focusDistanceM).toBe(5 / 3);
+    expect(p.notes).toContain("Focus 1.67 m (the planner's 1.6667 m, rounded).");
+    expect(plannedProfile(base, candidate).notes).not.toContain('rounded');
+  });
+});
+

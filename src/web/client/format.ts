@@ -11,6 +11,21 @@ export function num(value: number | null | undefined, digits = 3): string {
   return value.toFixed(Math.min(decimals, 6)).replace(/(\.\d*?)0+$/, '$1').replace(/\.$/, '');
 }
 
+/**
+ * A focus distance as a person sets it: three significant figures (1.6666… m → 1.67 m, 0.48 m stays 0.48 m),
+ * still a number of metres. Finer figures than that are below what a lens's focus can be set to repeatably
+ * (common practice), and a long tail of digits reads as false precision.
+ */
+export function focusDistanceM(valueM: number): number {
+  if (!Number.isFinite(valueM) || valueM === 0) return valueM;
+  return Number(valueM.toPrecision(3));
+}
+
+/** "1.67 m": the focus distance with its unit, at the precision of focusDistanceM. */
+export function focusText(valueM: number | null | undefined): string {
+  return valueM === null || valueM === undefined || Number.isNaN(valueM) ? '—' : `${num(focusDistanceM(valueM))} m`;
+}
+
 export function withUnit(value: number | null | undefined, unit: string): string {
   const n = num(value);
   return n === '—' || !unit ? n : `${n} ${unit}`;

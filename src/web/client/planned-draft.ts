@@ -4,6 +4,7 @@
  * until the person saves.
  */
 import type { Candidate, Profile } from '../../api-client/response-types.js';
+import { focusDistanceM } from './format.js';
 
 const PREFIX = 'ocellus.console.planned.';
 
@@ -39,15 +40,19 @@ const sig = (v: number) => Number(v.toPrecision(3)).toString();
  * came from, since the base revision's notes explained other settings.
  */
 export function plannedProfile(base: Profile, candidate: Candidate): Profile {
+  const focusM = focusDistanceM(candidate.camera.focusDistanceM);
+  const rounded = focusM !== candidate.camera.focusDistanceM;
   const accuracy = candidate.predictedAccuracy === null ? 'not predicted' : candidate.predictedAccuracy.toFixed(3);
   const notes =
     `${base.demoData ? 'Demo data. ' : ''}Settings from the planner: ${sig(candidate.energyMjPerFrame)} mJ per frame, ` +
     `${sig(candidate.latencyMs)} ms latency, predicted accuracy ${accuracy}, worst blur ${sig(candidate.worstBlurPx)} px. ` +
+    (rounded ? `Focus ${focusM} m (the planner's ${Number(candidate.camera.focusDistanceM.toPrecision(5))} m, rounded). ` : '') +
     'Estimates: try on one unit in a safe state before a staged rollout.';
   return {
     ...base,
     modelId: candidate.modelId,
-    camera: { ...candidate.camera },
+    // The editor's field shows what will be saved, so the focus is handed over at the precision a person sets it.
+    camera: { ...candidate.camera, focusDistanceM: focusDistanceM(candidate.camera.focusDistanceM) },
     memory: { ...candidate.memory },
     notes,
   };

@@ -1,6 +1,6 @@
 import { useState } from 'preact/hooks';
 import { FrontPlot } from '../charts/front-plot.js';
-import { num, unitText } from '../format.js';
+import { focusDistanceM, focusText, num, unitText } from '../format.js';
 import { offerPlannedDraft } from '../planned-draft.js';
 import { href } from '../router.js';
 import type { Candidate, NearMiss, PlanAnswer, RevisionSummary, Task } from '../../../api-client/response-types.js';
@@ -31,7 +31,7 @@ function SearchSummary({ answer }: { answer: PlanAnswer }) {
         <strong>{answer.front.length}</strong> on the front.
       </p>
       <p class="muted small">
-        Focus {s.focusDistancesM.map((f) => `${num(f)} m`).join(', ')} · f-numbers {s.fNumbers.map((f) => `f/${f}`).join(' ')} · exposure{' '}
+        Focus {s.focusDistancesM.map(focusText).join(', ')} · f-numbers {s.fNumbers.map((f) => `f/${f}`).join(' ')} · exposure{' '}
         {range(s.exposuresUs, 'µs')} · gain {range(s.analogGains, '×')} · {s.memoryPartitions.length} memory splits
       </p>
       <p class="muted small" data-calibration={c ? 'applied' : 'none'}>
@@ -77,7 +77,7 @@ function ConstraintList({ answer, title }: { answer: PlanAnswer; title: string }
 }
 
 const settingsText = (c: Candidate) =>
-  `${c.modelId}, focus ${num(c.camera.focusDistanceM)} m, f/${c.camera.fNumber}, ${num(c.camera.exposureUs)} µs, gain ${num(c.camera.analogGain)}×, ` +
+  `${c.modelId}, focus ${focusText(c.camera.focusDistanceM)}, f/${c.camera.fNumber}, ${num(c.camera.exposureUs)} µs, gain ${num(c.camera.analogGain)}×, ` +
   `${c.memory.weightBufferKib} + ${c.memory.activationBufferKib} KiB`;
 
 function NearMisses({ misses }: { misses: NearMiss[] }) {
@@ -208,7 +208,7 @@ export function PlannerResults({ answer, task, targets, canEdit }: Props) {
                   <td class="numeric">{num(c.predictedAccuracy)}</td>
                   <td class="numeric">{num(c.latencyMs)}</td>
                   <td class="numeric">{num(c.worstBlurPx)}</td>
-                  <td class="numeric">{num(c.camera.focusDistanceM)}</td>
+                  <td class="numeric">{num(focusDistanceM(c.camera.focusDistanceM))}</td>
                   <td class="numeric">f/{c.camera.fNumber}</td>
                   <td class="numeric">{num(c.camera.exposureUs)}</td>
                   <td class="numeric">{num(c.camera.analogGain)}×</td>
