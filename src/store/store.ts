@@ -106,7 +106,9 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     rolloutFacts: createRolloutFactsRepository(db),
     drift: createDriftRepository(db),
     transaction: function transaction<T>(fn: () => T): T {
-      return db.transaction(fn)();
+      // IMMEDIATE takes the write lock at BEGIN, where busy_timeout lets it wait for the event writer's connection;
+      // a deferred transaction that reads and then writes cannot wait (SQLite returns SQLITE_BUSY at once).
+      return db.transaction(fn).immediate();
     },
     verifyDeviceCredentials: function verifyDeviceCredentials(deviceId, password) {
       return devices.verifyCredentials(deviceId, password);
