@@ -22,7 +22,7 @@ export function parseText(file: string, text: string): { ok: true; data: unknown
   } catch (e) {
     const at = yaml ? yamlErrorPosition(e) : jsonErrorPosition(text, e);
     // The yaml package appends " at line L, column C:" and a code excerpt; the place is carried in line/column.
-    const reason = (e instanceof Error ? e.message.split('\n')[0] : String(e)).replace(/ at line \d+, column \d+:?$/, '');
+    const reason = (e instanceof Error ? (e.message.split('\n')[0] ?? '') : String(e)).replace(/ at line \d+, column \d+:?$/, '');
     const issue: CatalogIssue = { file, path: '(root)', message: `not valid ${yaml ? 'YAML' : 'JSON'}: ${reason}` };
     return { ok: false, issue: at ? { ...issue, ...at } : issue };
   }

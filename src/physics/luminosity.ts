@@ -20,7 +20,7 @@ export const LUMINOUS_EFFICACY_LM_PER_W = 683;
 /** Photopic luminous efficiency V(λ) at a wavelength, 0 outside 380–780 nm. */
 export function photopicEfficiency(wavelengthNm: number): number {
   const last = V_TABLE_NM.length - 1;
-  if (!(wavelengthNm >= V_TABLE_NM[0]) || !(wavelengthNm <= V_TABLE_NM[last])) return 0;
+  if (!(wavelengthNm >= V_TABLE_NM[0]!) || !(wavelengthNm <= V_TABLE_NM[last]!)) return 0;
   let i = 0;
   while (V_TABLE_NM[i + 1]! < wavelengthNm) i++;
   const x0 = V_TABLE_NM[i]!;

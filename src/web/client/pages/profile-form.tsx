@@ -30,7 +30,7 @@ function problemFor(problems: FieldProblem[], path: string): string | undefined 
   return problems.find((i) => i.path === path || (path.startsWith('memory') && i.path === 'memory'))?.message;
 }
 
-function NumberField(props: { path: NumberPath; label: string; unit: string; step: string; min?: number; max?: number; hint?: string } & Props) {
+function NumberField(props: { path: NumberPath; label: string; unit: string; step: string; min?: number | undefined; max?: number | undefined; hint?: string | undefined } & Props) {
   const { path, draft, problems, readOnly, onChange } = props;
   const id = `field-${path}`;
   const problem = problemFor(problems, path);
