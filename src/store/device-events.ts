@@ -70,7 +70,7 @@ export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepos
     ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
   const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
   const listRows = db.prepare(`SELECT * FROM device_events WHERE device_id = @deviceId AND seq > @afterSeq
-    AND (@type IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
+    AND (CAST(@type AS TEXT) IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
   const countAll = db.prepare('SELECT COUNT(*) AS n FROM device_events');
   const countOne = db.prepare('SELECT COUNT(*) AS n FROM device_events WHERE device_id = ?');
   const typesAll = db.prepare('SELECT type, COUNT(*) AS n FROM device_events GROUP BY type');

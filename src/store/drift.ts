@@ -47,7 +47,7 @@ export function createDriftRepository(db: SqlConnection): DriftRepository {
   const insertRow = db.prepare(`INSERT INTO drift_events (device_id, device_class_id, quantity, onset_at, cleared_at, device_factor,
       class_factor, deviation, tolerance) VALUES (?, ?, ?, ?, NULL, ?, ?, ?, ?) RETURNING *`);
   const clearRow = db.prepare('UPDATE drift_events SET cleared_at = ? WHERE id = ? AND cleared_at IS NULL');
-  const listRows = db.prepare(`SELECT * FROM drift_events WHERE (@deviceId IS NULL OR device_id = @deviceId)
+  const listRows = db.prepare(`SELECT * FROM drift_events WHERE (CAST(@deviceId AS TEXT) IS NULL OR device_id = @deviceId)
       AND (@openOnly = 0 OR cleared_at IS NULL) ORDER BY id DESC LIMIT @limit`);
 
   return {
