@@ -373,6 +373,23 @@ export const migrations: Migration[] = [
     sqlite: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
     postgres: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id text;`,
   },
+  {
+    version: 6,
+    name: 'device event-log epochs',
+    // An agent whose data folder was wiped numbers its events from 1 again under a new epoch (a random id
+    // made with its log). Each epoch of a device gets its own run of stored seqs starting after base_seq,
+    // so its events are kept while a replay of an older epoch is still recognised. '' is the epoch of
+    // agents that send none.
+    sql: `
+      CREATE TABLE device_event_epochs (
+        device_id TEXT NOT NULL,
+        epoch TEXT NOT NULL,
+        base_seq INTEGER NOT NULL CHECK (base_seq >= 0),
+        started_at TEXT NOT NULL,
+        PRIMARY KEY (device_id, epoch)
+      );
+    `,
+  },
 ];
 
 // Any constant: the key of the advisory lock that lets one process at a time migrate a PostgreSQL database.
