@@ -10,7 +10,9 @@ import type { SqlConnection } from './sql-connection.js';
 export interface Migration {
   version: number;
   name: string;
-  sqlite: string;
+  /** The SQLite spelling. */
+  sql: string;
+  /** The PostgreSQL spelling of the same change. */
   postgres: string;
 }
 
@@ -24,7 +26,7 @@ export const migrations: Migration[] = [
   {
     version: 1,
     name: 'server store: documents, profiles, releases, devices, tokens, audit',
-    sqlite: `
+    sql: `
       CREATE TABLE documents (
         kind TEXT NOT NULL CHECK (kind IN ('device-class', 'network', 'task', 'model')),
         id TEXT NOT NULL,
@@ -174,7 +176,7 @@ export const migrations: Migration[] = [
   {
     version: 2,
     name: 'bus bridge: device state, device events, event cursor',
-    sqlite: `
+    sql: `
       CREATE TABLE device_state (
         device_id TEXT PRIMARY KEY,
         online INTEGER NOT NULL DEFAULT 0 CHECK (online IN (0, 1)),
@@ -234,7 +236,7 @@ export const migrations: Migration[] = [
   {
     version: 3,
     name: 'fleet: rollouts, rollout devices, drift onsets',
-    sqlite: `
+    sql: `
       CREATE TABLE rollouts (
         id TEXT PRIMARY KEY,
         release_id TEXT NOT NULL REFERENCES releases(id),
@@ -340,7 +342,7 @@ export const migrations: Migration[] = [
   {
     version: 4,
     name: 'bus bridge: device connection changes seen by the server',
-    sqlite: `
+    sql: `
       CREATE TABLE device_connections (
         id INTEGER PRIMARY KEY AUTOINCREMENT,
         device_id TEXT NOT NULL,
@@ -370,7 +372,7 @@ export const migrations: Migration[] = [
     name: 'rollback through re-issued releases',
     // A rollback no longer re-sends the old release (devices refuse a lower sequence): each moved device gets
     // a re-issue of its previous release, a new release with a higher sequence, recorded here.
-    sqlite: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
+    sql: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
     postgres: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id text;`,
   },
   {
@@ -386,6 +388,15 @@ export const migrations: Migration[] = [
         epoch TEXT NOT NULL,
         base_seq INTEGER NOT NULL CHECK (base_seq >= 0),
         started_at TEXT NOT NULL,
+        PRIMARY KEY (device_id, epoch)
+      );
+    `,
+    postgres: `
+      CREATE TABLE device_event_epochs (
+        device_id text NOT NULL,
+        epoch text NOT NULL,
+        base_seq bigint NOT NULL CHECK (base_seq >= 0),
+        started_at text NOT NULL,
         PRIMARY KEY (device_id, epoch)
       );
     `,
@@ -428,7 +439,7 @@ export function applyMigrations(db: SqlConnection, list: readonly Migration[] = 
     db.transaction(() => {
       lock?.get();
       if (appliedNow().has(m.version)) return;
-      db.exec(postgres ? m.postgres : m.sqlite);
+      db.exec(postgres ? m.postgres : m.sql);
       record.run(m.version, m.name, new Date().toISOString());
       done.push(m.version);
     });
