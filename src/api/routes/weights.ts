@@ -19,7 +19,7 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     const id = c.req.param('id') ?? '';
     const model = store.documents.latest<Model>('model', id);
     if (!model) throw notFound(`model '${id}'`);
-    const { sha256, sizeBytes } = model.document;
+    const { sizeBytes } = model.document;
     const max = deps.limits.maxWeightsBytes;
     const declared = Number(c.req.header('content-length'));
     if (Number.isFinite(declared) && declared > sizeBytes && declared <= max) {

@@ -1,0 +1,37 @@
+/**
+ * Stores on real SQLite files in temporary folders, closed and removed after each test. Registers its own
+ * afterEach, so a test file calls it once at the top.
+ */
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterEach } from 'vitest';
+import { openStore, type Store } from '../../src/store/index.js';
+
+export interface StoreFolders {
+  /** A new empty folder (`ocellus-<prefix>-…` under the system's temporary folder). */
+  tempDir(): string;
+  /** Opens the store in `dir`; a test may close it itself, and open the folder again. */
+  open(dir: string): Store;
+}
+
+export function storeFolders(prefix: string): StoreFolders {
+  const dirs: string[] = [];
+  const stores: Store[] = [];
+  afterEach(() => {
+    for (const s of stores.splice(0)) s.close();
+    for (const d of dirs.splice(0)) rmSync(d, { recursive: true, force: true });
+  });
+  return {
+    tempDir() {
+      const d = mkdtempSync(join(tmpdir(), `ocellus-${prefix}-`));
+      dirs.push(d);
+      return d;
+    },
+    open(dir) {
+      const s = openStore(dir);
+      stores.push(s);
+      return s;
+    },
+  };
+}
