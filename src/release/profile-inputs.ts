@@ -9,6 +9,7 @@ import type { RevisionRefs } from '../store/profiles.js';
 import type { Store } from '../store/store.js';
 import { refuse, type Outcome } from '../schema/refusal.js';
 import { validate } from '../validate/index.js';
+import type { ShippedNetworks } from './shipped-networks.js';
 
 /** Why a profile cannot be checked: documents it refers to are not stored, or settings the hardware cannot take. */
 export type ProfileRefusalCode = 'references-not-stored' | 'physically-impossible';
@@ -20,10 +21,12 @@ export interface CheckedProfile {
 
 /**
  * Looks up the latest task, device class, model and its network a profile refers to, refuses settings
- * the hardware cannot take, and validates the rest. Missing references and impossible settings are refusals
- * naming the field; a profile that fails checks is not refused: its report says so.
+ * the hardware cannot take, and validates the rest. A model that takes its network from its weights is
+ * costed from its uploaded weights (`shipped`), and a declared network that does not match them fails the
+ * report's network-weights check. Missing references and impossible settings are refusals naming the
+ * field; a profile that fails checks is not refused: its report says so.
  */
-export function checkProfile(store: Store, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
+export function checkProfile(store: Store, shipped: ShippedNetworks, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
   const task = store.documents.latest<Task>('task', profile.taskId);
   const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
   const model = store.documents.latest<Model>('model', profile.modelId);
@@ -48,6 +51,7 @@ export function checkProfile(store: Store, profile: Profile): Outcome<CheckedPro
     deviceClass: deviceClass.document,
     model: model.document,
     network: network.document,
+    ...shipped.forModel(model.document, network.document),
   });
   // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
   const stored = JSON.parse(JSON.stringify(report)) as Report;

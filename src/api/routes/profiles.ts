@@ -7,6 +7,7 @@ import type { ResolvedDeps } from '../context.js';
 import { badRequest, conflict, notFound } from '../errors.js';
 import { diffJson } from '../json-diff.js';
 import { checkProfile, type CheckedProfile } from '../../release/profile-inputs.js';
+import { createShippedNetworks } from '../../release/shipped-networks.js';
 import { diffQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
 import { requestBody, requestQuery, type Router } from '../routing.js';
@@ -19,10 +20,11 @@ function summary(r: ProfileRevision<Profile>) {
 /** Profiles: every save is a new immutable revision carrying its validation report. */
 export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
+  const shipped = createShippedNetworks(deps.blobs);
   const failures = deps.metrics.counter(METRIC_NAMES.validationFailures, 'Profile validations whose report failed');
 
   function checked(profile: Profile, where: 'save' | 'check'): CheckedProfile {
-    const result = unwrap(checkProfile(store, profile));
+    const result = unwrap(checkProfile(store, shipped, profile));
     if (result.report.status === 'fail') failures.inc({ where });
     return result;
   }
