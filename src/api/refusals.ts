@@ -4,11 +4,12 @@ import type { AssignRefusalCode } from '../fleet/rollout/assign.js';
 import type { RolloutRefusalCode } from '../fleet/rollout/service.js';
 import type { ReleaseRefusalCode } from '../release/build.js';
 import type { ProfileRefusalCode } from '../release/profile-inputs.js';
+import type { PreviewRefusalCode } from '../release/profile-preview.js';
 import type { ReissueRefusalCode } from '../release/reissue.js';
 import type { Outcome, Refusal } from '../schema/refusal.js';
 import { HttpError } from './errors.js';
 
-export type RefusalCode = ReleaseRefusalCode | ReissueRefusalCode | ProfileRefusalCode | AssignRefusalCode | RolloutRefusalCode | CalibratedReportRefusalCode;
+export type RefusalCode = ReleaseRefusalCode | ReissueRefusalCode | ProfileRefusalCode | PreviewRefusalCode | AssignRefusalCode | RolloutRefusalCode | CalibratedReportRefusalCode;
 
 /**
  * The one place a domain refusal becomes an HTTP status (RFC 9110 §15): input naming something that is not
@@ -31,6 +32,8 @@ const STATUS_OF: Record<RefusalCode, ContentfulStatusCode> = {
   'missing-document': 409,
   'reissue-source-not-found': 404,
   'weights-missing': 409,
+  'image-too-large': 413,
+  'image-unreadable': 400,
 };
 
 /** The HTTP error for a refusal: its status from the table, its message and issues, its detail as extra fields. */

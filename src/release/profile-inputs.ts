@@ -5,6 +5,7 @@ import type { Network } from '../schema/network.js';
 import { physicalLimitIssues, type Profile } from '../schema/profile.js';
 import type { Report } from '../schema/report.js';
 import type { Task } from '../schema/task.js';
+import type { DocumentRecord } from '../store/documents.js';
 import type { RevisionRefs } from '../store/profiles.js';
 import type { Store } from '../store/store.js';
 import { refuse, type Outcome } from '../schema/refusal.js';
@@ -27,24 +28,9 @@ export interface CheckedProfile {
  * field; a profile that fails checks is not refused: its report says so.
  */
 export function checkProfile(store: Store, shipped: ShippedNetworks, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
-  const task = store.documents.latest<Task>('task', profile.taskId);
-  const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
-  const model = store.documents.latest<Model>('model', profile.modelId);
-  const missing: InputIssue[] = [];
-  if (!task) missing.push({ path: 'taskId', message: `no task '${profile.taskId}' is stored` });
-  if (!deviceClass) missing.push({ path: 'deviceClassId', message: `no device class '${profile.deviceClassId}' is stored` });
-  if (!model) missing.push({ path: 'modelId', message: `no model '${profile.modelId}' is stored` });
-  const network = model ? store.documents.latest<Network>('network', model.document.networkId) : null;
-  if (model && !network) {
-    missing.push({ path: 'modelId', message: `model '${profile.modelId}' refers to network '${model.document.networkId}', which is not stored` });
-  }
-  if (missing.length > 0 || !task || !deviceClass || !model || !network) {
-    return refuse('references-not-stored', 'the profile refers to documents that are not stored', missing);
-  }
-  const impossible = physicalLimitIssues(profile, deviceClass.document);
-  if (impossible.length > 0) {
-    return refuse('physically-impossible', `settings device class '${deviceClass.id}' cannot physically take`, impossible);
-  }
+  const found = profileDocuments(store, profile);
+  if (!found.ok) return found;
+  const { task, deviceClass, model, network } = found.value;
   const report = validate({
     profile,
     task: task.document,
@@ -67,4 +53,37 @@ export function checkProfile(store: Store, shipped: ShippedNetworks, profile: Pr
       },
     },
   };
+}
+
+export interface ProfileDocuments {
+  task: DocumentRecord<Task>;
+  deviceClass: DocumentRecord<DeviceClass>;
+  model: DocumentRecord<Model>;
+  network: DocumentRecord<Network>;
+}
+
+/**
+ * The latest stored task, device class, model and network a profile refers to; missing references and
+ * settings the hardware cannot physically take are refusals naming the field.
+ */
+export function profileDocuments(store: Store, profile: Profile): Outcome<ProfileDocuments, ProfileRefusalCode> {
+  const task = store.documents.latest<Task>('task', profile.taskId);
+  const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
+  const model = store.documents.latest<Model>('model', profile.modelId);
+  const missing: InputIssue[] = [];
+  if (!task) missing.push({ path: 'taskId', message: `no task '${profile.taskId}' is stored` });
+  if (!deviceClass) missing.push({ path: 'deviceClassId', message: `no device class '${profile.deviceClassId}' is stored` });
+  if (!model) missing.push({ path: 'modelId', message: `no model '${profile.modelId}' is stored` });
+  const network = model ? store.documents.latest<Network>('network', model.document.networkId) : null;
+  if (model && !network) {
+    missing.push({ path: 'modelId', message: `model '${profile.modelId}' refers to network '${model.document.networkId}', which is not stored` });
+  }
+  if (missing.length > 0 || !task || !deviceClass || !model || !network) {
+    return refuse('references-not-stored', 'the profile refers to documents that are not stored', missing);
+  }
+  const impossible = physicalLimitIssues(profile, deviceClass.document);
+  if (impossible.length > 0) {
+    return refuse('physically-impossible', `settings device class '${deviceClass.id}' cannot physically take`, impossible);
+  }
+  return { ok: true, value: { task, deviceClass, model, network } };
 }

@@ -8,7 +8,8 @@ import { badRequest, conflict, notFound } from '../errors.js';
 import { diffJson } from '../json-diff.js';
 import { checkProfile, type CheckedProfile } from '../../release/profile-inputs.js';
 import { createShippedNetworks } from '../../release/shipped-networks.js';
-import { diffQuerySchema } from '../request-schemas.js';
+import { diffQuerySchema, renderPreviewRequestSchema } from '../request-schemas.js';
+import { renderProfilePreview } from '../../release/profile-preview.js';
 import { unwrap } from '../refusals.js';
 import { requestBody, requestQuery, type Router } from '../routing.js';
 
@@ -102,6 +103,25 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
       to: q.to,
       status: { from: from.status, to: to.status },
       changes: diffJson(from.profile, to.profile),
+    });
+  });
+
+  // The sample image is rendered as `ocellus render` renders it; the figures travel in a header beside the PNG.
+  route('render-preview', async (c) => {
+    const body = requestBody(c, renderPreviewRequestSchema);
+    const preview = unwrap(
+      await renderProfilePreview(store, {
+        profile: body.profile,
+        image: Buffer.from(body.image, 'base64'),
+        distanceM: body.distanceM,
+        ...(body.luminanceCdM2 !== undefined ? { luminanceCdM2: body.luminanceCdM2 } : {}),
+        ...(body.seed !== undefined ? { seed: body.seed } : {}),
+      }),
+    );
+    return c.body(new Uint8Array(preview.png), 200, {
+      'content-type': 'image/png',
+      'cache-control': 'no-store',
+      'x-ocellus-preview': JSON.stringify({ inputPx: preview.inputPx, ...preview.psf }),
     });
   });
 
