@@ -409,7 +409,11 @@ export function importTflite(bytes: Uint8Array, source: string, options: OnnxImp
   };
   crossCheckShapes(network, shapes, source, 'TFLite');
   const tensorDims = new Map<string, number[]>();
-  for (const [t, a] of activations) tensorDims.set(tensors[t]!.name, a.dims);
+  for (const [t, a] of activations) {
+    // A PAD taken up by the next window op still has its padded shape in the file.
+    const p = a.pendingPad;
+    tensorDims.set(tensors[t]!.name, p ? [a.dims[0]!, a.dims[1]! + p[0] + p[2], a.dims[2]! + p[1] + p[3], a.dims[3]!] : a.dims);
+  }
   return {
     network,
     tensorDims,

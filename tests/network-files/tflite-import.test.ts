@@ -103,6 +103,13 @@ describe('TFLite import against the papers (files built here with the flatbuffer
     expect(imported.tensorDims.get('fc')).toEqual([1, 1000]);
     expect(imported.inputName).toBe('input');
   });
+
+  it('a PAD read as the next convolution\'s padding keeps its padded shape in the reported tensor shapes', () => {
+    const imported = importTflite(exportTflite(mobileNetV2()), 'v2.tflite');
+    // The stem: 224×224 padded by 1 on every side, then a 3×3 stride-2 VALID convolution (Sandler et al. 2018, Table 2: 112² × 32).
+    expect(imported.tensorDims.get('conv1/pad')).toEqual([1, 226, 226, 3]);
+    expect(imported.tensorDims.get('act3')).toEqual([1, 112, 112, 32]);
+  });
 });
 
 describe('TFLite import refusals', () => {
