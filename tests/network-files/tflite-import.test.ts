@@ -96,6 +96,15 @@ describe('TFLite import against the papers (files built here with the flatbuffer
     expect(analyzeNetwork(f).macs).toBe(analyzeNetwork(original).macs);
   });
 
+  it('float16 weights behind DEQUANTIZE ops (float16 post-training quantisation) count once each, as float16', () => {
+    const original = mobileNetV1Same();
+    const imported = importTflite(exportTflite(original, { weights: 'float16' }), 'v1-fp16.tflite');
+    const back = networkSchema.parse(imported.network);
+    expect(back.layers).toEqual(original.layers);
+    const params = analyzeNetwork(back).params;
+    expect(imported.weightStorage).toEqual({ float16: params - 1000, float32: 1000 });
+  });
+
   it('tensor shapes are reported NHWC as the file holds them', () => {
     const imported = importTflite(exportTflite(mobileNetV1Same()), 'v1.tflite');
     expect(imported.tensorDims.get('conv1')).toEqual([1, 112, 112, 32]);

@@ -11,8 +11,11 @@ import type { Layer, Network } from '../../src/schema/index.js';
  * RESHAPE, swish as LOGISTIC + MUL, batch norm folded away (as converters do), weights in buffers.
  */
 export interface TfliteExportOptions {
-  /** Element type of the weights: float32 (default) or int8 (per-tensor quantised; biases int32). */
-  weights?: 'float32' | 'int8';
+  /**
+   * Element type of the weights: float32 (default), int8 (per-tensor quantised; biases int32), or float16
+   * behind a DEQUANTIZE op to float32, as the float16 post-training quantisation writes them.
+   */
+  weights?: 'float32' | 'int8' | 'float16';
   /** Put QUANTIZE after the input and DEQUANTIZE before the output, as fully quantised files do. */
   quantizeIo?: boolean;
   /** Fold relu/relu6 layers into the preceding conv, depthwise conv or fully connected op. */
@@ -21,7 +24,7 @@ export interface TfliteExportOptions {
   editOps?: (ops: OpSpec[]) => void;
 }
 
-const TYPE = { FLOAT32: 0, INT32: 2, INT8: 9 } as const;
+const TYPE = { FLOAT32: 0, FLOAT16: 1, INT32: 2, INT8: 9 } as const;
 const pair = (v: number | [number, number] | undefined, fallback: number): [number, number] => (v === undefined ? [fallback, fallback] : typeof v === 'number' ? [v, v] : v);
 
 interface TensorSpec {
@@ -47,11 +50,19 @@ export function exportTflite(network: Network, options: TfliteExportOptions = {}
   const tensors: TensorSpec[] = [];
   const ops: OpSpec[] = [];
   const byId = new Map<string, number>();
-  const weightType = options.weights === 'int8' ? TYPE.INT8 : TYPE.FLOAT32;
+  const weightType = options.weights === 'int8' ? TYPE.INT8 : options.weights === 'float16' ? TYPE.FLOAT16 : TYPE.FLOAT32;
+  /** A weight tensor; float16 ones are read through a DEQUANTIZE to float32 written just before their use. */
+  const weightTensor = (name: string, shape: number[]): number => {
+    const stored = constant(name, shape, weightType);
+    if (weightType !== TYPE.FLOAT16) return stored;
+    const f32 = tensor({ name: `${name}/dequantized`, shape, type: TYPE.FLOAT32 });
+    ops.push({ code: OP.DEQUANTIZE, inputs: [stored], outputs: [f32] });
+    return f32;
+  };
   const tensor = (t: TensorSpec): number => tensors.push(t) - 1;
   const constant = (name: string, shape: number[], type: number, values?: number[]): number => {
     const n = shape.reduce((a, b) => a * b, 1);
-    const size = type === TYPE.FLOAT32 || type === TYPE.INT32 ? 4 : 1;
+    const size = type === TYPE.FLOAT32 || type === TYPE.INT32 ? 4 : type === TYPE.FLOAT16 ? 2 : 1;
     const data = new Uint8Array(Math.max(1, n) * size);
     if (values) {
       const view = new DataView(data.buffer);
@@ -116,7 +127,7 @@ export function exportTflite(network: Network, options: TfliteExportOptions = {}
         const [inT, padding] = padded(layer, src, id);
         const dw = layer.op === 'dwconv';
         const oc = dw ? cin : layer.out;
-        const w = constant(`${id}/weights`, dw ? [1, k[0], k[1], cin] : [oc, k[0], k[1], cin / (layer.groups ?? 1)], weightType);
+        const w = weightTensor(`${id}/weights`, dw ? [1, k[0], k[1], cin] : [oc, k[0], k[1], cin / (layer.groups ?? 1)]);
         const inputs = [inT, w];
         if (layer.bias) inputs.push(constant(`${id}/bias`, [oc], options.weights === 'int8' ? TYPE.INT32 : TYPE.FLOAT32));
         else inputs.push(-1);
@@ -138,7 +149,7 @@ export function exportTflite(network: Network, options: TfliteExportOptions = {}
       }
       case 'fc': {
         const kIn = a.inShape[0] * a.inShape[1] * a.inShape[2];
-        const inputs = [src, constant(`${id}/weights`, [layer.out, kIn], weightType)];
+        const inputs = [src, weightTensor(`${id}/weights`, [layer.out, kIn])];
         inputs.push(layer.bias ?? true ? constant(`${id}/bias`, [layer.out], options.weights === 'int8' ? TYPE.INT32 : TYPE.FLOAT32) : -1);
         result = tensor({ name: outName, shape: [1, layer.out], type: activationType });
         ops.push({ code: OP.FULLY_CONNECTED, inputs, outputs: [result], optionsType: OPTIONS_TYPE.FullyConnectedOptions, options: (b) => (b.startObject(4), b.addFieldInt8(FIELDS.FullyConnectedOptions.fused_activation_function, fuse, 0), b.endObject()) });
