@@ -3,7 +3,7 @@ import { idSchema, isoTimeSchema } from '../schema/common.js';
 import { isValidDeviceId } from '../protocol/topics.js';
 import { ROLES } from '../store/tokens.js';
 import { profileSchema } from '../schema/profile.js';
-import { PREVIEW_MAX_IMAGE_BYTES, PREVIEW_MAX_IMAGE_MIB } from '../release/profile-preview.js';
+import { PREVIEW_MAX_IMAGE_BYTES, PREVIEW_MAX_IMAGE_MIB } from '../profiles/preview.js';
 
 export const tagSchema = z.string().regex(/^[A-Za-z0-9][A-Za-z0-9._:-]{0,63}$/, 'tags are 1-64 characters of letters, digits, ".", "_", ":" or "-"');
 

@@ -7,7 +7,7 @@ import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { profilePsf } from '../../src/render/psf.js';
 import { renderSeen } from '../../src/render/render-image.js';
-import { PREVIEW_MAX_IMAGE_BYTES } from '../../src/release/profile-preview.js';
+import { PREVIEW_MAX_IMAGE_BYTES } from '../../src/profiles/preview.js';
 import { deviceClassSchema, modelSchema, networkSchema, profileSchema, taskSchema } from '../../src/schema/index.js';
 import { createHarness, deviceClass, goodProfile, model, network, removeDir, seedCatalog, task, tempDataDir, type Harness } from '../support/api-fixtures.js';
 

@@ -1,6 +1,6 @@
 import { createCalibrator } from '../../fleet/calibration/calibrator.js';
 import { plan } from '../../plan/index.js';
-import { createShippedNetworks } from '../../release/shipped-networks.js';
+import { createShippedNetworks } from '../../profiles/shipped-networks.js';
 import type { ModelCandidate, PlanOptions } from '../../plan/index.js';
 import type { DeviceClass } from '../../schema/device-class.js';
 import type { InputIssue } from '../../schema/issues.js';

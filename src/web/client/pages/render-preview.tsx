@@ -4,7 +4,7 @@ import { useSession } from '../context.js';
 import type { Profile } from '../../../api-client/response-types.js';
 import { ErrorNote } from '../ui/status.js';
 
-/** The server's limit (src/release/profile-preview.ts), checked here too so a big file is not sent at all. */
+/** The server's limit (src/profiles/preview.ts), checked here too so a big file is not sent at all. */
 const MAX_IMAGE_MIB = 4;
 
 interface PreviewFigures {

@@ -10,7 +10,7 @@ import { imageSize, renderSeen } from '../render/render-image.js';
 import type { Profile } from '../schema/profile.js';
 import { refuse, type Outcome } from '../schema/refusal.js';
 import type { Store } from '../store/store.js';
-import { profileDocuments, type ProfileRefusalCode } from './profile-inputs.js';
+import { profileDocuments, type ProfileRefusalCode } from './check.js';
 
 /** Largest encoded sample image: a phone photo fits, a raw dump does not. */
 export const PREVIEW_MAX_IMAGE_MIB = 4;
