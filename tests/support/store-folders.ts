@@ -1,12 +1,14 @@
 /**
- * Stores on real SQLite files in temporary folders, closed and removed after each test. Registers its own
- * afterEach, so a test file calls it once at the top.
+ * Stores in temporary folders on the file's backend (tests/support/store-backend.ts: SQLite files, or a schema
+ * of the file's PostgreSQL database), closed and removed after each test. Registers its own afterEach, so a
+ * test file calls it once at the top.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach } from 'vitest';
-import { openStore, type Store } from '../../src/store/index.js';
+import type { Store } from '../../src/store/index.js';
+import { openTestStore } from './store-backend.js';
 
 export interface StoreFolders {
   /** A new empty folder (`ocellus-<prefix>-…` under the system's temporary folder). */
@@ -29,7 +31,7 @@ export function storeFolders(prefix: string): StoreFolders {
       return d;
     },
     open(dir) {
-      const s = openStore(dir);
+      const s = openTestStore(dir);
       stores.push(s);
       return s;
     },
