@@ -18,6 +18,8 @@ export const storeBackend: StoreBackend = process.env.OCELLUS_TEST_BACKEND === '
 export const postgresAdminUrl = process.env.OCELLUS_TEST_POSTGRES_URL ?? 'postgres://postgres@127.0.0.1:5432/postgres';
 
 let fileDatabase: { name: string; url: string } | null = null;
+/** One connection to this file's database for making schemas: a connection costs a worker thread and a login. */
+let fileAdmin: SqlConnection | null = null;
 const opened: Store[] = [];
 
 function withDatabase(url: string, database: string, schema?: string): string {
@@ -47,6 +49,8 @@ function testDatabase(): { name: string; url: string } {
 
 afterAll(() => {
   for (const s of opened.splice(0)) s.close();
+  fileAdmin?.close();
+  fileAdmin = null;
   if (!fileDatabase) return;
   const { name } = fileDatabase;
   fileDatabase = null;
@@ -60,7 +64,8 @@ afterAll(() => {
 export function postgresUrlFor(dataDir: string): string {
   const db = testDatabase();
   const schema = `store_${createHash('sha256').update(dataDir).digest('hex').slice(0, 16)}`;
-  admin((c) => c.exec(`CREATE SCHEMA IF NOT EXISTS ${schema}`), db.name);
+  fileAdmin ??= openPgSyncConnection({ url: db.url, waitLimitMs: 30_000, applicationName: 'ocellus-tests' });
+  fileAdmin.exec(`CREATE SCHEMA IF NOT EXISTS ${schema}`);
   return withDatabase(db.url, db.name, schema);
 }
 

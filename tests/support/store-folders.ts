@@ -1,7 +1,6 @@
 /**
- * Stores in temporary folders on the file's backend (tests/support/store-backend.ts: SQLite files, or a schema
- * of the file's PostgreSQL database), closed and removed after each test. Registers its own afterEach, so a
- * test file calls it once at the top.
+ * Stores on the backend under test (a real SQLite file, or a real PostgreSQL database) with temporary data folders, closed and removed after each test. Registers its own
+ * afterEach, so a test file calls it once at the top.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
