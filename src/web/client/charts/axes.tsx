@@ -22,12 +22,11 @@ interface Props {
   yTitleX?: number;
 }
 
-/** Horizontal gridlines with the y values, x ticks with their values, both axis lines and their titles. */
-export function PlotAxes({ frame: { W, H, M }, x, y, xTicks, yTicks, xTitle, yTitle, yTitleX = 14 }: Props) {
-  const midY = (M.top + H - M.bottom) / 2;
+/** Horizontal gridlines across the plot, each with its y value at the left. */
+export function YGrid({ frame: { W, M }, y, ticks }: { frame: PlotFrame; y: Scale; ticks: number[] }) {
   return (
     <>
-      {yTicks.map((t) => (
+      {ticks.map((t) => (
         <g>
           <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
           <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
@@ -35,6 +34,17 @@ export function PlotAxes({ frame: { W, H, M }, x, y, xTicks, yTicks, xTitle, yTi
           </text>
         </g>
       ))}
+    </>
+  );
+}
+
+/** Horizontal gridlines with the y values, x ticks with their values, both axis lines and their titles. */
+export function PlotAxes({ frame, x, y, xTicks, yTicks, xTitle, yTitle, yTitleX = 14 }: Props) {
+  const { W, H, M } = frame;
+  const midY = (M.top + H - M.bottom) / 2;
+  return (
+    <>
+      <YGrid frame={frame} y={y} ticks={yTicks} />
       {xTicks.map((t) => (
         <g>
           <line x1={x(t)} x2={x(t)} y1={H - M.bottom} y2={H - M.bottom + 4} class="axis" />
