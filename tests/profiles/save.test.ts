@@ -10,13 +10,16 @@ import { diffRevisions } from '../../src/profiles/diff.js';
 import { issueToken, revokeToken } from '../../src/access/api-tokens.js';
 import { enrolDevice, revokeDevice } from '../../src/fleet/enrolment/credentials.js';
 import { profileSchema } from '../../src/schema/profile.js';
-import type { Store } from '../../src/store/index.js';
+import { createBlobStore, type Store } from '../../src/store/index.js';
+import { createShippedNetworks } from '../../src/profiles/shipped-networks.js';
 import { deviceClass, goodProfile, model, network, task } from '../support/api-fixtures.js';
 import { storeFolders } from '../support/store-folders.js';
 
 const { tempDir, open } = storeFolders('domain');
 const at = '2026-05-04T06:30:00.000Z';
 const ctx = (store: Store) => ({ store, actor: 'grower-anna#7', at });
+/** Profile saves also read shipped weights; these profiles' models take their network from the document. */
+const profileCtx = (store: Store) => ({ ...ctx(store), shipped: createShippedNetworks(createBlobStore(store.dataDir)) });
 const actions = (store: Store) => store.audit.query({ limit: 100 }).map((e) => e.action).sort();
 
 function withDocuments(): Store {
@@ -32,12 +35,12 @@ describe('saving profiles and documents in the domain', () => {
   it('a profile revision and its audit entry land together; a second create and a revise of nothing are refused by code', () => {
     const store = withDocuments();
     const profile = profileSchema.parse(goodProfile);
-    const first = createProfile(profile, ctx(store));
+    const first = createProfile(profile, profileCtx(store));
     expect(first.ok && first.value.revision).toBe(1);
-    expect(createProfile(profile, ctx(store))).toMatchObject({ ok: false, code: 'profile-exists' });
-    const ghost = reviseProfile({ ...profile, id: 'no-such-profile' }, ctx(store));
+    expect(createProfile(profile, profileCtx(store))).toMatchObject({ ok: false, code: 'profile-exists' });
+    const ghost = reviseProfile({ ...profile, id: 'no-such-profile' }, profileCtx(store));
     expect(ghost).toMatchObject({ ok: false, code: 'profile-not-found', message: "profile 'no-such-profile' (use POST to create it) not found" });
-    const second = reviseProfile({ ...profile, camera: { ...profile.camera, exposureUs: profile.camera.exposureUs + 100 } }, ctx(store));
+    const second = reviseProfile({ ...profile, camera: { ...profile.camera, exposureUs: profile.camera.exposureUs + 100 } }, profileCtx(store));
     expect(second.ok && second.value.revision).toBe(2);
     expect(store.audit.query({ action: 'profile.revise', limit: 10 }).map((e) => e.detail)).toEqual([{ revision: 2, status: second.ok ? second.value.status : null }]);
     // Field-level diff of the two revisions: only the exposure changed.
@@ -48,7 +51,7 @@ describe('saving profiles and documents in the domain', () => {
 
   it('a profile naming documents that are not stored is refused naming each field, and nothing is written', () => {
     const store = open(tempDir());
-    const refused = createProfile(profileSchema.parse(goodProfile), ctx(store));
+    const refused = createProfile(profileSchema.parse(goodProfile), profileCtx(store));
     expect(refused).toMatchObject({ ok: false, code: 'references-not-stored' });
     expect(!refused.ok && refused.issues.map((i) => i.path).sort()).toEqual(['deviceClassId', 'modelId', 'taskId']);
     expect(store.profiles.list()).toEqual([]);
