@@ -201,6 +201,20 @@ export const migrations: Migration[] = [
     // a re-issue of its previous release, a new release with a higher sequence, recorded here.
     sql: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
   },
+  {
+    version: 6,
+    name: 'replicas: leader leases',
+    // One row per kind of work only one replica may do at a time (the fleet's rollout and calibration engines).
+    // fence grows by one at every change of holder, so a holder can tell its lease was taken meanwhile.
+    sql: `
+      CREATE TABLE leader_leases (
+        name TEXT PRIMARY KEY,
+        holder TEXT NOT NULL,
+        expires_at_ms INTEGER NOT NULL,
+        fence INTEGER NOT NULL CHECK (fence > 0)
+      );
+    `,
+  },
 ];
 
 /** Applies every migration newer than the database, each in its own transaction. Returns the versions applied. */

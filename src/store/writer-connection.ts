@@ -29,7 +29,9 @@ export function openEventWriterStore(location: string, busyTimeoutMs: number): E
     deviceEvents: createDeviceEventRepository(db),
     deviceStates: createDeviceStateRepository(db),
     deviceConnections: createDeviceConnectionRepository(db),
-    transaction: <T>(fn: () => T): T => db.transaction(fn)(),
+    // IMMEDIATE: the write lock is taken at BEGIN, where the busy timeout lets it wait for other connections (the
+    // main one, or another replica's on the same file) instead of failing on a read that turns into a write.
+    transaction: <T>(fn: () => T): T => db.transaction(fn).immediate(),
     close: () => {
       if (db.open) db.close();
     },
