@@ -203,6 +203,23 @@ export const migrations: Migration[] = [
   },
   {
     version: 6,
+    name: 'device event-log epochs',
+    // An agent whose data folder was wiped numbers its events from 1 again under a new epoch (a random id
+    // made with its log). Each epoch of a device gets its own run of stored seqs starting after base_seq,
+    // so its events are kept while a replay of an older epoch is still recognised. '' is the epoch of
+    // agents that send none.
+    sql: `
+      CREATE TABLE device_event_epochs (
+        device_id TEXT NOT NULL,
+        epoch TEXT NOT NULL,
+        base_seq INTEGER NOT NULL CHECK (base_seq >= 0),
+        started_at TEXT NOT NULL,
+        PRIMARY KEY (device_id, epoch)
+      );
+    `,
+  },
+  {
+    version: 7,
     name: 'replicas: leader leases',
     // One row per kind of work only one replica may do at a time (the fleet's rollout and calibration engines).
     // fence grows by one at every change of holder, so a holder can tell its lease was taken meanwhile.
