@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** What the server knows of a device's own account: its latest retained state, whether it is online, when it was last heard. */
 export interface DeviceStateRecord {
@@ -50,7 +50,7 @@ export interface DeviceStateRepository {
   countOnline(): number;
 }
 
-export function createDeviceStateRepository(db: Database.Database): DeviceStateRepository {
+export function createDeviceStateRepository(db: SqlConnection): DeviceStateRepository {
   const upsertState = db.prepare(`INSERT INTO device_state
       (device_id, online, last_seen_at, state, release_id, release_version, active_task, updated_at)
       VALUES (@deviceId, @online, @at, @state, @releaseId, @releaseVersion, @activeTask, @at)

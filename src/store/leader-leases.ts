@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** Who holds a lease, until when (ms since the epoch, the holder's clock) and its fence (one more at every change of holder). */
 export interface LeaseRecord {
@@ -32,32 +32,26 @@ interface Row {
 const toRecord = (r: Row): LeaseRecord => ({ name: r.name, holder: r.holder, expiresAtMs: r.expires_at_ms, fence: r.fence });
 
 /**
- * Leases in the `leader_leases` table. Its own IMMEDIATE transaction per attempt: the write lock is taken at
- * BEGIN, so the read and the write see no other replica's change in between (SQLite documentation, "BEGIN
- * TRANSACTION": IMMEDIATE starts a write transaction at once).
+ * Leases in the `leader_leases` table, on either backend. Taking or renewing is ONE conditional upsert, so two
+ * replicas that try at once cannot both get the lease: PostgreSQL's INSERT … ON CONFLICT DO UPDATE locks the
+ * conflicting row and re-checks its WHERE against the committed row (PostgreSQL documentation, "INSERT", ON
+ * CONFLICT clause), and SQLite runs one writer at a time. SET reads the row as it was before the update in both.
  */
-export function createLeaderLeaseRepository(db: Database.Database): LeaderLeaseRepository {
-  const select = db.prepare('SELECT * FROM leader_leases WHERE name = ?');
-  const insert = db.prepare('INSERT INTO leader_leases (name, holder, expires_at_ms, fence) VALUES (?, ?, ?, 1)');
-  const update = db.prepare('UPDATE leader_leases SET holder = ?, expires_at_ms = ?, fence = ? WHERE name = ?');
+export function createLeaderLeaseRepository(db: SqlConnection): LeaderLeaseRepository {
+  const select = db.prepare('SELECT name, holder, expires_at_ms, fence FROM leader_leases WHERE name = ?');
+  const take = db.prepare(`INSERT INTO leader_leases (name, holder, expires_at_ms, fence) VALUES (@name, @holder, @expiresAtMs, 1)
+    ON CONFLICT (name) DO UPDATE SET
+      fence = CASE WHEN leader_leases.holder = excluded.holder AND leader_leases.expires_at_ms > @nowMs THEN leader_leases.fence ELSE leader_leases.fence + 1 END,
+      holder = excluded.holder,
+      expires_at_ms = excluded.expires_at_ms
+    WHERE leader_leases.holder = excluded.holder OR leader_leases.expires_at_ms <= @nowMs`);
   const drop = db.prepare('UPDATE leader_leases SET expires_at_ms = 0 WHERE name = ? AND holder = ?');
-
-  const attempt = db.transaction((name: string, holder: string, nowMs: number, leaseMs: number): LeaseAttempt => {
-    const row = select.get(name) as Row | undefined;
-    const expiresAtMs = Math.floor(nowMs + leaseMs);
-    if (!row) {
-      insert.run(name, holder, expiresAtMs);
-      return { held: true, lease: { name, holder, expiresAtMs, fence: 1 } };
-    }
-    if (row.holder !== holder && row.expires_at_ms > nowMs) return { held: false, lease: toRecord(row) };
-    const fence = row.holder === holder && row.expires_at_ms > nowMs ? row.fence : row.fence + 1;
-    update.run(holder, expiresAtMs, fence, name);
-    return { held: true, lease: { name, holder, expiresAtMs, fence } };
-  });
 
   return {
     tryAcquire: function tryAcquire(name, holder, nowMs, leaseMs) {
-      return attempt.immediate(name, holder, nowMs, leaseMs);
+      const took = take.run({ name, holder, expiresAtMs: Math.floor(nowMs + leaseMs), nowMs: Math.floor(nowMs) }).changes > 0;
+      const row = select.get(name) as Row;
+      return { held: took && row.holder === holder, lease: toRecord(row) };
     },
     release: function release(name, holder) {
       return drop.run(name, holder).changes > 0;
