@@ -1,12 +1,18 @@
 /**
- * The leader lock of replicas: a lease row with an expiry, on a real SQLite file opened by two stores (as two
- * server processes on one machine open it), on an injected clock. Lease and poll figures are this project's
+ * The leader lock of replicas: a lease row with an expiry, opened by two stores (as two server processes open
+ * it) on each backend: one SQLite file, and one PostgreSQL schema on 127.0.0.1:5432 (skipped, saying so, when it
+ * is not running); on an injected clock. Lease and poll figures are this project's
  * defaults (poll 1 s, lease 5 polls), not a published value.
  */
 import { afterEach, describe, expect, it } from 'vitest';
 import { createLeaseLock, type LeaderLock } from '../../src/fleet/leader-lock.js';
 import { openStore, type Store } from '../../src/store/index.js';
-import { tempDir } from '../support/agent-fixtures.js';
+import { portOpen, tempDir } from '../support/agent-fixtures.js';
+import { postgresUrlFor } from '../support/store-backend.js';
+
+const postgresUp = await portOpen(5432);
+if (!postgresUp) console.warn('leader lock: PostgreSQL is not listening on 127.0.0.1:5432, so the PostgreSQL run is skipped');
+const BACKENDS = ['sqlite', ...(postgresUp ? ['postgres' as const] : [])] as const;
 
 const opened: Array<{ stores: Store[]; dir: ReturnType<typeof tempDir> }> = [];
 afterEach(() => {
@@ -16,10 +22,11 @@ afterEach(() => {
   }
 });
 
-function twoReplicas() {
+function twoReplicas(backend: string) {
   const dir = tempDir('leader');
-  const a = openStore(dir.path);
-  const b = openStore(dir.path);
+  const options = backend === 'postgres' ? { databaseUrl: postgresUrlFor(dir.path) } : {};
+  const a = openStore(dir.path, options);
+  const b = openStore(dir.path, options);
   opened.push({ stores: [a, b], dir });
   let nowMs = Date.parse('2026-03-02T06:00:00Z');
   const clock = { now: () => new Date(nowMs) };
@@ -27,9 +34,9 @@ function twoReplicas() {
   return { a, b, lockA: lock(a, 'replica-a'), lockB: lock(b, 'replica-b'), advance: (ms: number) => (nowMs += ms) };
 }
 
-describe('leader lock (lease row)', () => {
+describe.each(BACKENDS)('%s: leader lock (lease row)', (backend) => {
   it('is acquired by the first replica to poll and held while it renews', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     expect(r.lockA.poll()).toBe(true);
     for (let i = 0; i < 10; i++) {
       r.advance(1000);
@@ -39,7 +46,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('is exclusive: the other replica does not get it while the holder renews', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     r.lockA.poll();
     for (let i = 0; i < 10; i++) {
       r.advance(1000);
@@ -50,7 +57,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('is released by a clean stop, and the other replica takes it at its next poll', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     r.lockA.poll();
     r.lockA.stop();
     expect(r.lockA.held()).toBe(false);
@@ -59,7 +66,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('is taken over once a holder that stopped renewing (a killed process) has let its lease expire', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     r.lockA.poll();
     // A dies: it renews no more. Within the lease (5 s) B still waits; the lease ends 5 s after A's last renewal.
     r.advance(4999);
@@ -73,7 +80,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('stops counting itself leader one poll interval before its lease could expire, even without a poll', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     r.lockA.poll();
     r.advance(3999);
     expect(r.lockA.held()).toBe(true);
@@ -82,7 +89,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('drops the lock at once when its connection to the database is gone, and tells its listeners', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     const seen: boolean[] = [];
     r.lockA.onChange((held) => seen.push(held));
     r.lockA.poll();
@@ -94,7 +101,7 @@ describe('leader lock (lease row)', () => {
   });
 
   it('refuses a lease that does not outlast two polls', () => {
-    const r = twoReplicas();
+    const r = twoReplicas(backend);
     expect(() => createLeaseLock({ leases: r.a.leaderLeases, name: 'x', holder: 'h', clock: { now: () => new Date() }, pollMs: 1000, leaseMs: 2000 })).toThrow(/more than two polls/);
   });
 });

@@ -1,7 +1,8 @@
 /**
- * Several server replicas behind one MQTT 5 broker (a private Mosquitto 2 with its own config) and one store
- * (a SQLite file two processes' worth of connections share, as replicas on one machine do). Devices are
- * simulated MQTT clients speaking the device protocol (tests/support/replica-rig.ts). Demo data throughout.
+ * Several server replicas behind one MQTT 5 broker (a private Mosquitto 2 with its own config) and one store,
+ * on each backend: a SQLite file two replicas' connections share (replicas on one machine), and PostgreSQL on
+ * 127.0.0.1:5432 (a database of this file's own, dropped afterwards; skipped, saying so, when it is not running).
+ * Devices are simulated MQTT clients speaking the device protocol (tests/support/replica-rig.ts). Demo data.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -11,15 +12,22 @@ import { createApiClient } from '../../src/api-client/api-client.js';
 import { busForServer, startBus, type Bus } from '../../src/bus/start-bus.js';
 import { startServer, type RunningServer } from '../../src/server/start-server.js';
 import { openStore, type Store } from '../../src/store/index.js';
-import { waitFor } from '../support/agent-fixtures.js';
+import { portOpen, waitFor } from '../support/agent-fixtures.js';
+import { postgresUrlFor } from '../support/store-backend.js';
 import { MOSQUITTO_BINARY_SKIP_NOTE, mosquittoBinary, startPrivateMosquitto, type PrivateMosquitto } from '../support/bus-mosquitto-rig.js';
 import { connectSimDevice, type SimDevice } from '../support/replica-rig.js';
 
 if (!mosquittoBinary) console.warn(`replicas: ${MOSQUITTO_BINARY_SKIP_NOTE}`);
+const postgresUp = await portOpen(5432);
+if (!postgresUp) console.warn('replicas: PostgreSQL is not listening on 127.0.0.1:5432, so the PostgreSQL runs are skipped');
+const BACKENDS = ['sqlite', ...(postgresUp ? ['postgres' as const] : [])] as const;
+/** The store options of a data folder on a backend: PostgreSQL gets a schema of its own per folder. */
+const storeOn = (backend: string, dataDir: string) => (backend === 'postgres' ? { databaseUrl: postgresUrlFor(dataDir) } : {});
 const GROUP = 'replica-test-servers';
 const ADMIN_TOKEN = 'replica-test-admin-token-demo-data-01';
 
-describe.skipIf(!mosquittoBinary)('two replicas sharing device messages (MQTT 5 shared subscriptions)', () => {
+for (const backend of BACKENDS) {
+describe.skipIf(!mosquittoBinary)(`${backend}: two replicas sharing device messages (MQTT 5 shared subscriptions)`, () => {
   let dir: string;
   let broker: PrivateMosquitto;
   const stores: Store[] = [];
@@ -30,7 +38,7 @@ describe.skipIf(!mosquittoBinary)('two replicas sharing device messages (MQTT 5 
     dir = mkdtempSync(join(tmpdir(), 'ocellus-replicas-ingest-'));
     broker = await startPrivateMosquitto(dir);
     for (const replicaId of ['rep-a', 'rep-b']) {
-      const store = openStore(join(dir, 'data'));
+      const store = openStore(join(dir, 'data'), storeOn(backend, join(dir, 'data')));
       stores.push(store);
       buses.push(await startBus({ store, external: { url: broker.url, username: 'ocellus-server', password: '' }, replicas: { group: GROUP, replicaId } }));
     }
@@ -75,7 +83,7 @@ describe.skipIf(!mosquittoBinary)('two replicas sharing device messages (MQTT 5 
   }, 60_000);
 });
 
-describe.skipIf(!mosquittoBinary)('two replicas: changes made on one reach the other', () => {
+describe.skipIf(!mosquittoBinary)(`${backend}: two replicas: changes made on one reach the other`, () => {
   let dir: string;
   let broker: PrivateMosquitto;
   const servers: RunningServer[] = [];
@@ -87,6 +95,7 @@ describe.skipIf(!mosquittoBinary)('two replicas: changes made on one reach the o
     for (const replicaId of ['rep-a', 'rep-b']) {
       servers.push(await startServer({
         dataDir: join(dir, 'data'),
+        ...storeOn(backend, join(dir, 'data')),
         port: 0,
         adminToken: ADMIN_TOKEN,
         bus: busForServer({ external: { url: broker.url, username: 'ocellus-server', password: '' }, replicas: { group: GROUP, replicaId } }),
@@ -137,3 +146,4 @@ describe.skipIf(!mosquittoBinary)('two replicas: changes made on one reach the o
     expect(seen.some((c) => /profiles/.test(c.route ?? ''))).toBe(true);
   }, 45_000);
 });
+}
