@@ -16,7 +16,7 @@ function listening(host: string, port: number): Promise<boolean> {
 }
 
 // The store and API suites run once per store backend: SQLite (every test) and PostgreSQL (tests/store, tests/api).
-const BOTH_BACKENDS = ['tests/store/**/*.test.ts', 'tests/api/**/*.test.ts'];
+const BOTH_BACKENDS = ['tests/store/**/*.test.ts', 'tests/api/**/*.test.ts', 'tests/bus/event-writer.test.ts'];
 
 const postgresUp = await listening('127.0.0.1', 5432);
 if (!postgresUp) {

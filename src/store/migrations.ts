@@ -10,7 +10,9 @@ import type { SqlConnection } from './sql-connection.js';
 export interface Migration {
   version: number;
   name: string;
-  sqlite: string;
+  /** The SQLite spelling. */
+  sql: string;
+  /** The PostgreSQL spelling of the same change. */
   postgres: string;
 }
 
@@ -24,7 +26,7 @@ export const migrations: Migration[] = [
   {
     version: 1,
     name: 'server store: documents, profiles, releases, devices, tokens, audit',
-    sqlite: `
+    sql: `
       CREATE TABLE documents (
         kind TEXT NOT NULL CHECK (kind IN ('device-class', 'network', 'task', 'model')),
         id TEXT NOT NULL,
@@ -174,7 +176,7 @@ export const migrations: Migration[] = [
   {
     version: 2,
     name: 'bus bridge: device state, device events, event cursor',
-    sqlite: `
+    sql: `
       CREATE TABLE device_state (
         device_id TEXT PRIMARY KEY,
         online INTEGER NOT NULL DEFAULT 0 CHECK (online IN (0, 1)),
@@ -234,7 +236,7 @@ export const migrations: Migration[] = [
   {
     version: 3,
     name: 'fleet: rollouts, rollout devices, drift onsets',
-    sqlite: `
+    sql: `
       CREATE TABLE rollouts (
         id TEXT PRIMARY KEY,
         release_id TEXT NOT NULL REFERENCES releases(id),
@@ -340,7 +342,7 @@ export const migrations: Migration[] = [
   {
     version: 4,
     name: 'bus bridge: device connection changes seen by the server',
-    sqlite: `
+    sql: `
       CREATE TABLE device_connections (
         id INTEGER PRIMARY KEY AUTOINCREMENT,
         device_id TEXT NOT NULL,
@@ -370,7 +372,7 @@ export const migrations: Migration[] = [
     name: 'rollback through re-issued releases',
     // A rollback no longer re-sends the old release (devices refuse a lower sequence): each moved device gets
     // a re-issue of its previous release, a new release with a higher sequence, recorded here.
-    sqlite: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
+    sql: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id TEXT;`,
     postgres: `ALTER TABLE rollout_devices ADD COLUMN restore_release_id text;`,
   },
   {
@@ -380,7 +382,7 @@ export const migrations: Migration[] = [
     // made with its log). Each epoch of a device gets its own run of stored seqs starting after base_seq,
     // so its events are kept while a replay of an older epoch is still recognised. '' is the epoch of
     // agents that send none.
-    sqlite: `
+    sql: `
       CREATE TABLE device_event_epochs (
         device_id TEXT NOT NULL,
         epoch TEXT NOT NULL,
@@ -404,7 +406,7 @@ export const migrations: Migration[] = [
     name: 'replicas: leader leases',
     // One row per kind of work only one replica may do at a time (the fleet's rollout and calibration engines).
     // fence grows by one at every change of holder, so a holder can tell its lease was taken meanwhile.
-    sqlite: `
+    sql: `
       CREATE TABLE leader_leases (
         name TEXT PRIMARY KEY,
         holder TEXT NOT NULL,
@@ -459,7 +461,7 @@ export function applyMigrations(db: SqlConnection, list: readonly Migration[] = 
     db.transaction(() => {
       lock?.get();
       if (appliedNow().has(m.version)) return;
-      db.exec(postgres ? m.postgres : m.sqlite);
+      db.exec(postgres ? m.postgres : m.sql);
       record.run(m.version, m.name, new Date().toISOString());
       done.push(m.version);
     });

@@ -46,12 +46,12 @@ describe('opening the store', () => {
 
   it('refuses a migration list whose versions do not increase', () => {
     const dir = tempDir();
-    expect(() => openTestStore(dir, { migrations: [{ version: 2, name: 'b', sqlite: '', postgres: '' }, { version: 1, name: 'a', sqlite: '', postgres: '' }] })).toThrow(/out of order/);
+    expect(() => openTestStore(dir, { migrations: [{ version: 2, name: 'b', sql: '', postgres: '' }, { version: 1, name: 'a', sql: '', postgres: '' }] })).toThrow(/out of order/);
   });
 
   it('applies a failing migration not at all', () => {
     const dir = tempDir();
-    const bad = [{ version: 1, name: 'half', sqlite: 'CREATE TABLE a (x); CREATE TABLE a (y);', postgres: 'CREATE TABLE a (x int); CREATE TABLE a (y int);' }];
+    const bad = [{ version: 1, name: 'half', sql: 'CREATE TABLE a (x); CREATE TABLE a (y);', postgres: 'CREATE TABLE a (x int); CREATE TABLE a (y int);' }];
     expect(() => openTestStore(dir, { migrations: bad })).toThrow(/already exists/);
     const s = open(dir);
     expect(s.hasTable('a')).toBe(false);

@@ -1,10 +1,13 @@
 // Which store backend a test file runs on. vitest.config.ts runs the store and API suites twice: once on SQLite
 // (the default) and once with OCELLUS_TEST_BACKEND=postgres, where every store of a test file lives in one fresh
 // database (CREATE DATABASE ocellus_test_<random>, dropped after the file), each data folder in a schema of its own.
+import Database from 'better-sqlite3';
 import { createHash, randomBytes } from 'node:crypto';
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
 import { afterAll } from 'vitest';
 import { openPgSyncConnection } from '../../src/store/pg-sync-connection.js';
-import type { SqlConnection } from '../../src/store/sql-connection.js';
+import { sqliteConnection, type SqlConnection } from '../../src/store/sql-connection.js';
 import { openStore, type OpenStoreOptions, type Store } from '../../src/store/index.js';
 
 export type StoreBackend = 'sqlite' | 'postgres';
@@ -72,4 +75,16 @@ export function openTestStore(dataDir: string, options: OpenStoreOptions = {}): 
   const store = openStore(dataDir, { ...options, databaseUrl: postgresUrlFor(dataDir) });
   opened.push(store);
   return store;
+}
+
+/**
+ * A bare connection to where openTestStore(dataDir) keeps its rows, with no migrations applied: for tests that
+ * build an older schema by hand (a store cannot open one: its repositories prepare statements for the newest).
+ */
+export function openTestConnection(dataDir: string): SqlConnection {
+  if (storeBackend === 'sqlite') {
+    mkdirSync(dataDir, { recursive: true });
+    return sqliteConnection(new Database(join(dataDir, 'ocellus.db')));
+  }
+  return openPgSyncConnection({ url: postgresUrlFor(dataDir), applicationName: 'ocellus-tests' });
 }
