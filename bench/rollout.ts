@@ -25,7 +25,7 @@ import { benchDeviceClass, benchTask } from './agent-fixture.js';
 import { median, type BenchFigure } from './figure.js';
 import type { RolloutFleetSettings } from './rollout-fleet.js';
 import { sqlHandle } from '../src/store/sqlite-handle.js';
-import { BENCH_POSTGRES_URL, createBenchDatabase, postgresReachable } from './postgres-database.js';
+import { benchPostgresUrl, createBenchDatabase, postgresReachable } from './postgres-database.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 const SIZES = [1000, 5000];
@@ -232,6 +232,6 @@ export async function run(): Promise<BenchFigure[]> {
   for (const n of SIZES) figures.push(await measure(n));
   // The same rollout with the store on PostgreSQL (the replicas' store); the floor is the same bus, measured in the same run.
   if (await postgresReachable()) figures.push(await measure(POSTGRES_SIZE, 'postgres'));
-  else log(`rollout-postgres-${POSTGRES_SIZE} skipped: no PostgreSQL answers on ${new URL(BENCH_POSTGRES_URL).host}`);
+  else log(`rollout-postgres-${POSTGRES_SIZE} skipped: no PostgreSQL answers on ${new URL(benchPostgresUrl).host}`);
   return figures;
 }
