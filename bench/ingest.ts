@@ -173,7 +173,7 @@ export async function measureIngest(options: IngestBenchOptions): Promise<BenchF
       await new Promise((r) => setTimeout(r, 10));
     }
     await fleet.phase('drained');
-    const storedRows = sqlHandle(server.store).prepare('SELECT device_id AS deviceId, seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
+    const storedRows = sqlHandle(server.store).prepare('SELECT device_id AS "deviceId", seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
     const rowsByDevice = new Map<string, NewDeviceEvent[]>();
     for (const { deviceId, ...row } of storedRows) {
       const list = rowsByDevice.get(deviceId);

@@ -11,6 +11,7 @@ const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   planner: () => import('./planner.js'),
   ingest: () => import('./ingest.js'),
   'ingest-postgres': () => import('./ingest-postgres.js'),
+  'pg-statement': () => import('./pg-statement.js'),
   agent: () => import('./agent.js'),
   import: () => import('./import.js'),
   tolerance: () => import('./tolerance.js'),

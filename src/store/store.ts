@@ -108,8 +108,11 @@ function openSqlite(dataDir: string, options: OpenStoreOptions): { conn: SqlConn
 function openPostgres(url: string, options: OpenStoreOptions): SqlConnection {
   const conn = openPgSyncConnection({ url, ...(options.busyTimeoutMs !== undefined ? { statementTimeoutMs: Math.max(1000, options.busyTimeoutMs * 6) } : {}) });
   try {
-    const collation = conn.prepare('SELECT datcollate FROM pg_database WHERE datname = current_database()').pluck().get() as string;
-    if (!/^(C|POSIX|C\.UTF-?8)$/i.test(collation)) {
+    // to_jsonb reads the ICU columns where they exist (PostgreSQL 15+) and gives null on older servers.
+    const db = conn.prepare(`SELECT datcollate AS collate, to_jsonb(d) ->> 'datlocprovider' AS provider, to_jsonb(d) ->> 'daticulocale' AS icu
+      FROM pg_database d WHERE datname = current_database()`).get() as { collate: string; provider: string | null; icu: string | null };
+    const collation = db.provider === 'i' ? `ICU ${db.icu ?? '(unknown)'}` : db.collate;
+    if (db.provider === 'i' || !/^(C|POSIX|C\.UTF-?8)$/i.test(db.collate)) {
       throw new Error(`the PostgreSQL database at ${conn.location} sorts text by collation ${collation}; Ocellus needs C or C.UTF-8 (create it with: CREATE DATABASE … TEMPLATE template0 LC_COLLATE 'C' LC_CTYPE 'C')`);
     }
   } catch (e) {

@@ -1,30 +1,15 @@
 import { createHash } from 'node:crypto';
-import { mkdtempSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readdirSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { Readable } from 'node:stream';
-import { afterEach, describe, expect, it } from 'vitest';
-import { applyMigrations, createBlobStore, loadOrCreateSigningKey, migrations, type Store } from '../../src/store/index.js';
+import { describe, expect, it } from 'vitest';
+import { applyMigrations, createBlobStore, loadOrCreateSigningKey, migrations } from '../../src/store/index.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
 import { sqlHandle, sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { openTestStore, storeBackend } from '../support/store-backend.js';
+import { storeFolders } from '../support/store-folders.js';
 
-const dirs: string[] = [];
-const stores: Store[] = [];
-function tempDir(): string {
-  const d = mkdtempSync(join(tmpdir(), 'ocellus-store-'));
-  dirs.push(d);
-  return d;
-}
-function open(dir: string): Store {
-  const s = openTestStore(dir);
-  stores.push(s);
-  return s;
-}
-afterEach(() => {
-  for (const s of stores.splice(0)) s.close();
-  for (const d of dirs.splice(0)) rmSync(d, { recursive: true, force: true });
-});
+const { tempDir, open } = storeFolders('store');
 
 const at = '2025-03-01T10:00:00.000Z';
 

@@ -1,29 +1,14 @@
 import { createHmac } from 'node:crypto';
-import { mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { mkdirSync, readdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterEach, describe, expect, it } from 'vitest';
-import { createBlobStore, hashPassword, type Store } from '../../src/store/index.js';
+import { describe, expect, it } from 'vitest';
+import { createBlobStore, hashPassword } from '../../src/store/index.js';
 import { createLoginGuard } from '../../src/store/login-guard.js';
 import { sqlHandle, sqliteHandle } from '../../src/store/sqlite-handle.js';
-import { openTestStore, storeBackend } from '../support/store-backend.js';
+import { storeBackend } from '../support/store-backend.js';
+import { storeFolders } from '../support/store-folders.js';
 
-const dirs: string[] = [];
-const stores: Store[] = [];
-function tempDir(): string {
-  const d = mkdtempSync(join(tmpdir(), 'ocellus-cred-'));
-  dirs.push(d);
-  return d;
-}
-function open(dir: string): Store {
-  const s = openTestStore(dir);
-  stores.push(s);
-  return s;
-}
-afterEach(() => {
-  for (const s of stores.splice(0)) s.close();
-  for (const d of dirs.splice(0)) rmSync(d, { recursive: true, force: true });
-});
+const { tempDir, open } = storeFolders('cred');
 const at = '2026-03-01T10:00:00.000Z';
 
 describe('device secrets at rest', () => {
