@@ -110,7 +110,8 @@ export function createAgent(deps: AgentDeps): Agent {
   function onMessage(channel: 'release' | 'cmd' | 'ack', payload: Buffer) {
     if (channel === 'ack') {
       const ack = decodeMessage('ack', payload);
-      if (ack.ok) outbox!.onAck(ack.value.upTo);
+      // An ack counts only for this log's epoch: one for another (a replay of an older log) numbers other events.
+      if (ack.ok && (ack.value.epoch ?? null) === events!.epoch()) outbox!.onAck(ack.value.upTo);
       return;
     }
     if (channel === 'release') {

@@ -2,12 +2,12 @@
 // while the main connection reads), writing the batches the bridge posts, one at a time.
 import { parentPort, workerData } from 'node:worker_threads';
 import { openEventWriterStore } from '../store/writer-connection.js';
-import { createEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch } from './event-batch.js';
+import { batchWriterOf } from './event-writer.js';
 
 const { location, busyTimeoutMs } = workerData as { location: string; busyTimeoutMs: number };
 const store = openEventWriterStore(location, busyTimeoutMs);
-const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+const writer = batchWriterOf(store);
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {

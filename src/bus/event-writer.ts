@@ -2,8 +2,9 @@ import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { Store } from '../store/store.js';
+import { writeBatch, type BatchWriter, type IngestBatch, type IngestResult } from './event-batch.js';
 import { createEventCursor } from './event-cursor.js';
-import { writeBatch, type IngestBatch, type IngestResult } from './event-batch.js';
+import { createEventEpochs } from './event-epochs.js';
 
 /** Stores the bridge's batches; resolves after the commit, so an ack is only ever sent for stored events. */
 export interface EventWriter {
@@ -12,9 +13,18 @@ export interface EventWriter {
   close(): Promise<void>;
 }
 
+/** The repositories an event writer stores a batch through, with its cursor and epochs (kept in memory beside them). */
+export type WriterStore = Pick<Store, 'deviceEvents' | 'deviceEventEpochs' | 'deviceStates' | 'deviceConnections' | 'transaction'>;
+
+export function batchWriterOf(store: WriterStore): BatchWriter {
+  const cursor = createEventCursor(store.deviceEvents);
+  const epochs = createEventEpochs({ epochs: store.deviceEventEpochs, events: store.deviceEvents, cursor });
+  return { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, epochs, transaction: store.transaction };
+}
+
 /** Writes on the calling thread, through the store's own connection. */
-export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'deviceConnections' | 'transaction'>): EventWriter {
-  const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+export function createInlineEventWriter(store: WriterStore): EventWriter {
+  const writer = batchWriterOf(store);
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),

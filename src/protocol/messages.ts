@@ -93,12 +93,19 @@ export const deviceEventSchema = z.discriminatedUnion(
   eventBodySchema.options.map((variant) => variant.extend(eventHead)) as unknown as [z.ZodObject, ...z.ZodObject[]],
 ) as unknown as z.ZodType<DeviceEvent>;
 
-/** Device → server: a batch of numbered events, oldest first. */
-export const eventsMessageSchema = z.strictObject({ v, events: z.array(deviceEventSchema).min(1).max(500) });
+/**
+ * The id of a device's event log, made at random with the log and kept with it: seqs count from 1 within
+ * one epoch, so a wiped agent (a new log, a new epoch) is told apart from a replay of its old events.
+ * Absent from agents that make none (the legacy epoch).
+ */
+export const eventLogEpochSchema = z.string().regex(/^[A-Za-z0-9_-]{8,64}$/, 'must be 8 to 64 letters, digits, "_" or "-"');
+
+/** Device → server: a batch of numbered events of one epoch, oldest first. */
+export const eventsMessageSchema = z.strictObject({ v, epoch: eventLogEpochSchema.optional(), events: z.array(deviceEventSchema).min(1).max(500) });
 export type EventsMessage = z.infer<typeof eventsMessageSchema>;
 
-/** Server → device: every event up to and including `upTo` is stored. */
-export const ackMessageSchema = z.strictObject({ v, upTo: count });
+/** Server → device: every event of the epoch (absent: the legacy epoch) up to and including `upTo` is stored. */
+export const ackMessageSchema = z.strictObject({ v, upTo: count, epoch: eventLogEpochSchema.optional() });
 export type AckMessage = z.infer<typeof ackMessageSchema>;
 
 /** Server → device: operator commands. */

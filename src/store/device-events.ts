@@ -22,6 +22,8 @@ export interface NewDeviceEvent {
 
 /** The same events as parallel columns: cheaper to build and to post to a worker thread than one object each. */
 export interface DeviceEventColumns {
+  /** The device's event-log epoch; absent for agents that send none. */
+  epoch?: string;
   seqs: number[];
   tss: string[];
   types: string[];
@@ -45,6 +47,8 @@ export interface DeviceEventRepository {
   /** Highest seq n such that every event 1..n of the device is stored (0 when event 1 is missing). */
   contiguousSeq(deviceId: string): number;
   setContiguousSeq(deviceId: string, seq: number): void;
+  /** Highest stored seq of a device (0 when none). */
+  maxSeq(deviceId: string): number;
   /** Stored seqs above a given one, ascending: the events that arrived ahead of a gap. */
   seqsAbove(deviceId: string, seq: number): number[];
   list(deviceId: string, options?: { afterSeq?: number; type?: string; limit?: number }): StoredDeviceEvent[];
@@ -63,6 +67,7 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
   const cursorRow = db.prepare('SELECT contiguous_seq AS n FROM device_event_cursor WHERE device_id = ?');
   const setCursor = db.prepare(`INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, ?)
     ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
+  const highest = db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1').pluck();
   const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
   const listRows = db.prepare(`SELECT * FROM device_events WHERE device_id = @deviceId AND seq > @afterSeq
     AND (@type IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
@@ -87,6 +92,9 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
     },
     setContiguousSeq: function setContiguousSeq(deviceId, seq) {
       setCursor.run(deviceId, seq);
+    },
+    maxSeq: function maxSeq(deviceId) {
+      return (highest.get(deviceId) as number | undefined) ?? 0;
     },
     seqsAbove: function seqsAbove(deviceId, seq) {
       return above.all(deviceId, seq) as number[];

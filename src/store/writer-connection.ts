@@ -1,11 +1,13 @@
 import Database from 'better-sqlite3';
 import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
+import { createDeviceEventEpochRepository, type DeviceEventEpochRepository } from './device-event-epochs.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
 
 /** The repositories an event writer needs, on a connection of its own. */
 export interface EventWriterStore {
   readonly deviceEvents: DeviceEventRepository;
+  readonly deviceEventEpochs: DeviceEventEpochRepository;
   readonly deviceStates: DeviceStateRepository;
   readonly deviceConnections: DeviceConnectionRepository;
   transaction<T>(fn: () => T): T;
@@ -27,6 +29,7 @@ export function openEventWriterStore(location: string, busyTimeoutMs: number): E
   db.pragma('synchronous = FULL');
   return {
     deviceEvents: createDeviceEventRepository(db),
+    deviceEventEpochs: createDeviceEventEpochRepository(db),
     deviceStates: createDeviceStateRepository(db),
     deviceConnections: createDeviceConnectionRepository(db),
     transaction: <T>(fn: () => T): T => db.transaction(fn)(),
