@@ -6,8 +6,9 @@ import { decodeMessage, encodeMessage } from '../protocol/decode.js';
 import { decodeEventsMessage } from '../protocol/decode-events.js';
 import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
+import type { FreshnessPublisher } from '../protocol/freshness.js';
 import type { ReleasePublisher, SignedReleaseText } from '../protocol/release.js';
-import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
+import { allDevicesFilter, classFreshnessTopic, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
 import type { DeviceEventColumns } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
@@ -39,7 +40,7 @@ export interface BridgeStats {
   rejected: Record<BridgeRejectReason, number>;
 }
 
-export interface Bridge extends ReleasePublisher {
+export interface Bridge extends ReleasePublisher, FreshnessPublisher {
   /** Sends an operator command (QoS 1, not retained) and returns its id. */
   publishCommand(deviceId: string, command: CommandMessage['command'], issuedBy: string): Promise<string>;
   /** Removes the retained release of a device (an empty retained payload), e.g. when it is withdrawn. */
@@ -232,6 +233,9 @@ export function createBridge(options: BridgeOptions): Bridge {
       const message: CommandMessage = { v: PROTOCOL_VERSION, id: randomUUID(), issuedBy, command };
       await client.publishAsync(deviceTopic(deviceId, 'cmd'), encodeMessage(message), { qos: 1 });
       return message.id;
+    },
+    publishFreshness: async function publishFreshness(deviceClassId, text) {
+      await client.publishAsync(classFreshnessTopic(deviceClassId), text, { qos: 1, retain: true });
     },
     clearRelease: async function clearRelease(deviceId) {
       await client.publishAsync(deviceTopic(deviceId, 'release'), Buffer.alloc(0), { qos: 1, retain: true });

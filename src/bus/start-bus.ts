@@ -156,6 +156,7 @@ export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'lo
     });
     return {
       publisher: bus.bridge,
+      freshness: bus.bridge,
       description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}`,
       onDevicesStored: (listener: (deviceIds: string[]) => void) => bus.bridge.onStored(listener),
       disconnectDevice: (deviceId: string) => bus.disconnectDevice(deviceId),
