@@ -102,6 +102,6 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
  * neither opens nor closes an offline stretch.
  */
 function noteRestart(w: BatchWriter, deviceId: string, at: string) {
-  const s = w.states.get(deviceId);
+  const s = w.states.summary(deviceId);
   w.connections.insert({ deviceId, at, online: s?.online ?? false, cause: 'event-log-restarted', releaseId: s?.releaseId ?? null, task: s?.activeTask ?? null });
 }
