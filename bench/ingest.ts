@@ -10,17 +10,17 @@ import { openStore } from '../src/store/index.js';
 import { startServer } from '../src/server/start-server.js';
 import { median, type BenchFigure } from './figure.js';
 import type { IngestFleetSettings } from './ingest-fleet.js';
-import { sqliteHandle } from '../src/store/sqlite-handle.js';
+import { sqlHandle } from '../src/store/sqlite-handle.js';
 
 const DEVICES = 40;
 const EVENTS_PER_DEVICE = 7500;
 /** Each agent logs one agent-started event when it starts, besides its backlog. */
 const EXPECTED = DEVICES * (EVENTS_PER_DEVICE + 1);
-const TARGET_PER_S = 20_000;
+export const TARGET_PER_S = 20_000;
 const MIN_RATIO = 0.5;
 const DEADLINE_MS = 240_000;
 /** The agents' batch size: the bare insert commits as many rows per transaction. */
-const BARE_BATCH = 500;
+export const BARE_BATCH = 500;
 /** The bare insert is repeated on fresh stores and its median taken: one run swings with the disk cache. */
 const BARE_RUNS = 3;
 const FLEET_SCRIPT = fileURLToPath(new URL('./ingest-fleet.ts', import.meta.url));
@@ -89,8 +89,25 @@ function bareInsertRate(rowsByDevice: Map<string, NewDeviceEvent[]>): number {
  * stored exactly once. The same rows are then inserted with bare better-sqlite3 for comparison.
  */
 export async function run(): Promise<BenchFigure[]> {
+  return [await measureIngest({ name: 'ingest', bareRate: async (rows) => median(Array.from({ length: BARE_RUNS }, () => bareInsertRate(rows))) })];
+}
+
+export interface IngestBenchOptions {
+  name: string;
+  /** The store's PostgreSQL URL; the data folder's SQLite file when absent. */
+  databaseUrl?: string;
+  /** The comparison: events/s of a bare batched insert of the same rows into the same kind of store. */
+  bareRate(rowsByDevice: Map<string, NewDeviceEvent[]>): Promise<number>;
+  /** Extra fields for the figure (machine size, backend notes). */
+  extra?: Record<string, unknown>;
+  /** Events/s the ingest must reach (TARGET_PER_S when absent; 0 when only the ratio and losses count). */
+  targetPerS?: number;
+}
+
+/** One server (HTTP, embedded broker, bridge, event writer) receiving the fleet's backlog; the figure compares it with options.bareRate. */
+export async function measureIngest(options: IngestBenchOptions): Promise<BenchFigure> {
   const root = mkdtempSync(join(tmpdir(), 'ocellus-bench-ingest-'));
-  const server = await startServer({ dataDir: join(root, 'server'), port: 0 });
+  const server = await startServer({ dataDir: join(root, 'server'), port: 0, ...(options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {}) });
   const bus = await startBus({ store: server.store, metrics: server.metrics, embedded: { port: 0 } });
   let fleet: ReturnType<typeof startFleet> | null = null;
   try {
@@ -134,7 +151,7 @@ export async function run(): Promise<BenchFigure[]> {
       await new Promise((r) => setTimeout(r, 10));
     }
     await fleet.phase('drained');
-    const storedRows = sqliteHandle(server.store).prepare('SELECT device_id AS deviceId, seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
+    const storedRows = sqlHandle(server.store).prepare('SELECT device_id AS "deviceId", seq, ts, type, event AS json FROM device_events ORDER BY device_id, seq').all() as Array<NewDeviceEvent & { deviceId: string }>;
     const rowsByDevice = new Map<string, NewDeviceEvent[]>();
     for (const { deviceId, ...row } of storedRows) {
       const list = rowsByDevice.get(deviceId);
@@ -146,13 +163,13 @@ export async function run(): Promise<BenchFigure[]> {
     const lost = EXPECTED - storedRows.length;
     const stats = bus.bridge.stats();
     const value = Math.round((stats.eventsStored - firstCount) / ((lastMs - firstMs!) / 1000));
-    const floor = Math.round(median(Array.from({ length: BARE_RUNS }, () => bareInsertRate(rowsByDevice))));
+    const floor = Math.round(await options.bareRate(rowsByDevice));
     const ratio = Math.round((value / floor) * 1000) / 1000;
     const figure: BenchFigure & Record<'lost' | 'devices' | 'events' | 'duplicates' | 'devicesComplete', number> = {
-        name: 'ingest',
+        name: options.name,
         value,
         unit: 'events/s',
-        target: TARGET_PER_S,
+        target: options.targetPerS ?? TARGET_PER_S,
         floor,
         ratio,
         lost,
@@ -160,9 +177,10 @@ export async function run(): Promise<BenchFigure[]> {
         events: EXPECTED,
         duplicates: stats.eventsDuplicate,
         devicesComplete: complete,
-        ok: value >= TARGET_PER_S && ratio >= MIN_RATIO && lost === 0 && complete === DEVICES,
+        ...options.extra,
+        ok: value >= (options.targetPerS ?? TARGET_PER_S) && ratio >= MIN_RATIO && lost === 0 && complete === DEVICES,
     };
-    return [figure];
+    return figure;
   } finally {
     if (fleet && fleet.child.exitCode === null) {
       fleet.child.kill('SIGTERM');

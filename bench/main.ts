@@ -6,9 +6,12 @@ import type { BenchPart } from './figure.js';
 const parts: Record<string, () => Promise<{ run: BenchPart }>> = {
   validator: () => import('./validator.js'),
   history: () => import('./history.js'),
+  'history-postgres': () => import('./history-postgres.js'),
   rollout: () => import('./rollout.js'),
   planner: () => import('./planner.js'),
   ingest: () => import('./ingest.js'),
+  'ingest-postgres': () => import('./ingest-postgres.js'),
+  'pg-statement': () => import('./pg-statement.js'),
   agent: () => import('./agent.js'),
   import: () => import('./import.js'),
   tolerance: () => import('./tolerance.js'),

@@ -7,8 +7,16 @@ import type { StateMessage } from '../protocol/messages.js';
 import type { ValidationFigures } from '../validate/validate.js';
 import type { Candidate, NearMiss, PlanResult } from '../plan/types.js';
 import type { DriftEpisode } from '../schema/drift.js';
+import type { HistoryInterval, IntervalCause } from '../schema/history.js';
 
-export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures, Candidate, NearMiss, DriftEpisode };
+export type { Check, Report, Profile, Task, DeviceClass, StateMessage, ValidationFigures, Candidate, NearMiss, DriftEpisode, HistoryInterval, IntervalCause };
+
+/** GET /devices/:id/history: the window asked for (or fitted) and the intervals in it, oldest first. */
+export interface DeviceHistoryAnswer {
+  from: string;
+  to: string;
+  intervals: HistoryInterval[];
+}
 
 /** POST /plan: the planner's result, the calibration it applied and the document versions it read. */
 export interface PlanAnswer extends PlanResult {

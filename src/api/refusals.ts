@@ -3,17 +3,33 @@ import type { CalibratedReportRefusalCode } from '../fleet/calibration/calibrate
 import type { AssignRefusalCode } from '../fleet/rollout/assign.js';
 import type { RolloutRefusalCode } from '../fleet/rollout/service.js';
 import type { ReleaseRefusalCode } from '../release/build.js';
-import type { ProfileRefusalCode } from '../release/profile-inputs.js';
 import type { ReissueRefusalCode } from '../release/reissue.js';
+import type { TokenRefusalCode } from '../access/api-tokens.js';
+import type { DocumentSaveRefusalCode } from '../documents/save.js';
+import type { WeightsUploadRefusalCode } from '../documents/weights.js';
+import type { EnrolmentRefusalCode } from '../fleet/enrolment/credentials.js';
+import type { ProfileDiffRefusalCode } from '../profiles/diff.js';
+import type { ProfileSaveRefusalCode } from '../profiles/save.js';
 import type { Outcome, Refusal } from '../schema/refusal.js';
 import { HttpError } from './errors.js';
 
-export type RefusalCode = ReleaseRefusalCode | ReissueRefusalCode | ProfileRefusalCode | AssignRefusalCode | RolloutRefusalCode | CalibratedReportRefusalCode;
+export type RefusalCode =
+  | ReleaseRefusalCode
+  | ReissueRefusalCode
+  | ProfileSaveRefusalCode
+  | ProfileDiffRefusalCode
+  | DocumentSaveRefusalCode
+  | WeightsUploadRefusalCode
+  | EnrolmentRefusalCode
+  | TokenRefusalCode
+  | AssignRefusalCode
+  | RolloutRefusalCode
+  | CalibratedReportRefusalCode;
 
 /**
  * The one place a domain refusal becomes an HTTP status (RFC 9110 §15): input naming something that is not
  * there or cannot be, 400; the thing addressed by the path is missing, 404; a clash with what is stored, 409;
- * well-formed but refused on its content (failed checks), 422. A new code does not compile until it is here.
+ * well-formed but refused on its content (failed checks), 422; a body larger than allowed, 413. A new code does not compile until it is here.
  */
 const STATUS_OF: Record<RefusalCode, ContentfulStatusCode> = {
   'unknown-device-class': 400,
@@ -31,6 +47,16 @@ const STATUS_OF: Record<RefusalCode, ContentfulStatusCode> = {
   'missing-document': 409,
   'reissue-source-not-found': 404,
   'weights-missing': 409,
+  'profile-exists': 409,
+  'profile-not-found': 404,
+  'revision-not-found': 404,
+  'document-exists': 409,
+  'document-not-found': 404,
+  'model-not-found': 404,
+  'weights-too-large': 413,
+  'weights-mismatch': 400,
+  'device-enrolled': 409,
+  'token-not-found': 404,
 };
 
 /** The HTTP error for a refusal: its status from the table, its message and issues, its detail as extra fields. */

@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { busForServer } from '../bus/start-bus.js';
 import { startServer } from '../server/start-server.js';
+import { isPostgresUrl } from '../store/index.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
 import { portInUse, portTakenMessage } from './port-check.js';
@@ -9,10 +10,13 @@ import type { CliIo } from './io.js';
 import { mibToBytes } from '../physics/units.js';
 
 export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--data ./ocellus-data] [--max-weights-mib 512]
+                    [--database postgres://USER@HOST:PORT/DB]
                     [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
                     [--tls-cert FILE --tls-key FILE [--client-ca FILE [--crl FILE]]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
+  --database (or OCELLUS_DATABASE_URL) keeps the store in that PostgreSQL database instead of the data
+  folder's SQLite file; the data folder still holds the keys and the weights (share it between replicas).
   A port already in use is refused with exit 2 before anything is written; pick others with --port and
   --mqtt-port (e.g. when the demo holds 8080 and 1884), and point the other commands at this server with
   --server http://127.0.0.1:PORT or OCELLUS_SERVER.
@@ -46,6 +50,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       port: { type: 'string' },
       host: { type: 'string' },
       data: { type: 'string' },
+      database: { type: 'string' },
       'max-weights-mib': { type: 'string' },
       'mqtt-port': { type: 'string' },
       broker: { type: 'string' },
@@ -61,6 +66,10 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const maxWeightsMib = optionalNumber(values, 'max-weights-mib', 512);
     const dataDir = resolve(io.cwd, values.data ?? 'ocellus-data');
     const adminToken = io.env.OCELLUS_ADMIN_TOKEN;
+    const databaseUrl = values.database ?? io.env.OCELLUS_DATABASE_URL;
+    if (databaseUrl !== undefined && !isPostgresUrl(databaseUrl)) {
+      throw new UsageError(`--database (or OCELLUS_DATABASE_URL) must be a postgres:// or postgresql:// URL, got '${databaseUrl.slice(0, 40)}'`);
+    }
     const mqttPort = optionalNumber(values, 'mqtt-port', 1884, { positive: false, integer: true });
     if (values.broker !== undefined && !/^(mqtts?|tcp|ssl):\/\/[^/]+/.test(values.broker)) {
       throw new UsageError(`--broker must be an mqtt:// or mqtts:// URL, got '${values.broker}'`);
@@ -109,6 +118,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
         });
     const server = await startServer({
       dataDir,
+      ...(databaseUrl !== undefined ? { databaseUrl } : {}),
       host,
       port,
       maxWeightsBytes: Math.floor(mibToBytes(maxWeightsMib)),

@@ -38,6 +38,11 @@ export interface BusAttachment {
 export interface StartServerOptions {
   /** Folder of the database, the weights and the signing key; created when missing. */
   dataDir: string;
+  /**
+   * A postgres:// URL: the store lives there instead of the data folder's SQLite file. Keys and weights stay in
+   * the data folder, which every replica on that database must share.
+   */
+  databaseUrl?: string;
   /** Loopback by default: the server is meant for one site's network. */
   host?: string;
   /** 8080 by default; 0 picks a free port. */
@@ -94,7 +99,7 @@ function listen(server: ServerType): Promise<AddressInfo> {
 export async function startServer(options: StartServerOptions): Promise<RunningServer> {
   const log = options.log ?? (() => {});
   const host = options.host ?? '127.0.0.1';
-  const store = openStore(options.dataDir);
+  const store = openStore(options.dataDir, options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {});
   let bus: BusAttachment | null = null;
   let stopEngine: () => Promise<void> = async () => {};
   try {

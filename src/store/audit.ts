@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 export interface AuditEntry {
   id: number;
@@ -39,13 +39,13 @@ export interface AuditRepository {
 export const AUDIT_DEFAULT_LIMIT = 100;
 export const AUDIT_MAX_LIMIT = 1000;
 
-export function createAuditRepository(db: Database.Database): AuditRepository {
-  const insertRow = db.prepare('INSERT INTO audit (at, actor, action, target, detail) VALUES (?, ?, ?, ?, ?)');
+export function createAuditRepository(db: SqlConnection): AuditRepository {
+  const insertRow = db.prepare('INSERT INTO audit (at, actor, action, target, detail) VALUES (?, ?, ?, ?, ?) RETURNING id').pluck();
 
   return {
     record: function record(entry) {
-      const { lastInsertRowid } = insertRow.run(entry.at, entry.actor, entry.action, entry.target, JSON.stringify(entry.detail ?? null));
-      return { id: Number(lastInsertRowid), ...entry };
+      const id = insertRow.get(entry.at, entry.actor, entry.action, entry.target, JSON.stringify(entry.detail ?? null)) as number;
+      return { id, ...entry };
     },
     query: function query(filter = {}) {
       const where: string[] = [];

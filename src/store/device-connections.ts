@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /**
  * Why the server counts a device as having come online or gone offline:
@@ -55,7 +55,7 @@ export interface DeviceConnectionRepository {
 }
 
 /** Times are stored as UTC ISO 8601 with milliseconds (Date#toISOString), so text order is time order. */
-export function createDeviceConnectionRepository(db: Database.Database): DeviceConnectionRepository {
+export function createDeviceConnectionRepository(db: SqlConnection): DeviceConnectionRepository {
   const insertRow = db.prepare(`INSERT INTO device_connections (device_id, at, online, cause, release_id, task)
     VALUES (@deviceId, @at, @online, @cause, @releaseId, @task)`);
   const betweenRows = db.prepare('SELECT * FROM device_connections WHERE device_id = ? AND at >= ? AND at < ? ORDER BY at, id');

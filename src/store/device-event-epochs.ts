@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** The epoch of agents that send none (older agents, and logs made before epochs existed). */
 export const LEGACY_EPOCH = '';
@@ -23,7 +23,7 @@ interface Row {
   started_at: string;
 }
 
-export function createDeviceEventEpochRepository(db: Database.Database): DeviceEventEpochRepository {
+export function createDeviceEventEpochRepository(db: SqlConnection): DeviceEventEpochRepository {
   // Base seqs of one device strictly increase from epoch to epoch (the bus makes them so): they order the epochs.
   const listRows = db.prepare('SELECT epoch, base_seq, started_at FROM device_event_epochs WHERE device_id = ? ORDER BY base_seq');
   const insertRow = db.prepare('INSERT INTO device_event_epochs (device_id, epoch, base_seq, started_at) VALUES (?, ?, ?, ?)');

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** One event as stored: numbered by the device, unique per (device, seq). */
 export interface StoredDeviceEvent {
@@ -61,16 +61,21 @@ function toRecord(row: Row): StoredDeviceEvent {
   return { deviceId: row.device_id, seq: row.seq, ts: row.ts, type: row.type, event: JSON.parse(row.event), receivedAt: row.received_at };
 }
 
-export function createDeviceEventRepository(db: Database.Database): DeviceEventRepository {
+export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepository {
   // Prepared once: the bridge inserts tens of thousands of rows a second through these.
-  const insertRow = db.prepare('INSERT OR IGNORE INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+  const insertRow = db.prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?) ON CONFLICT DO NOTHING');
+  // PostgreSQL: a statement costs a round trip, so a device's whole batch goes in one, its columns as arrays.
+  const insertMany = db.dialect === 'postgres'
+    ? db.prepare(`INSERT INTO device_events (device_id, seq, ts, type, event, received_at)
+        SELECT ?, s, t, y, e, ? FROM unnest(?::bigint[], ?::text[], ?::text[], ?::text[]) AS u (s, t, y, e) ON CONFLICT DO NOTHING`)
+    : null;
   const cursorRow = db.prepare('SELECT contiguous_seq AS n FROM device_event_cursor WHERE device_id = ?');
   const setCursor = db.prepare(`INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, ?)
     ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
   const highest = db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1').pluck();
   const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
   const listRows = db.prepare(`SELECT * FROM device_events WHERE device_id = @deviceId AND seq > @afterSeq
-    AND (@type IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
+    AND (CAST(@type AS TEXT) IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
   const countAll = db.prepare('SELECT COUNT(*) AS n FROM device_events');
   const countOne = db.prepare('SELECT COUNT(*) AS n FROM device_events WHERE device_id = ?');
   const typesAll = db.prepare('SELECT type, COUNT(*) AS n FROM device_events GROUP BY type');
@@ -78,11 +83,13 @@ export function createDeviceEventRepository(db: Database.Database): DeviceEventR
 
   return {
     insert: function insert(deviceId, events, receivedAt) {
+      if (insertMany) return insertMany.run(deviceId, receivedAt, events.map((e) => e.seq), events.map((e) => e.ts), events.map((e) => e.type), events.map((e) => e.json)).changes;
       let added = 0;
       for (const e of events) added += insertRow.run(deviceId, e.seq, e.ts, e.type, e.json, receivedAt).changes;
       return added;
     },
     insertColumns: function insertColumns(deviceId, { seqs, tss, types, jsons }, receivedAt) {
+      if (insertMany) return insertMany.run(deviceId, receivedAt, seqs, tss, types, jsons).changes;
       let added = 0;
       for (let i = 0; i < seqs.length; i++) added += insertRow.run(deviceId, seqs[i], tss[i], types[i], jsons[i], receivedAt).changes;
       return added;

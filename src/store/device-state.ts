@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** What the server knows of a device's own account: its latest retained state, whether it is online, when it was last heard. */
 export interface DeviceStateRecord {
@@ -52,7 +52,7 @@ export interface DeviceStateRepository {
   countOnline(): number;
 }
 
-export function createDeviceStateRepository(db: Database.Database): DeviceStateRepository {
+export function createDeviceStateRepository(db: SqlConnection): DeviceStateRepository {
   const upsertState = db.prepare(`INSERT INTO device_state
       (device_id, online, last_seen_at, state, release_id, release_version, active_task, updated_at)
       VALUES (@deviceId, @online, @at, @state, @releaseId, @releaseVersion, @activeTask, @at)
@@ -64,7 +64,7 @@ export function createDeviceStateRepository(db: Database.Database): DeviceStateR
   const touchRow = db.prepare(`INSERT INTO device_state (device_id, online, last_seen_at, updated_at) VALUES (?, 0, ?, ?)
     ON CONFLICT (device_id) DO UPDATE SET last_seen_at = excluded.last_seen_at`);
   const oneRow = db.prepare('SELECT * FROM device_state WHERE device_id = ?');
-  const summaryRow = db.prepare('SELECT online, state IS NOT NULL AS has_state, release_id, active_task FROM device_state WHERE device_id = ?');
+  const summaryRow = db.prepare('SELECT online, CASE WHEN state IS NULL THEN 0 ELSE 1 END AS has_state, release_id, active_task FROM device_state WHERE device_id = ?');
   const allRows = db.prepare('SELECT * FROM device_state ORDER BY device_id');
   const onlineCount = db.prepare('SELECT COUNT(*) AS n FROM device_state WHERE online = 1');
 

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import { hashDeviceSecret, isScryptHash, newSecret, verifyDeviceSecret, verifyPasswordAsync } from './credentials.js';
 
 export interface DeviceRecord {
@@ -97,7 +97,7 @@ export interface DeviceRepository {
   assignments(deviceId: string): AssignmentRecord[];
 }
 
-export function createDeviceRepository(db: Database.Database, secretKey: Buffer): DeviceRepository {
+export function createDeviceRepository(db: SqlConnection, secretKey: Buffer): DeviceRepository {
   const insertRow = db.prepare(`INSERT INTO devices
     (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by) VALUES (?, ?, ?, ?, NULL, ?, ?)`);
   const oneRow = db.prepare('SELECT * FROM devices WHERE id = ?');
@@ -109,9 +109,8 @@ export function createDeviceRepository(db: Database.Database, secretKey: Buffer)
   const revokeRow = db.prepare(`UPDATE devices SET password_hash = ? WHERE id = ? AND password_hash NOT LIKE '${REVOKED_PREFIX}%'`);
   const setRelease = db.prepare('UPDATE devices SET assigned_release_id = ? WHERE id = ?');
   const insertAssignment = db.prepare(
-    'INSERT INTO assignments (device_id, release_id, cause, actor, created_at) VALUES (?, ?, ?, ?, ?)',
+    'INSERT INTO assignments (device_id, release_id, cause, actor, created_at) VALUES (?, ?, ?, ?, ?) RETURNING *',
   );
-  const assignmentById = db.prepare('SELECT * FROM assignments WHERE id = ?');
   const assignmentRows = db.prepare('SELECT * FROM assignments WHERE device_id = ? ORDER BY id');
 
   function get(id: string): DeviceRecord | null {
@@ -168,8 +167,7 @@ export function createDeviceRepository(db: Database.Database, secretKey: Buffer)
     },
     assign: function assign({ deviceId, releaseId, cause, actor, at }) {
       setRelease.run(releaseId, deviceId);
-      const { lastInsertRowid } = insertAssignment.run(deviceId, releaseId, cause, actor, at);
-      return toAssignment(assignmentById.get(lastInsertRowid) as AssignmentRow);
+      return toAssignment(insertAssignment.get(deviceId, releaseId, cause, actor, at) as AssignmentRow);
     },
     assignments: function assignments(deviceId) {
       return (assignmentRows.all(deviceId) as AssignmentRow[]).map(toAssignment);

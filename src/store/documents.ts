@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** Kinds kept with a version history. Profiles have their own table (revisions carry a report). */
 export type VersionedKind = 'device-class' | 'network' | 'task' | 'model';
@@ -45,7 +45,7 @@ export interface DocumentRepository {
   list<T>(kind: VersionedKind): DocumentRecord<T>[];
 }
 
-export function createDocumentRepository(db: Database.Database): DocumentRepository {
+export function createDocumentRepository(db: SqlConnection): DocumentRepository {
   const insert = db.prepare(
     'INSERT INTO documents (kind, id, version, body, created_at, created_by) VALUES (?, ?, ?, ?, ?, ?)',
   );

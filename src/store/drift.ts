@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import type { DriftEpisode, DriftQuantity } from '../schema/drift.js';
 
 export type { DriftQuantity };
@@ -42,14 +42,13 @@ export interface DriftRepository {
   list(filter?: { deviceId?: string; openOnly?: boolean; limit?: number }): DriftRecord[];
 }
 
-export function createDriftRepository(db: Database.Database): DriftRepository {
+export function createDriftRepository(db: SqlConnection): DriftRepository {
   const openRow = db.prepare('SELECT * FROM drift_events WHERE device_id = ? AND quantity = ? AND cleared_at IS NULL ORDER BY id DESC LIMIT 1');
   const insertRow = db.prepare(`INSERT INTO drift_events (device_id, device_class_id, quantity, onset_at, cleared_at, device_factor,
-      class_factor, deviation, tolerance) VALUES (?, ?, ?, ?, NULL, ?, ?, ?, ?)`);
+      class_factor, deviation, tolerance) VALUES (?, ?, ?, ?, NULL, ?, ?, ?, ?) RETURNING *`);
   const clearRow = db.prepare('UPDATE drift_events SET cleared_at = ? WHERE id = ? AND cleared_at IS NULL');
-  const listRows = db.prepare(`SELECT * FROM drift_events WHERE (@deviceId IS NULL OR device_id = @deviceId)
+  const listRows = db.prepare(`SELECT * FROM drift_events WHERE (CAST(@deviceId AS TEXT) IS NULL OR device_id = @deviceId)
       AND (@openOnly = 0 OR cleared_at IS NULL) ORDER BY id DESC LIMIT @limit`);
-  const oneRow = db.prepare('SELECT * FROM drift_events WHERE id = ?');
 
   return {
     open: function open(deviceId, quantity) {
@@ -57,8 +56,7 @@ export function createDriftRepository(db: Database.Database): DriftRepository {
       return row ? toRecord(row) : null;
     },
     onset: function onset(e) {
-      const { lastInsertRowid } = insertRow.run(e.deviceId, e.deviceClassId, e.quantity, e.onsetAt, e.deviceFactor, e.classFactor, e.deviation, e.tolerance);
-      return toRecord(oneRow.get(lastInsertRowid) as Row);
+      return toRecord(insertRow.get(e.deviceId, e.deviceClassId, e.quantity, e.onsetAt, e.deviceFactor, e.classFactor, e.deviation, e.tolerance) as Row);
     },
     clear: function clear(id, at) {
       clearRow.run(at, id);

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 /** A stored event as the fleet reads it: seq, device time and the event body. */
 export interface RangeEvent {
@@ -47,7 +47,7 @@ function toEvent(r: Row): RangeEvent {
  * the (type, device_id, seq) index. Times are compared as parsed instants, not as strings, so offsets
  * other than Z still order correctly.
  */
-export function createEventRangeReader(db: Database.Database): EventRangeReader {
+export function createEventRangeReader(db: SqlConnection): EventRangeReader {
   // Two queries, not MIN and MAX in one: SQLite answers a lone MIN or MAX from the index edge, both together by a scan.
   const lowest = db.prepare('SELECT seq, ts FROM device_events WHERE device_id = ? ORDER BY seq LIMIT 1');
   const highest = db.prepare('SELECT seq, ts FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1');

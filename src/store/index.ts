@@ -1,4 +1,4 @@
-export { openStore } from './store.js';
+export { openStore, isPostgresUrl } from './store.js';
 export type { Store, OpenStoreOptions } from './store.js';
 export { migrations, applyMigrations } from './migrations.js';
 export type { Migration } from './migrations.js';

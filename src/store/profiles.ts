@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import type { Report } from '../schema/report.js';
 
 /** The versions of the documents a revision was validated against. */
@@ -65,7 +65,7 @@ export interface ProfileRepository {
   list<P>(): ProfileRevision<P>[];
 }
 
-export function createProfileRepository(db: Database.Database): ProfileRepository {
+export function createProfileRepository(db: SqlConnection): ProfileRepository {
   const insert = db.prepare(`INSERT INTO profile_revisions
     (profile_id, revision, body, report, status, refs, created_at, created_by) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`);
   const latestRow = db.prepare('SELECT * FROM profile_revisions WHERE profile_id = ? ORDER BY revision DESC LIMIT 1');

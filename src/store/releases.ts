@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import { signedReleaseSchema, type SignedRelease, type SignedReleaseText } from '../protocol/release.js';
 
 /**
@@ -47,7 +47,7 @@ export interface ReleaseRepository {
 /** Readings kept per release id (a rollout reads its release for every batch); a bounded number, oldest dropped first. */
 const PARSED_CACHE_SIZE = 256;
 
-export function createReleaseRepository(db: Database.Database): ReleaseRepository {
+export function createReleaseRepository(db: SqlConnection): ReleaseRepository {
   const maxVersion = db.prepare('SELECT MAX(version) AS v FROM releases WHERE device_class_id = ?');
   const insertRow = db.prepare(
     'INSERT INTO releases (id, device_class_id, version, signed, created_at, created_by) VALUES (?, ?, ?, ?, ?, ?)',

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import { toDevice, type DeviceRow, type RolloutDeviceRecord } from './rollouts.js';
 
 /** A rollout device with what the bus bridge last stored about it: its retained state's summary and its highest event seq. */
@@ -47,7 +47,7 @@ function toOpen(r: JoinedRow): OpenRolloutDevice {
   };
 }
 
-export function createRolloutFactsRepository(db: Database.Database): RolloutFactsRepository {
+export function createRolloutFactsRepository(db: SqlConnection): RolloutFactsRepository {
   const stateRow = db.prepare('SELECT online, release_id FROM device_state WHERE device_id = ?');
   const stateOf = db.prepare('SELECT state FROM device_state WHERE device_id = ?').pluck();
   // One query for the whole wave: each open device with its retained state and its highest stored event seq.
@@ -58,8 +58,10 @@ export function createRolloutFactsRepository(db: Database.Database): RolloutFact
   // Times are stored as toISOString() writes them (fixed width, UTC), so they order as strings.
   const dueRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.wave = ? AND (rd.status = 'waiting'
       OR (rd.status = 'assigned' AND rd.assigned_at <= ?) OR (rd.status = 'applied' AND rd.applied_at <= ?)) ORDER BY rd.position`);
-  // Given devices by the primary key (rollout_id, device_id): one statement for a JSON array of ids.
-  const someRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id IN (SELECT value FROM json_each(?)) AND rd.wave = ?
+  // Given devices by the primary key (rollout_id, device_id): one statement for a JSON array of ids, read by each
+  // dialect's own table function (both name their column "value").
+  const idsOfJson = db.dialect === 'postgres' ? 'json_array_elements_text(?::json)' : 'json_each(?)';
+  const someRows = db.prepare(`${joined} WHERE rd.rollout_id = ? AND rd.device_id IN (SELECT value FROM ${idsOfJson}) AND rd.wave = ?
       AND rd.status IN ('waiting', 'assigned', 'applied')`);
   const eventsAfter = db.prepare(`SELECT type, event FROM device_events WHERE device_id = ? AND seq > ?
       AND type IN ('release-applied', 'release-refused', 'telemetry') ORDER BY seq`);

@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 
 export const ROLLOUT_STATUSES = ['running', 'paused', 'completed', 'aborted', 'rolling-back', 'rolled-back'] as const;
 export type RolloutStatus = (typeof ROLLOUT_STATUSES)[number];
@@ -160,7 +160,7 @@ export interface RolloutRepository {
   assignmentCounts(cause: string): Map<string, number>;
 }
 
-export function createRolloutRepository(db: Database.Database): RolloutRepository {
+export function createRolloutRepository(db: SqlConnection): RolloutRepository {
   const insertRollout = db.prepare(`INSERT INTO rollouts (id, release_id, device_class_id, status, spec, wave_count, current_wave,
       wave_started_at, pause_reason, created_at, created_by, updated_at) VALUES (?, ?, ?, 'running', ?, ?, 0, NULL, NULL, ?, ?, ?)`);
   const insertDevice = db.prepare(`INSERT INTO rollout_devices (rollout_id, device_id, wave, position, status) VALUES (?, ?, ?, ?, 'waiting')`);
@@ -170,7 +170,7 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
   const waveRows = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND wave = ? ORDER BY position');
   const countRows = db.prepare('SELECT status, COUNT(*) AS n FROM rollout_devices WHERE rollout_id = ? AND wave = ? GROUP BY status');
   const oneDevice = db.prepare('SELECT * FROM rollout_devices WHERE rollout_id = ? AND device_id = ?');
-  const holderOf = db.prepare(`SELECT d.rollout_id AS rolloutId FROM rollout_devices d JOIN rollouts r ON r.id = d.rollout_id
+  const holderOf = db.prepare(`SELECT d.rollout_id AS "rolloutId" FROM rollout_devices d JOIN rollouts r ON r.id = d.rollout_id
       WHERE d.device_id = ? AND r.status IN ('running', 'paused', 'rolling-back') AND r.id <> ?`);
   const setStatusRow = db.prepare('UPDATE rollouts SET status = ?, pause_reason = ?, updated_at = ? WHERE id = ?');
   const restoreRows = db.prepare('UPDATE rollout_devices SET restore_release_id = ? WHERE rollout_id = ? AND previous_release_id = ? AND rollback_status IS NULL');
@@ -186,7 +186,7 @@ export function createRolloutRepository(db: Database.Database): RolloutRepositor
   const rollbackRow = db.prepare(`UPDATE rollout_devices SET rollback_status = ?, rollback_assignment_id = ?
       WHERE rollout_id = ? AND device_id = ? AND rollback_status IS NULL`);
   const rollbackStatusRow = db.prepare('UPDATE rollout_devices SET rollback_status = ? WHERE rollout_id = ? AND device_id = ?');
-  const countsRows = db.prepare('SELECT device_id AS deviceId, COUNT(*) AS n FROM assignments WHERE cause = ? GROUP BY device_id');
+  const countsRows = db.prepare('SELECT device_id AS "deviceId", COUNT(*) AS n FROM assignments WHERE cause = ? GROUP BY device_id');
 
   function get(id: string): RolloutRecord | null {
     const row = oneRollout.get(id) as RolloutRow | undefined;

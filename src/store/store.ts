@@ -16,7 +16,9 @@ import { createProfileRepository, type ProfileRepository } from './profiles.js';
 import { createReleaseRepository, type ReleaseRepository } from './releases.js';
 import { createRolloutFactsRepository, type RolloutFactsRepository } from './rollout-facts.js';
 import { createRolloutRepository, type RolloutRepository } from './rollouts.js';
-import { registerSqliteHandle } from './sqlite-handle.js';
+import { openPgSyncConnection } from './pg-sync-connection.js';
+import { sqliteConnection, type SqlConnection } from './sql-connection.js';
+import { registerSqlHandle } from './sqlite-handle.js';
 import { createTokenRepository, type TokenRepository } from './tokens.js';
 
 /** What a savepoint gave back: the function's value, or the error it threw (its writes undone). */
@@ -24,7 +26,10 @@ export type Attempt<T> = { ok: true; value: T } | { ok: false; error: unknown };
 
 export interface Store {
   readonly dataDir: string;
-  /** Where the database lives (for SQLite the file path), for a second connection such as the event writer's. */
+  /**
+   * Where the database lives, for a second connection such as the event writer's: the SQLite file path, or the
+   * PostgreSQL URL as given (it may hold a password: never log it).
+   */
   readonly location: string;
   readonly documents: DocumentRepository;
   readonly profiles: ProfileRepository;
@@ -64,12 +69,20 @@ export interface OpenStoreOptions {
   migrations?: readonly Migration[];
   /** How long a writer waits for another connection's lock before failing, in milliseconds. */
   busyTimeoutMs?: number;
+  /**
+   * A postgres:// (or postgresql://) URL: the store lives in that PostgreSQL database instead of
+   * `<dataDir>/ocellus.db`. The data folder still holds the keys and the weights blobs.
+   */
+  databaseUrl?: string;
+}
+
+/** True for a URL openStore reads as a PostgreSQL database. */
+export function isPostgresUrl(location: string): boolean {
+  return /^postgres(ql)?:\/\//i.test(location);
 }
 
 /** Opens (creating when needed) `<dataDir>/ocellus.db` in WAL mode with foreign keys on, and migrates it. */
-export function openStore(dataDir: string, options: OpenStoreOptions = {}): Store {
-  // Only the server's user reads the data: the database holds credentials' hashes and device reports.
-  mkdirSync(dataDir, { recursive: true, mode: 0o700 });
+function openSqlite(dataDir: string, options: OpenStoreOptions): { conn: SqlConnection; raw: Database.Database } {
   const dbPath = join(dataDir, 'ocellus.db');
   // Created (or tightened) 0600 before SQLite opens it; SQLite gives the -wal and -shm files the database's mode.
   closeSync(openSync(dbPath, 'a', 0o600));
@@ -81,20 +94,62 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     db.pragma(`busy_timeout = ${Math.max(0, Math.floor(options.busyTimeoutMs ?? 5000))}`);
     // With WAL, NORMAL keeps the database consistent after a crash and loses at most the last commits on power loss.
     db.pragma('synchronous = NORMAL');
+  } catch (e) {
+    db.close();
+    throw e;
+  }
+  return { conn: sqliteConnection(db), raw: db };
+}
+
+/**
+ * Opens the PostgreSQL database at `url` on one connection. Text must order as in SQLite (by code point), so a
+ * database whose default collation is not C (or C.UTF-8 / POSIX) is refused: its ORDER BY on ids would differ.
+ */
+function openPostgres(url: string, options: OpenStoreOptions): SqlConnection {
+  const conn = openPgSyncConnection({ url, ...(options.busyTimeoutMs !== undefined ? { statementTimeoutMs: Math.max(1000, options.busyTimeoutMs * 6) } : {}) });
+  try {
+    // to_jsonb reads the ICU columns where they exist (PostgreSQL 15+) and gives null on older servers.
+    const db = conn.prepare(`SELECT datcollate AS collate, to_jsonb(d) ->> 'datlocprovider' AS provider, to_jsonb(d) ->> 'daticulocale' AS icu
+      FROM pg_database d WHERE datname = current_database()`).get() as { collate: string; provider: string | null; icu: string | null };
+    const collation = db.provider === 'i' ? `ICU ${db.icu ?? '(unknown)'}` : db.collate;
+    if (db.provider === 'i' || !/^(C|POSIX|C\.UTF-?8)$/i.test(db.collate)) {
+      throw new Error(`the PostgreSQL database at ${conn.location} sorts text by collation ${collation}; Ocellus needs C or C.UTF-8 (create it with: CREATE DATABASE … TEMPLATE template0 LC_COLLATE 'C' LC_CTYPE 'C')`);
+    }
+  } catch (e) {
+    conn.close();
+    throw e;
+  }
+  return conn;
+}
+
+/**
+ * Opens the store and migrates it: a SQLite file in the data folder (the default), or the PostgreSQL database
+ * of `options.databaseUrl`. Either way the data folder is created 0700 and holds the device secret key.
+ */
+export function openStore(dataDir: string, options: OpenStoreOptions = {}): Store {
+  // Only the server's user reads the data: the database holds credentials' hashes and device reports.
+  mkdirSync(dataDir, { recursive: true, mode: 0o700 });
+  const url = options.databaseUrl;
+  if (url !== undefined && !isPostgresUrl(url)) throw new Error(`--database expects a postgres:// or postgresql:// URL, got ${JSON.stringify(url.slice(0, 40))}`);
+  const sqlite = url === undefined ? openSqlite(dataDir, options) : null;
+  const db = sqlite ? sqlite.conn : openPostgres(url!, options);
+  try {
     applyMigrations(db, options.migrations ?? defaultMigrations);
   } catch (e) {
     db.close();
     throw e;
   }
   const devices = createDeviceRepository(db, loadOrCreateDeviceSecretKey(dataDir));
-  const hasTableStmt = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?");
+  const hasTableStmt = db.dialect === 'postgres'
+    ? db.prepare("SELECT 1 FROM information_schema.tables WHERE table_schema = current_schema() AND table_name = ?")
+    : db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?");
   // Prepared once: cheaper than a nested transaction per item of a large batch.
   const savepoint = { begin: db.prepare('SAVEPOINT store_attempt'), release: db.prepare('RELEASE store_attempt'), undo: db.prepare('ROLLBACK TO store_attempt') };
   const has = (name: string) => hasTableStmt.get(name) !== undefined;
 
   const store: Store = {
     dataDir,
-    location: db.name,
+    location: url ?? db.location,
     documents: createDocumentRepository(db),
     profiles: createProfileRepository(db),
     releases: createReleaseRepository(db),
@@ -110,9 +165,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     rolloutFacts: createRolloutFactsRepository(db),
     drift: createDriftRepository(db),
     transaction: function transaction<T>(fn: () => T): T {
-      // IMMEDIATE takes the write lock at BEGIN, where busy_timeout lets it wait for the event writer's connection;
-      // a deferred transaction that reads and then writes cannot wait (SQLite returns SQLITE_BUSY at once).
-      return db.transaction(fn).immediate();
+      return db.transaction(fn);
     },
     verifyDeviceCredentials: function verifyDeviceCredentials(deviceId, password) {
       return devices.verifyCredentials(deviceId, password);
@@ -134,12 +187,12 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     },
     hasTable: has,
     isOpen: function isOpen() {
-      return db.open;
+      return db.isOpen();
     },
     close: function close() {
-      if (db.open) db.close();
+      db.close();
     },
   };
-  registerSqliteHandle(store, db);
+  registerSqlHandle(store, db, sqlite?.raw);
   return store;
 }

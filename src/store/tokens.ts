@@ -1,4 +1,4 @@
-import type Database from 'better-sqlite3';
+import type { SqlConnection } from './sql-connection.js';
 import { hashToken, newToken } from './credentials.js';
 
 export const ROLES = ['viewer', 'engineer', 'operator', 'admin'] as const;
@@ -41,8 +41,8 @@ export interface TokenRepository {
   exists(secret: string): boolean;
 }
 
-export function createTokenRepository(db: Database.Database): TokenRepository {
-  const insertRow = db.prepare('INSERT INTO tokens (hash, role, label, created_at, created_by) VALUES (?, ?, ?, ?, ?)');
+export function createTokenRepository(db: SqlConnection): TokenRepository {
+  const insertRow = db.prepare('INSERT INTO tokens (hash, role, label, created_at, created_by) VALUES (?, ?, ?, ?, ?) RETURNING id').pluck();
   const byHash = db.prepare('SELECT * FROM tokens WHERE hash = ?');
   const byId = db.prepare('SELECT * FROM tokens WHERE id = ?');
   const allRows = db.prepare('SELECT * FROM tokens ORDER BY id');
@@ -56,8 +56,8 @@ export function createTokenRepository(db: Database.Database): TokenRepository {
 
   return {
     create: function create({ role, label, actor, at, secret = newToken() }) {
-      const { lastInsertRowid } = insertRow.run(hashToken(secret), role, label, at, actor);
-      return { token: get(Number(lastInsertRowid))!, secret };
+      const id = insertRow.get(hashToken(secret), role, label, at, actor) as number;
+      return { token: get(id)!, secret };
     },
     authenticate: function authenticate(secret) {
       const row = byHash.get(hashToken(secret)) as Row | undefined;

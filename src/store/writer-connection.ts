@@ -3,6 +3,8 @@ import { createDeviceConnectionRepository, type DeviceConnectionRepository } fro
 import { createDeviceEventEpochRepository, type DeviceEventEpochRepository } from './device-event-epochs.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
+import { openPgSyncConnection } from './pg-sync-connection.js';
+import { sqliteConnection, type SqlConnection } from './sql-connection.js';
 
 /** The repositories an event writer needs, on a connection of its own. */
 export interface EventWriterStore {
@@ -15,26 +17,43 @@ export interface EventWriterStore {
 }
 
 /**
- * A second connection to the server's (already migrated) database for the event writer, with the
- * store's settings (WAL, foreign keys, a busy timeout for the moments the main connection writes) except
- * synchronous = FULL. Its commits precede the acks that let devices drop their events, so each must be on
+ * A second connection to the server's (already migrated) database for the event writer. `location` is the
+ * store's: a SQLite file or a postgres:// URL.
+ *
+ * SQLite: the store's settings (WAL, foreign keys, a busy timeout for the moments the main connection writes)
+ * except synchronous = FULL. Its commits precede the acks that let devices drop their events, so each must be on
  * disk before the ack: in WAL mode NORMAL survives a crash of the process but may lose the last commits on a
  * power cut, while FULL syncs the WAL at every commit (SQLite documentation, "PRAGMA synchronous").
+ *
+ * PostgreSQL: a connection of its own with synchronous_commit on (the server's default: COMMIT returns after
+ * the WAL is flushed), so the same holds. Each device's events of a batch go in one multi-row INSERT … ON
+ * CONFLICT DO NOTHING; the writer runs on its own thread, so waiting for each statement stops only that thread.
  */
 export function openEventWriterStore(location: string, busyTimeoutMs: number): EventWriterStore {
+  const conn = /^postgres(ql)?:\/\//i.test(location) ? openPostgresWriter(location, busyTimeoutMs) : openSqliteWriter(location, busyTimeoutMs);
+  return {
+    deviceEvents: createDeviceEventRepository(conn),
+    deviceEventEpochs: createDeviceEventEpochRepository(conn),
+    deviceStates: createDeviceStateRepository(conn),
+    deviceConnections: createDeviceConnectionRepository(conn),
+    transaction: <T>(fn: () => T): T => conn.transaction(fn),
+    close: () => conn.close(),
+  };
+}
+
+function openSqliteWriter(location: string, busyTimeoutMs: number): SqlConnection {
   const db = new Database(location, { fileMustExist: true });
   db.pragma('journal_mode = WAL');
   db.pragma('foreign_keys = ON');
   db.pragma(`busy_timeout = ${Math.max(0, Math.floor(busyTimeoutMs))}`);
   db.pragma('synchronous = FULL');
-  return {
-    deviceEvents: createDeviceEventRepository(db),
-    deviceEventEpochs: createDeviceEventEpochRepository(db),
-    deviceStates: createDeviceStateRepository(db),
-    deviceConnections: createDeviceConnectionRepository(db),
-    transaction: <T>(fn: () => T): T => db.transaction(fn)(),
-    close: () => {
-      if (db.open) db.close();
-    },
-  };
+  const conn = sqliteConnection(db);
+  // The writer's transactions are deferred: it only writes, so it takes the lock at its first insert.
+  return { ...conn, transaction: <T>(fn: () => T): T => db.transaction(fn)(), get inTransaction() { return db.inTransaction; } };
+}
+
+function openPostgresWriter(url: string, busyTimeoutMs: number): SqlConnection {
+  const conn = openPgSyncConnection({ url, applicationName: 'ocellus-event-writer', statementTimeoutMs: Math.max(1000, busyTimeoutMs * 6) });
+  conn.exec('SET synchronous_commit = on');
+  return conn;
 }

@@ -5,40 +5,13 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { signedReleaseText } from '../../src/protocol/release.js';
 import { downloadWithResume, OversizeError } from '../../device-agent/weights-fetch.js';
-import { demoRelease, demoTask, demoWeights, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
-import { agentConfig, startAgent, startBusRig, startWeightsServer, type AgentRig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
+import { demoRelease, sign, tempDir, waitFor } from '../support/agent-fixtures.js';
+import { agentSuite } from '../support/agent-suite.js';
+import type { AgentConfig } from '../../device-agent/config.js';
 
-const rows = demoWeights('hard rows-net');
-const leaves = demoWeights('hard leaf-net');
-const tasks = { rows: demoTask('rows-net', rows, 0.5, 4), leaves: demoTask('leaf-net', leaves, 0.25, 2.8) };
-
-let bus: BusRig;
-let web: WeightsServer;
-const dirs: Array<{ remove(): void }> = [];
-const agents: AgentRig[] = [];
-
-beforeAll(async () => {
-  bus = await startBusRig();
-  web = await startWeightsServer();
-  web.files.set('/api/v1/models/rows-net/weights', rows.bytes);
-  web.files.set('/api/v1/models/leaf-net/weights', leaves.bytes);
-});
-afterAll(async () => {
-  for (const a of agents) await a.agent.stop().catch(() => {});
-  await web.close();
-  await bus.close();
-  for (const d of dirs) d.remove();
-});
-
-async function newAgent(label: string, dataDir?: string, extra = {}) {
-  const id = uniqueDeviceId(label);
-  const dir = tempDir(label);
-  dirs.push(dir);
-  const rig = await startAgent(agentConfig(id, bus.enrol(id), bus.brokerUrl, web.url, dataDir ?? dir.path, extra));
-  agents.push(rig);
-  await waitFor(() => rig.agent.connected(), 'agent connected');
-  return { id, rig };
-}
+const suite = agentSuite({ rows: 'hard rows-net', leaves: 'hard leaf-net' });
+const { leaves, tasks } = suite;
+const newAgent = (label: string, dataDir?: string, extra: Partial<AgentConfig> = {}) => suite.newAgent(label, { ...(dataDir !== undefined ? { dataDir } : {}), extra });
 
 /** A raw HTTP request to the control endpoint, with whatever headers a browser or a rebound page would send. */
 function rawControl(port: number, method: string, path: string, headers: Record<string, string>, body?: string): Promise<{ status: number; body: { ok: boolean; error?: string } }> {
@@ -56,7 +29,7 @@ function rawControl(port: number, method: string, path: string, headers: Record<
 describe('local control endpoint', () => {
   it('refuses any Origin, a foreign Host and a body that is not application/json; takes a local JSON request', async () => {
     const { id, rig } = await newAgent('ctl');
-    await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-ctl1', 1, tasks))));
+    await suite.bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-ctl1', 1, tasks))));
     await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
     const ep = rig.agent.controlEndpoint();
     if (ep?.kind !== 'tcp') throw new Error('expected the TCP endpoint the test asked for');
@@ -76,12 +49,12 @@ describe('local control endpoint', () => {
     const local = await rawControl(ep.port, 'POST', '/task', { host: `localhost:${ep.port}`, 'content-type': 'application/json; charset=utf-8' }, body);
     expect(local).toMatchObject({ status: 200, body: { ok: true } });
     expect(rig.agent.state().activeTask).toBe('leaves');
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('answers 404 for task names that are properties of every object (constructor, __proto__), not 500', async () => {
     const { id, rig } = await newAgent('proto');
-    await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-pr1', 1, tasks))));
+    await suite.bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-pr1', 1, tasks))));
     await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
     const ep = rig.agent.controlEndpoint();
     if (ep?.kind !== 'tcp') throw new Error('expected the TCP endpoint the test asked for');
@@ -91,12 +64,11 @@ describe('local control endpoint', () => {
       expect(r.body.error).toContain(`task ${task} is not in release rel-pr1`);
     }
     expect(rig.agent.state().activeTask).toBe('rows');
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('listens on a Unix socket with mode 0600 by default', async () => {
-    const dir = tempDir('sock');
-    dirs.push(dir);
+    const dir = suite.dir('sock');
     const { rig } = await newAgent('sock', dir.path, { controlPort: undefined });
     const ep = rig.agent.controlEndpoint();
     expect(ep).toEqual({ kind: 'unix', socketPath: join(dir.path, 'control.sock') });
@@ -120,8 +92,7 @@ describe('weights downloads stop at the declared size', () => {
   afterAll(() => new Promise<void>((r) => server.close(() => r())));
 
   it('never writes more than the release declares, even when the server sends more', async () => {
-    const dir = tempDir('oversize');
-    dirs.push(dir);
+    const dir = suite.dir('oversize');
     const partPath = join(dir.path, 'w.part');
     await expect(
       downloadWithResume({ url: `http://127.0.0.1:${port}/w`, username: 'd', password: 'p', partPath, expectedBytes: 50_000 }),
@@ -170,12 +141,12 @@ describe.skipIf(!mounted)('agent on a full disk (a real 1 MiB tmpfs; skipped whe
   it('keeps running and sending events with the disk full, flags it in state, saves the last task once there is room, and restarts on a full disk into it', async () => {
     const dataDir = join(mountPoint, 'agent');
     const { id, rig } = await newAgent('full', dataDir, { telemetryIntervalS: 0.05 });
-    await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-full1', 1, tasks))));
+    await suite.bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease('rel-full1', 1, tasks))));
     await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
     const filler = fill(mountPoint);
     // Telemetry keeps coming (it crashed the agent before); the events wait in memory and still reach the server.
     await waitFor(() => rig.agent.state().storageFault?.startsWith('event log'), 'storage fault flagged in state');
-    await waitFor(() => bus.bridge.deviceStates.get(id) && (bus.bridge.deviceStates.get(id)!.state as { storageFault?: string | null }).storageFault, 'fault reaches the server');
+    await waitFor(() => suite.bus.bridge.deviceStates.get(id) && (suite.bus.bridge.deviceStates.get(id)!.state as { storageFault?: string | null }).storageFault, 'fault reaches the server');
     expect((await rig.agent.setTask('leaves')).ok).toBe(true);
     expect(rig.driver.hardware().weightsSha256).toBe(leaves.sha256);
     // The server stores and acknowledges the events kept in memory, the switch among them.
@@ -189,18 +160,16 @@ describe.skipIf(!mounted)('agent on a full disk (a real 1 MiB tmpfs; skipped whe
     expect(JSON.parse(readFileSync(join(dataDir, 'active-task.json'), 'utf8'))).toEqual({ releaseId: 'rel-full1', task: 'leaves' });
     // Full again, stopped, a torn last line and a temporary file left behind: it starts anyway, into the last task.
     await rig.agent.stop();
-    agents.splice(agents.indexOf(rig), 1);
     appendFileSync(join(dataDir, 'events.log'), '{"seq":99999,"ts":"2025-01');
     writeFileSync(join(dataDir, 'applied-release.json.tmp-4242'), 'half a release');
     const filler2 = fill(mountPoint);
-    const again = await startAgent({ ...rig.config });
-    agents.push(again);
+    const again = await suite.startAgent({ ...rig.config });
     await waitFor(() => again.agent.state().activeTask === 'leaves', 'restarted into the last task on a full disk');
     expect(again.agent.state().releaseId).toBe('rel-full1');
     expect(existsSync(join(dataDir, 'applied-release.json.tmp-4242'))).toBe(false);
     expect(readFileSync(join(dataDir, 'events.log'), 'utf8')).not.toContain('"seq":99999');
     rmSync(filler2);
     await waitFor(() => again.agent.state().storageFault === null, 'room again after the restart', 20_000);
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 });

@@ -1,84 +1,53 @@
 import { existsSync, mkdirSync, readdirSync, utimesSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { generateSigningKeyPair, signatureDigest, signKeyRotation, signRelease, type SignedRelease } from '../../src/protocol/index.js';
-import { demoDeviceClass, demoRelease, demoTask, demoWeights, keys, legacyRelease, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
-import { agentConfig, startAgent, startBusRig, startWeightsServer, type AgentRig, type BusRig, type WeightsServer } from '../support/agent-rig.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { demoDeviceClass, demoRelease, demoTask, demoWeights, keys, legacyRelease, sign, waitFor } from '../support/agent-fixtures.js';
+import { agentSuite, type AgentFailure } from '../support/agent-suite.js';
+import type { AgentConfig } from '../../device-agent/config.js';
 
-const rows = demoWeights('rows-net v1');
-const leaves = demoWeights('leaf-net v1');
+const suite = agentSuite({ rows: 'rows-net v1', leaves: 'leaf-net v1' });
+const { rows, leaves, tasks } = suite;
 const rowsV2 = demoWeights('rows-net v2');
-const tasks = { rows: demoTask('rows-net', rows, 0.5, 4), leaves: demoTask('leaf-net', leaves, 0.25, 2.8) };
-
-let bus: BusRig;
-let web: WeightsServer;
-const dirs: Array<{ remove(): void }> = [];
-const agents: AgentRig[] = [];
-
-beforeAll(async () => {
-  bus = await startBusRig();
-  web = await startWeightsServer();
-  web.files.set('/api/v1/models/rows-net/weights', rows.bytes);
-  web.files.set('/api/v1/models/leaf-net/weights', leaves.bytes);
-});
-afterAll(async () => {
-  for (const a of agents) await a.agent.stop();
-  await web.close();
-  await bus.close();
-  for (const d of dirs) d.remove();
-});
-
-async function newAgent(label: string, failure?: Parameters<typeof startAgent>[1], extra = {}) {
-  const id = uniqueDeviceId(label);
-  const dir = tempDir(label);
-  dirs.push(dir);
-  const rig = await startAgent(agentConfig(id, bus.enrol(id), bus.brokerUrl, web.url, dir.path, extra), failure);
-  agents.push(rig);
-  await waitFor(() => rig.agent.connected(), 'agent connected');
-  return { id, rig };
-}
-
-const storedTypes = (id: string) => sqliteHandle(bus.store).prepare('SELECT type FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(id) as string[];
-const storedEvents = (id: string, type: string) =>
-  (sqliteHandle(bus.store).prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e));
+const newAgent = (label: string, failure?: AgentFailure, extra: Partial<AgentConfig> = {}) =>
+  suite.newAgent(label, { ...(failure !== undefined ? { failure } : {}), extra });
 
 async function assign(id: string, signed: SignedRelease | unknown) {
-  await bus.bridge.publishRelease(id, { raw: JSON.stringify(signed), parsed: signed as SignedRelease });
+  await suite.bus.bridge.publishRelease(id, { raw: JSON.stringify(signed), parsed: signed as SignedRelease });
 }
 
 describe('agent and releases (embedded broker, real HTTP weights server)', () => {
   it('fetches the weights, verifies them, applies the release and reports it in state and events', async () => {
     const { id, rig } = await newAgent('apply');
     await assign(id, sign(demoRelease('rel-a1', 1, tasks)));
-    await waitFor(() => bus.bridge.deviceStates.get(id)?.releaseId === 'rel-a1', 'server sees rel-a1 in state');
-    expect(bus.bridge.deviceStates.get(id)).toMatchObject({ online: true, releaseId: 'rel-a1', releaseVersion: 1, activeTask: 'rows' });
+    await waitFor(() => suite.bus.bridge.deviceStates.get(id)?.releaseId === 'rel-a1', 'server sees rel-a1 in state');
+    expect(suite.bus.bridge.deviceStates.get(id)).toMatchObject({ online: true, releaseId: 'rel-a1', releaseVersion: 1, activeTask: 'rows' });
     expect(rig.driver.hardware()).toMatchObject({ weightsSha256: rows.sha256, camera: { focusDistanceM: 0.5, fNumber: 4 } });
-    expect(web.requests.filter((r) => r.user === id).map((r) => r.path).sort()).toEqual(['/api/v1/models/leaf-net/weights', '/api/v1/models/rows-net/weights']);
-    await waitFor(() => storedTypes(id).includes('task-switched'), 'task-switched stored');
-    expect(storedTypes(id)).toEqual(['agent-started', 'release-applied', 'task-switched']);
-    expect(storedEvents(id, 'task-switched')[0]).toMatchObject({ toTask: 'rows', reason: 'release', releaseId: 'rel-a1' });
+    expect(suite.web.requests.filter((r) => r.user === id).map((r) => r.path).sort()).toEqual(['/api/v1/models/leaf-net/weights', '/api/v1/models/rows-net/weights']);
+    await waitFor(() => suite.storedTypes(id).includes('task-switched'), 'task-switched stored');
+    expect(suite.storedTypes(id)).toEqual(['agent-started', 'release-applied', 'task-switched']);
+    expect(suite.storedEvents(id, 'task-switched')[0]).toMatchObject({ toTask: 'rows', reason: 'release', releaseId: 'rel-a1' });
     // Switching to the other task needs nothing from the network.
     const r = await rig.agent.setTask('leaves');
     expect(r).toMatchObject({ ok: true, task: 'leaves' });
     expect(rig.driver.hardware()).toMatchObject({ weightsSha256: leaves.sha256, camera: { focusDistanceM: 0.25, fNumber: 2.8 } });
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('switches task on an operator command (QoS 1, run once per command id) and reports telemetry', async () => {
     const { id, rig } = await newAgent('cmd', undefined, { telemetryIntervalS: 0.05 });
     await assign(id, sign(demoRelease('rel-c0', 1, tasks)));
     await waitFor(() => rig.agent.state().activeTask === 'rows', 'rows running');
-    await bus.bridge.publishCommand(id, { type: 'set-task', task: 'leaves' }, 'operator (test)');
+    await suite.bus.bridge.publishCommand(id, { type: 'set-task', task: 'leaves' }, 'operator (test)');
     await waitFor(() => rig.agent.state().activeTask === 'leaves', 'switched by command');
-    await waitFor(() => storedEvents(id, 'task-switched').some((e) => e.reason === 'command'), 'command switch stored');
-    expect(storedEvents(id, 'task-switched').find((e) => e.reason === 'command')).toMatchObject({ fromTask: 'rows', toTask: 'leaves' });
-    await bus.bridge.publishCommand(id, { type: 'set-task', task: 'no-such-task' }, 'operator (test)');
-    await waitFor(() => storedEvents(id, 'switch-failed').length === 1, 'unknown task reported');
-    expect(storedEvents(id, 'switch-failed')[0]).toMatchObject({ toTask: 'no-such-task', step: 'select-task', restored: true });
-    await waitFor(() => storedEvents(id, 'telemetry').length > 0, 'telemetry stored');
-    expect(storedEvents(id, 'telemetry').at(-1)).toMatchObject({ task: 'leaves', profileId: 'leaf-net-profile', releaseId: 'rel-c0' });
-    await bus.bridge.clearRelease(id);
+    await waitFor(() => suite.storedEvents(id, 'task-switched').some((e) => e.reason === 'command'), 'command switch stored');
+    expect(suite.storedEvents(id, 'task-switched').find((e) => e.reason === 'command')).toMatchObject({ fromTask: 'rows', toTask: 'leaves' });
+    await suite.bus.bridge.publishCommand(id, { type: 'set-task', task: 'no-such-task' }, 'operator (test)');
+    await waitFor(() => suite.storedEvents(id, 'switch-failed').length === 1, 'unknown task reported');
+    expect(suite.storedEvents(id, 'switch-failed')[0]).toMatchObject({ toTask: 'no-such-task', step: 'select-task', restored: true });
+    await waitFor(() => suite.storedEvents(id, 'telemetry').length > 0, 'telemetry stored');
+    expect(suite.storedEvents(id, 'telemetry').at(-1)).toMatchObject({ task: 'leaves', profileId: 'leaf-net-profile', releaseId: 'rel-c0' });
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('refuses a tampered and a forged release with the reason, and keeps running the old one', async () => {
@@ -94,19 +63,19 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await assign(id, signRelease(demoRelease('rel-t3', 3, tasks), stranger.privateKeyPem, stranger.publicKeyPem));
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-t3', 'forged release refused');
     expect(rig.agent.state().refused?.reason).toMatch(/^unknown-key/);
-    await bus.serverClient.publishAsync(`ocellus/v1/dev/${id}/release`, '{"release": {"id": "rel-t4"', { qos: 1, retain: true });
+    await suite.bus.serverClient.publishAsync(`ocellus/v1/dev/${id}/release`, '{"release": {"id": "rel-t4"', { qos: 1, retain: true });
     await waitFor(() => rig.agent.state().refused?.reason.startsWith('malformed-json'), 'unreadable release refused');
     expect(rig.agent.state()).toMatchObject({ releaseId: 'rel-t1', activeTask: 'rows', refused: { releaseId: null } });
-    await waitFor(() => storedEvents(id, 'release-refused').length === 3, 'refusals reach the server');
-    expect(storedEvents(id, 'release-refused').map((e) => e.releaseId)).toEqual(['rel-t2', 'rel-t3', null]);
-    await bus.bridge.clearRelease(id);
+    await waitFor(() => suite.storedEvents(id, 'release-refused').length === 3, 'refusals reach the server');
+    expect(suite.storedEvents(id, 'release-refused').map((e) => e.releaseId)).toEqual(['rel-t2', 'rel-t3', null]);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('reports weights that do not match their sha256, keeps the old profile, and fetches again instead of remembering a refusal', async () => {
     const { id, rig } = await newAgent('hash');
     await assign(id, sign(demoRelease('rel-h1', 1, tasks)));
     await waitFor(() => rig.agent.state().releaseId === 'rel-h1', 'rel-h1 applied');
-    web.files.set('/api/v1/models/rows-net-v2/weights', demoWeights('something else').bytes);
+    suite.web.files.set('/api/v1/models/rows-net-v2/weights', demoWeights('something else').bytes);
     const v2 = { ...tasks, rows: { ...demoTask('rows-net-v2', rowsV2, 0.6, 5.6) } };
     await assign(id, sign(demoRelease('rel-h2', 2, v2)));
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-h2', 'bad weights reported');
@@ -116,26 +85,26 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     expect(rig.driver.hardware().weightsSha256).toBe(rows.sha256);
     expect(existsSync(join(rig.dataDir, 'weights', rowsV2.sha256))).toBe(false);
     // The server gets the right file: the next try applies the release, without a restart or a new assignment.
-    web.files.set('/api/v1/models/rows-net-v2/weights', rowsV2.bytes);
+    suite.web.files.set('/api/v1/models/rows-net-v2/weights', rowsV2.bytes);
     await waitFor(() => rig.agent.state().releaseId === 'rel-h2', 'rel-h2 applied on a later try', 20_000);
     expect(rig.agent.state().refused).toBeNull();
     expect(rig.driver.hardware().weightsSha256).toBe(rowsV2.sha256);
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('fetches weights by hash, even for a release made before weights were named by hash, after the model got new weights', async () => {
     const { id, rig } = await newAgent('legacy');
     const old = demoWeights('legacy-net v1');
     // The model's latest weights are new ones; the old release still needs the old file, which the server keeps by hash.
-    web.files.set('/api/v1/models/legacy-net/weights', demoWeights('legacy-net v2').bytes);
-    web.bySha.set(old.sha256, old.bytes);
+    suite.web.files.set('/api/v1/models/legacy-net/weights', demoWeights('legacy-net v2').bytes);
+    suite.web.bySha.set(old.sha256, old.bytes);
     const legacy = legacyRelease('rel-l1', 1, { rows: demoTask('legacy-net', old, 0.5, 4) });
     expect(legacy.tasks.rows!.model.weightsPath).toBe('/api/v1/models/legacy-net/weights');
     await assign(id, sign(legacy));
     await waitFor(() => rig.agent.state().releaseId === 'rel-l1', 'legacy release applied');
     expect(rig.driver.hardware().weightsSha256).toBe(old.sha256);
-    expect(web.requests.filter((r) => r.user === id).map((r) => r.sha256)).toEqual([old.sha256]);
-    await bus.bridge.clearRelease(id);
+    expect(suite.web.requests.filter((r) => r.user === id).map((r) => r.sha256)).toEqual([old.sha256]);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('refuses a replayed older release with its reason, also after a restart, and takes old content back only as a re-issue with a higher sequence', async () => {
@@ -147,18 +116,17 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-p1', 'replayed v1 refused');
     expect(rig.agent.state().refused?.reason).toMatch(/^older-sequence: .*sequence 1, below the 2/);
     expect(rig.agent.state()).toMatchObject({ releaseId: 'rel-p2', pending: null });
-    await waitFor(() => storedEvents(id, 'release-refused').some((e) => e.releaseId === 'rel-p1'), 'refusal stored');
-    expect(storedEvents(id, 'release-refused').find((e) => e.releaseId === 'rel-p1').reason).toMatch(/^older-sequence/);
+    await waitFor(() => suite.storedEvents(id, 'release-refused').some((e) => e.releaseId === 'rel-p1'), 'refusal stored');
+    expect(suite.storedEvents(id, 'release-refused').find((e) => e.releaseId === 'rel-p1').reason).toMatch(/^older-sequence/);
     // The highest sequence survives a restart of the agent.
     await rig.agent.stop();
-    const again = await startAgent({ ...rig.config });
-    agents.push(again);
+    const again = await suite.startAgent({ ...rig.config });
     await waitFor(() => again.agent.state().refused?.releaseId === 'rel-p1', 'v1 refused after the restart too');
     expect(again.agent.state().releaseId).toBe('rel-p2');
     await assign(id, sign(demoRelease('rel-p3', 3, tasks, { reissueOf: { releaseId: 'rel-p1', version: 1 } })));
     await waitFor(() => again.agent.state().releaseId === 'rel-p3', 're-issue of v1 applied');
     expect(again.driver.hardware()).toMatchObject({ weightsSha256: rows.sha256, camera: { focusDistanceM: 0.5 } });
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('tells releases apart by signature digest: a redelivery changes nothing, a reused sequence with other content is refused', async () => {
@@ -167,16 +135,16 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await assign(id, first);
     await waitFor(() => rig.agent.state().releaseId === 'rel-g2', 'rel-g2 applied');
     expect(rig.agent.state().releaseDigest).toBe(signatureDigest(first.signature));
-    await waitFor(() => (bus.bridge.deviceStates.get(id)?.state as { releaseDigest?: string } | undefined)?.releaseDigest === signatureDigest(first.signature), 'digest in the state the server holds');
+    await waitFor(() => (suite.bus.bridge.deviceStates.get(id)?.state as { releaseDigest?: string } | undefined)?.releaseDigest === signatureDigest(first.signature), 'digest in the state the server holds');
     await assign(id, JSON.parse(JSON.stringify(first)));
     const changed = demoRelease('rel-g2', 2, { ...tasks, rows: demoTask('rows-net', rows, 0.9, 8) });
     await assign(id, sign(changed));
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-g2', 'same id, other content refused');
     expect(rig.agent.state().refused?.reason).toMatch(/^sequence-reused/);
     expect(rig.driver.hardware().camera).toMatchObject({ focusDistanceM: 0.5, fNumber: 4 });
-    await waitFor(() => storedEvents(id, 'release-refused').length === 1, 'refusal stored');
-    expect(storedEvents(id, 'release-applied')).toHaveLength(1);
-    await bus.bridge.clearRelease(id);
+    await waitFor(() => suite.storedEvents(id, 'release-refused').length === 1, 'refusal stored');
+    expect(suite.storedEvents(id, 'release-applied')).toHaveLength(1);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('refuses an expired release and one whose signed audience lists other devices', async () => {
@@ -190,7 +158,7 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     expect(rig.agent.state().releaseId).toBeNull();
     await assign(id, sign(demoRelease('rel-e3', 3, tasks, { audience: { deviceClassId: demoDeviceClass.id, deviceIds: ['gh-somebody-else', id] } })));
     await waitFor(() => rig.agent.state().releaseId === 'rel-e3', 'release listing this device applied');
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('follows a key rotation signed by the trusted key, then refuses the replaced key and a chain link the old key did not sign', async () => {
@@ -213,7 +181,7 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await waitFor(() => rig.agent.state().refused?.releaseId === 'rel-k4', 'forged chain refused');
     expect(rig.agent.state().refused?.reason).toMatch(/^unknown-key: .*not signed by the previous key/);
     expect(rig.agent.state().releaseId).toBe('rel-k2');
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('restores the previous settings when a driver step fails, and reports switch-failed with restored: true', async () => {
@@ -225,9 +193,9 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     expect(r).toMatchObject({ ok: false, code: 'switch-failed', step: 'loadWeights', restored: true });
     expect(rig.driver.hardware()).toEqual(before);
     expect(rig.agent.state().activeTask).toBe('rows');
-    await waitFor(() => storedEvents(id, 'switch-failed').length === 1, 'switch-failed stored');
-    expect(storedEvents(id, 'switch-failed')[0]).toMatchObject({ toTask: 'leaves', step: 'loadWeights', restored: true });
-    await bus.bridge.clearRelease(id);
+    await waitFor(() => suite.storedEvents(id, 'switch-failed').length === 1, 'switch-failed stored');
+    expect(suite.storedEvents(id, 'switch-failed')[0]).toMatchObject({ toTask: 'leaves', step: 'loadWeights', restored: true });
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('defers a when-idle release while the robot moves and applies it when it stops', async () => {
@@ -241,35 +209,35 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     rig.agent.setMotion(false);
     await waitFor(() => rig.agent.state().releaseId === 'rel-i2', 'applied after stopping');
     expect(rig.agent.state().pending).toBeNull();
-    await waitFor(() => storedTypes(id).includes('release-applied') && storedTypes(id).filter((t) => t === 'release-applied').length === 2, 'events stored');
-    const types = storedTypes(id);
+    await waitFor(() => suite.storedTypes(id).includes('release-applied') && suite.storedTypes(id).filter((t) => t === 'release-applied').length === 2, 'events stored');
+    const types = suite.storedTypes(id);
     expect(types.indexOf('release-deferred')).toBeLessThan(types.lastIndexOf('release-applied'));
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('resumes a partial weights file with a Range request from its size (RFC 9110 §14.2)', async () => {
     const { id, rig } = await newAgent('resume');
     const big = demoWeights('resume-net', 256 * 1024);
-    web.files.set('/api/v1/models/resume-net/weights', big.bytes);
+    suite.web.files.set('/api/v1/models/resume-net/weights', big.bytes);
     mkdirSync(join(rig.dataDir, 'weights'), { recursive: true });
     writeFileSync(join(rig.dataDir, 'weights', `${big.sha256}.part`), big.bytes.subarray(0, 100_000));
     await assign(id, sign(demoRelease('rel-d1', 1, { rows: demoTask('resume-net', big, 0.5, 4) })));
     await waitFor(() => rig.agent.state().releaseId === 'rel-d1', 'applied after resuming');
-    expect(web.requests.filter((r) => r.user === id).map((r) => r.range)).toEqual(['bytes=100000-']);
+    expect(suite.web.requests.filter((r) => r.user === id).map((r) => r.range)).toEqual(['bytes=100000-']);
     expect(existsSync(join(rig.dataDir, 'weights', big.sha256))).toBe(true);
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('finishes a download the server cut off, and verifies the whole file', async () => {
     const { id, rig } = await newAgent('cut');
     const big = demoWeights('cut-net', 256 * 1024);
-    web.files.set('/api/v1/models/cut-net/weights', big.bytes);
-    web.cutOnce.set('/api/v1/models/cut-net/weights', 100_000);
+    suite.web.files.set('/api/v1/models/cut-net/weights', big.bytes);
+    suite.web.cutOnce.set('/api/v1/models/cut-net/weights', 100_000);
     await assign(id, sign(demoRelease('rel-k1', 1, { rows: demoTask('cut-net', big, 0.5, 4) })));
     await waitFor(() => rig.agent.state().releaseId === 'rel-k1', 'applied after the cut', 20_000);
-    expect(web.requests.filter((r) => r.user === id).length).toBeGreaterThanOrEqual(2);
+    expect(suite.web.requests.filter((r) => r.user === id).length).toBeGreaterThanOrEqual(2);
     expect(rig.driver.hardware().weightsSha256).toBe(big.sha256);
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 
   it('keeps the weights cache under its cap by removing the least recently used file, never one the release needs', async () => {
@@ -287,6 +255,6 @@ describe('agent and releases (embedded broker, real HTTP weights server)', () =>
     await waitFor(() => weightsFiles().length === 3, 'cache trimmed to its cap');
     const left = weightsFiles();
     expect(left).toEqual(expect.arrayContaining([rows.sha256, leaves.sha256, recent.sha256]));
-    await bus.bridge.clearRelease(id);
+    await suite.bus.bridge.clearRelease(id);
   });
 });

@@ -1,47 +1,27 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { signedReleaseText } from '../../src/protocol/release.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
 import { systemClock } from '../../device-agent/clock.js';
 import { createSimDriver } from '../../device-agent/sim-driver.js';
 import { STATUS_FORMAT, createRos2TaskSource, loadRoslib } from '../../device-agent/task-sources/ros2-source.js';
 import type { TaskSource } from '../../device-agent/task-sources/task-source.js';
-import { demoRelease, demoTask, demoWeights, sign, tempDir, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
-import { agentConfig, startBusRig, startWeightsServer, type BusRig, type WeightsServer } from '../support/agent-rig.js';
-import { startRosbridge, type RosbridgeRig } from '../support/rosbridge-rig.js';
+import { demoRelease, sign, uniqueDeviceId, waitFor } from '../support/agent-fixtures.js';
+import { agentConfig } from '../support/agent-rig.js';
+import { agentSuite } from '../support/agent-suite.js';
+import { startRosbridge } from '../support/rosbridge-rig.js';
 
-const rows = demoWeights('rows-net ros2');
-const leaves = demoWeights('leaf-net ros2');
-const tasks = { rows: demoTask('rows-net', rows, 0.5, 4), leaves: demoTask('leaf-net', leaves, 0.25, 2.8) };
-
-let bus: BusRig;
-let web: WeightsServer;
-const cleanups: Array<() => unknown> = [];
-
-beforeAll(async () => {
-  bus = await startBusRig();
-  web = await startWeightsServer();
-  web.files.set('/api/v1/models/rows-net/weights', rows.bytes);
-  web.files.set('/api/v1/models/leaf-net/weights', leaves.bytes);
-});
-afterAll(async () => {
-  for (const c of cleanups.reverse()) await c();
-  await web.close();
-  await bus.close();
-});
-
-const stored = (id: string, type: string) =>
-  (sqliteHandle(bus.store).prepare('SELECT event FROM device_events WHERE device_id = ? AND type = ? ORDER BY seq').pluck().all(id, type) as string[]).map((e) => JSON.parse(e) as Record<string, unknown>);
+const suite = agentSuite({ rows: 'rows-net ros2', leaves: 'leaf-net ros2' });
+const { tasks } = suite;
 
 /** An agent (simulated driver) with a release applied, and its ROS 2 source on a rosbridge of the test's own. */
 async function robot(label: string, withMotion = false) {
   const bridge = await startRosbridge();
   const id = uniqueDeviceId(label);
-  const dir = tempDir(label);
+  const dir = suite.dir(label);
   const logs: string[] = [];
   let source: TaskSource | null = null;
   const agent: Agent = createAgent({
-    config: agentConfig(id, bus.enrol(id), bus.brokerUrl, web.url, dir.path),
+    config: agentConfig(id, suite.bus.enrol(id), suite.bus.brokerUrl, suite.web.url, dir.path),
     driver: createSimDriver({ clock: systemClock, timeScale: 0 }),
     log: (l) => logs.push(l),
     onStateChange: (s) => source?.report(s),
@@ -54,16 +34,15 @@ async function robot(label: string, withMotion = false) {
     },
     await loadRoslib(),
   );
-  cleanups.push(async () => {
+  suite.onCleanup(async () => {
     await source!.close();
     await agent.stop();
     await bridge.stop();
-    dir.remove();
   });
   await agent.start();
   source.start();
   await waitFor(() => agent.connected() && source!.connected(), 'agent on the broker and the rosbridge');
-  await bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease(`rel-${label}`, 1, tasks))));
+  await suite.bus.bridge.publishRelease(id, signedReleaseText(sign(demoRelease(`rel-${label}`, 1, tasks))));
   await waitFor(() => agent.state().activeTask === 'rows', 'release applied on its default task');
   const statuses = () => bridge.published('/ocellus/status').map((m) => JSON.parse((m as { data: string }).data) as Record<string, unknown>);
   return { id, agent, source, bridge, logs, statuses };
@@ -83,7 +62,7 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
       format: STATUS_FORMAT, deviceId: r.id, activeTask: 'leaves', profileId: 'leaf-net-profile', profileRevision: 1, releaseId: 'rel-ros-task', releaseVersion: 1, taskRefused: null,
     });
     // The switch took the agent's usual path: one task-switched event, measured like any other.
-    const switched = await waitFor(() => stored(r.id, 'task-switched').find((e) => e.toTask === 'leaves'), 'switch event stored');
+    const switched = await waitFor(() => suite.storedEvents(r.id, 'task-switched').find((e) => e.toTask === 'leaves'), 'switch event stored');
     expect(switched).toMatchObject({ fromTask: 'rows', reason: 'local' });
     expect(typeof switched.overheadMs).toBe('number');
   });
@@ -91,7 +70,7 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
   it('an unknown task name is refused with a switch-failed event and on the status topic; the profile stays', async () => {
     const r = await robot('ros-unknown');
     r.bridge.robotPublish('/robot/task', { data: 'harvest' });
-    const failed = await waitFor(() => stored(r.id, 'switch-failed')[0], 'refusal stored');
+    const failed = await waitFor(() => suite.storedEvents(r.id, 'switch-failed')[0], 'refusal stored');
     expect(failed).toMatchObject({ toTask: 'harvest', step: 'select-task', restored: true });
     expect(String(failed.error)).toBe('task harvest is not in release rel-ros-unknown; it has: rows, leaves');
     await waitFor(() => r.statuses().some((s) => s.taskRefused !== null), 'refusal on the status topic');
@@ -108,7 +87,7 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
     await waitFor(() => r.agent.state().moving, 'moving from the motion topic');
     r.bridge.robotPublish('/robot/moving', { data: false });
     await waitFor(() => !r.agent.state().moving, 'stopped from the motion topic');
-    await waitFor(() => stored(r.id, 'motion').length === 2, 'motion events stored');
+    await waitFor(() => suite.storedEvents(r.id, 'motion').length === 2, 'motion events stored');
   });
 
   it('the bridge going away and coming back loses no task change', async () => {
@@ -125,8 +104,8 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
     r.bridge.robotPublish('/robot/task', { data: 'rows' });
     await waitFor(() => r.agent.state().activeTask === 'rows', 'change after the outage');
     // The switch is stored once the agent's event batch reaches the server: wait for it, within the deadline.
-    await waitFor(() => stored(r.id, 'task-switched').length >= 3, 'the three switches stored');
-    expect(stored(r.id, 'task-switched').map((e) => e.toTask)).toEqual(['rows', 'leaves', 'rows']);
+    await waitFor(() => suite.storedEvents(r.id, 'task-switched').length >= 3, 'the three switches stored');
+    expect(suite.storedEvents(r.id, 'task-switched').map((e) => e.toTask)).toEqual(['rows', 'leaves', 'rows']);
   });
 
   it('keeps retrying a bridge that is not there yet and connects once it is up', async () => {
@@ -138,7 +117,7 @@ describe('ROS 2 task source through the rosbridge v2 protocol', () => {
       { url, taskTopic: '/robot/task', statusTopic: '/ocellus/status', reconnectMs: 50, reconnectMaxMs: 200, deviceId: 'x', handlers: { setTask: async (task) => ({ ok: true, task, overheadMs: 0, actuationMs: 0 }), setMotion: () => {}, log: (l) => logs.push(l) } },
       await loadRoslib(),
     );
-    cleanups.push(() => source.close());
+    suite.onCleanup(() => source.close());
     source.start();
     await new Promise((r) => setTimeout(r, 300));
     expect(source.connected()).toBe(false);

@@ -4,7 +4,7 @@ import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ROUTES } from '../../src/api/index.js';
 import { createHarness, deviceClass, goodProfile, model, network, removeDir, seedCatalog, task, tempDataDir, type Harness } from '../support/api-fixtures.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { sqlHandle } from '../../src/store/sqlite-handle.js';
 
 let h: Harness;
 let releaseId: string;
@@ -51,7 +51,7 @@ function validFor(key: string): { path: string; body: unknown } {
 
 const TABLES = ['documents', 'profile_revisions', 'releases', 'devices', 'assignments', 'tokens', 'audit', 'rollouts', 'rollout_devices'];
 function snapshot(): string {
-  const counts = TABLES.map((t) => (sqliteHandle(h.store).prepare(`SELECT COUNT(*) AS n FROM ${t}`).get() as { n: number }).n);
+  const counts = TABLES.map((t) => (sqlHandle(h.store).prepare(`SELECT COUNT(*) AS n FROM ${t}`).get() as { n: number }).n);
   const blobs = readdirSync(join(h.dir, 'blobs'), { recursive: true }).length;
   return JSON.stringify([counts, blobs]);
 }

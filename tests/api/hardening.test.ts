@@ -6,8 +6,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createApp, createSigner } from '../../src/api/index.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../../src/metrics/registry.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
-import { createBlobStore, hashPassword, loadOrCreateSigningKey, openStore, type Store } from '../../src/store/index.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { createBlobStore, hashPassword, loadOrCreateSigningKey, type Store } from '../../src/store/index.js';
+import { sqlHandle } from '../../src/store/sqlite-handle.js';
+import { openTestStore } from '../support/store-backend.js';
 import { deviceClass, model, network, removeDir, tempDataDir, weights } from '../support/api-fixtures.js';
 
 // A real HTTP server on a free loopback port, so sockets, aborts and concurrency are the real ones.
@@ -21,7 +22,7 @@ const tokens: Record<string, { id: number; secret: string }> = {};
 
 beforeAll(async () => {
   dir = tempDataDir();
-  store = openStore(dir);
+  store = openTestStore(dir);
   metrics = createMetricsRegistry();
   const app = createApp({
     store,
@@ -47,7 +48,7 @@ beforeAll(async () => {
   expect((await call('PUT', `/api/v1/models/${model.id}/weights`, { body: new Uint8Array(weights), type: 'application/octet-stream' })).status).toBe(201);
   // A device enrolled before keyed hashes: its stored hash is scrypt, the costly case for a bad login.
   store.devices.enrol({ id: 'gh-b-01', deviceClassId: deviceClass.id, tags: [], actor: 'test', at });
-  sqliteHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret'), 'gh-b-01');
+  sqlHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret'), 'gh-b-01');
 });
 afterAll(async () => {
   (http as import('node:http').Server).closeAllConnections();
@@ -92,11 +93,11 @@ describe('device Basic auth on the weights route', () => {
 
   it('a correct legacy password logs in, and its scrypt hash is replaced by the keyed hash', async () => {
     store.devices.enrol({ id: 'gh-b-02', deviceClassId: deviceClass.id, tags: [], actor: 'test', at: new Date().toISOString() });
-    sqliteHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret-2'), 'gh-b-02');
+    sqlHandle(store).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword('legacy-secret-2'), 'gh-b-02');
     const res = await fetch(`${base}/api/v1/models/${model.id}/weights`, { headers: { authorization: `Basic ${Buffer.from('gh-b-02:legacy-secret-2').toString('base64')}` } });
     // Logged in (not 401); 403 because a device may fetch only the weights of releases it is assigned.
     expect(res.status).toBe(403);
-    expect(sqliteHandle(store).prepare('SELECT password_hash FROM devices WHERE id = ?').pluck().get('gh-b-02')).toMatch(/^hmac-sha256\$/);
+    expect(sqlHandle(store).prepare('SELECT password_hash FROM devices WHERE id = ?').pluck().get('gh-b-02')).toMatch(/^hmac-sha256\$/);
   });
 });
 

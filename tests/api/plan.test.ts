@@ -13,7 +13,7 @@ import { DEMO_CATALOG_DIR } from '../../src/demo/scenario.js';
 import { candidateToProfile, plan, type Candidate, type PlanResult } from '../../src/plan/index.js';
 import type { Check } from '../../src/schema/index.js';
 import { createHarness, removeDir, tempDataDir, type Harness } from '../support/api-fixtures.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { sqlHandle } from '../../src/store/sqlite-handle.js';
 
 interface PlanAnswer extends PlanResult {
   calibration: unknown;
@@ -157,7 +157,7 @@ describe('POST /api/v1/plan', () => {
     // Three units, eight windows of 50 frames each: 24 windows and 1,200 frames, over the class minimum
     // (CALIBRATION_MINIMUM: 20 windows, 1,000 frames, 3 devices). Every unit measures 1.25 × the predicted
     // time and 0.9 × the energy, so the least-squares factors through the origin are exactly those.
-    const insert = sqliteHandle(h.store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+    const insert = sqlHandle(h.store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
     for (const unit of ['gh-a-cal-1', 'gh-a-cal-2', 'gh-a-cal-3']) {
       expect((await h.call('POST', '/api/v1/devices', { body: { id: unit, deviceClassId: 'gh-scout-a', tags: [] } })).status).toBe(201);
       for (let seq = 1; seq <= 8; seq++) {

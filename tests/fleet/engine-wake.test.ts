@@ -11,6 +11,7 @@ import { rolloutRequestSchema } from '../../src/fleet/rollout/spec.js';
 import { PROTOCOL_VERSION, deviceTopic, type StateMessage } from '../../src/protocol/index.js';
 import { waitFor } from '../support/agent-fixtures.js';
 import { startFleetRig, type FleetRig } from '../support/fleet-rig.js';
+import { createManualScheduler } from '../support/manual-scheduler.js';
 
 const HOUR_MS = 3_600_000;
 const ids = ['gh-wake-01', 'gh-wake-02', 'gh-wake-03'];
@@ -19,7 +20,7 @@ let rig: FleetRig;
 const rolloutOf = async (id: string) => (await rig.call('GET', `/api/v1/rollouts/${id}`)).body;
 
 beforeAll(async () => {
-  // The rig's own engine gets an hour-long tick: after its first pass it moves only when told to or woken.
+  // The rig's engine gets an hour-long tick on timers the test advances: it moves only when told to or woken.
   rig = await startFleetRig({ tickMs: HOUR_MS, calibrationEveryMs: HOUR_MS });
   rig.storeRelease('gh-wake-rel-1', 1);
   for (const id of ids) {
@@ -45,11 +46,15 @@ describe('rollout engine woken by device reports', () => {
     await rig.engine.tick();
     const assigned = await rolloutOf(created.body.id);
     expect(assigned.devices.map((d: { status: string }) => d.status)).not.toContain('waiting');
-    // No timer pass comes within the hour: completion can only come from passes the reports woke.
+    // The engine's time moves a second per look (the rests between short passes count in it) and never reaches
+    // the hour: completion can only come from passes the reports woke.
+    const begunMs = rig.engineTime.nowMs();
     const done = await waitFor(async () => {
+      await rig.engineTime.advance(1_000);
       const r = await rolloutOf(created.body.id);
       return r.status === 'completed' ? r : null;
     }, 'rollout completed by reports', 30_000);
+    expect(rig.engineTime.nowMs() - begunMs).toBeLessThan(HOUR_MS);
     expect(done.devices.every((d: { status: string; appliedAt: string | null }) => d.status === 'passed' && d.appliedAt !== null)).toBe(true);
   });
 
@@ -57,7 +62,8 @@ describe('rollout engine woken by device reports', () => {
     // A second engine with a clock the test moves; the rig's engine stays idle (hour-long tick, nothing moving).
     let nowMs = Date.now();
     const clock = { now: () => new Date(nowMs) };
-    const engine = createRolloutEngine({ store: rig.store, publisher: rig.bridge, clock, onDevicesStored: (l) => rig.bridge.onStored(l), tickMs: 20, calibration: rig.calibration });
+    const time = createManualScheduler();
+    const engine = createRolloutEngine({ store: rig.store, publisher: rig.bridge, clock, onDevicesStored: (l) => rig.bridge.onStored(l), tickMs: 20, calibration: rig.calibration, scheduler: time });
     // A device that says it is online and then ignores every release (a bare MQTT client, no agent).
     const mute = 'gh-wake-mute';
     const password = rig.enrol(mute, ['mute']);
@@ -74,14 +80,24 @@ describe('rollout engine woken by device reports', () => {
       const created = service.create(request, 'test operator', clock.now().toISOString());
       if (!created.ok) throw new Error(created.message);
       engine.start();
-      await waitFor(() => service.view(created.value.id)?.devices[0]?.status === 'assigned', 'the mute device assigned');
+      // The first timer pass assigns the wave.
+      await time.advance(0);
+      await engine.tick();
+      expect(service.view(created.value.id)!.devices[0]?.status).toBe('assigned');
       expect(service.view(created.value.id)!.status).toBe('running');
-      // 31 s later by the engine's clock (rule: fail after applyTimeoutS; the gate's settings, common practice).
-      nowMs += 31_000;
+      // 29 s later by the engine's clock the next timer pass leaves it waiting; 31 s later one fails it (rule: fail
+      // after applyTimeoutS; the gate's settings, common practice).
+      nowMs += 29_000;
+      await time.advance(20);
+      await engine.tick();
+      expect(service.view(created.value.id)!.status).toBe('running');
+      nowMs += 2_000;
+      await time.advance(20);
+      // Only the timer pass that just ran (its store writes may still be finishing) can have paused it.
       const paused = await waitFor(() => {
         const v = service.view(created.value.id)!;
         return v.status === 'paused' ? v : null;
-      }, 'rollout paused by the apply timeout');
+      }, 'rollout paused by the apply timeout', 10_000);
       expect(paused.devices[0]).toMatchObject({ deviceId: mute, status: 'failed', reason: 'not applied within 30 s' });
     } finally {
       await engine.stop();

@@ -1,7 +1,8 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { openStore, type Store } from '../../src/store/index.js';
+import type { Store } from '../../src/store/index.js';
+import { openTestStore } from '../support/store-backend.js';
 import { tempDir } from '../support/agent-fixtures.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { sqlHandle } from '../../src/store/sqlite-handle.js';
 
 // Events of one device with gaps in its numbering (lost or not yet resent) and uneven spacing in time:
 // the seq range of a time window must equal a full scan's answer (a brute-force check, common practice).
@@ -11,8 +12,8 @@ const START_MS = Date.parse('2025-04-01T06:00:00.000Z');
 const stored: Array<{ seq: number; ms: number }> = [];
 
 beforeAll(() => {
-  store = openStore(dir.path);
-  const insert = sqliteHandle(store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
+  store = openTestStore(dir.path);
+  const insert = sqlHandle(store).prepare('INSERT INTO device_events (device_id, seq, ts, type, event, received_at) VALUES (?, ?, ?, ?, ?, ?)');
   let ms = START_MS;
   let a = 12345;
   const random = () => ((a = (a * 1103515245 + 12345) % 2147483648) / 2147483648);

@@ -36,12 +36,15 @@ beforeAll(async () => {
   await assignRelease(rig.store, rig.bridge, { deviceId: DEVICE, releaseId: 'gh-hist-1', actor: 'grower-anna#7', cause: 'manual' });
   await waitFor(() => unit.agent.state().releaseId === 'gh-hist-1', 'release 1 applied');
   for (const task of ['leaves', 'rows', 'leaves']) {
-    await new Promise((r) => setTimeout(r, 15));
+    // Each switch in a millisecond of its own, so their times order them.
+    const afterMs = Date.now();
+    await waitFor(() => Date.now() > afterMs, 'the clock past the last switch', 1_000, 1);
     expect(await unit.agent.setTask(task)).toMatchObject({ ok: true });
   }
   // A rollout moves it to release 2.
   const created = await rig.call('POST', '/api/v1/rollouts', { releaseId: 'gh-hist-2', target: { deviceIds: [DEVICE] }, gate: { telemetryFrames: 0 } });
   expect(created.status).toBe(201);
+  await rig.driveRollout(created.body.id, (r) => r.status !== 'running', 'the rollout finished', 30_000);
   await waitFor(() => unit.agent.state().releaseId === 'gh-hist-2', 'release 2 applied');
   // The new release keeps the active task (leaves); then the robot goes back to the rows.
   await unit.agent.setTask('rows');

@@ -1,14 +1,16 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { createPassPacer, type PassPacer, type PassRequest } from '../../src/fleet/rollout/pacing.js';
-import { waitFor } from '../support/agent-fixtures.js';
+import { createManualScheduler, type ManualScheduler } from '../support/manual-scheduler.js';
 
 // When the rollout engine runs its passes (common practice for event-driven schedulers: a notice is never
-// dropped, work that arrives during a run is done after it, runs never overlap). The timer is set to an hour
-// so that only start(), reports and explicit calls make passes here.
+// dropped, work that arrives during a run is done after it, runs never overlap). Time moves only when a test
+// advances its scheduler; the timer is set to an hour so that only start(), reports and explicit calls make
+// passes unless a test says otherwise.
 const HOUR_MS = 3_600_000;
 
 interface Rig {
   pacer: PassPacer;
+  time: ManualScheduler;
   requests: PassRequest[];
   /** Holds the next pass open until release() is called. */
   holdNext(): { started: Promise<void>; release(): void };
@@ -21,15 +23,16 @@ afterEach(async () => {
   current = null;
 });
 
-function rig(moving = true, opensWaveOnce = false, opts: { tickMs?: number; firstBusyMs?: number; changed?: () => boolean } = {}): Rig {
+function rig(moving = true, opensWaveOnce = false, opts: { tickMs?: number; busyMs?: number; changed?: () => boolean } = {}): Rig {
   let opensWave = opensWaveOnce;
-  let firstBusyMs = opts.firstBusyMs ?? 0;
   const requests: PassRequest[] = [];
   let hold: { started: () => void; gate: Promise<void> } | null = null;
   let running = 0;
   let overlapped = false;
+  const time = createManualScheduler();
   const pacer = createPassPacer({
     tickMs: opts.tickMs ?? HOUR_MS,
+    scheduler: time,
     reportsWake: true,
     changed: opts.changed ?? (() => false),
     onError: (e) => {
@@ -48,14 +51,13 @@ function rig(moving = true, opensWaveOnce = false, opts: { tickMs?: number; firs
       running -= 1;
       const fullPassNow = opensWave && request.kind === 'reported';
       if (fullPassNow) opensWave = false;
-      const busyMs = firstBusyMs;
-      firstBusyMs = 0;
-      return { busyMs, moving, fullPassNow };
+      return { busyMs: opts.busyMs ?? 0, moving, fullPassNow };
     },
   });
   current = pacer;
   return {
     pacer,
+    time,
     requests,
     overlapped: () => overlapped,
     holdNext() {
@@ -77,7 +79,9 @@ describe('rollout engine pacing', () => {
     r.pacer.start();
     // The timer pass is due and not yet run: the report must survive it.
     r.pacer.reported(['gh-row-01', 'gh-row-02']);
-    await waitFor(() => reportedIds(r.requests).length === 2, 'a short pass over both devices');
+    expect(r.requests).toHaveLength(0);
+    await r.time.advance(0);
+    expect(r.requests).toHaveLength(2);
     expect(r.requests[0]).toEqual({ kind: 'timer' });
     expect(reportedIds(r.requests).sort()).toEqual(['gh-row-01', 'gh-row-02']);
   });
@@ -86,12 +90,14 @@ describe('rollout engine pacing', () => {
     const r = rig();
     const held = r.holdNext();
     r.pacer.start();
+    await r.time.advance(0);
     await held.started;
     r.pacer.reported(['gh-row-03']);
     r.pacer.reported(['gh-row-04', 'gh-row-03']);
     expect(r.requests).toHaveLength(1);
     held.release();
-    await waitFor(() => reportedIds(r.requests).length >= 2, 'the reports judged after the running pass');
+    await r.time.advance(0);
+    expect(r.requests).toHaveLength(2);
     expect(r.requests[1]).toEqual({ kind: 'reported', deviceIds: new Set(['gh-row-03', 'gh-row-04']) });
     const explicit = r.pacer.runFull();
     await explicit;
@@ -102,31 +108,47 @@ describe('rollout engine pacing', () => {
   it('a short pass that opened the next wave is followed by a timer pass at once, not at the timer\'s next turn', async () => {
     const r = rig(true, true);
     r.pacer.start();
-    await waitFor(() => r.requests.length === 1, 'the first timer pass');
+    await r.time.advance(0);
+    expect(r.requests).toHaveLength(1);
     r.pacer.reported(['gh-row-06']);
-    await waitFor(() => r.requests.length === 3, 'the short pass and the timer pass after it');
+    // No time passes: the timer's next turn is an hour away, so the second timer pass can only be the prompt one.
+    await r.time.advance(0);
     expect(r.requests.map((q) => q.kind)).toEqual(['timer', 'reported', 'timer']);
   });
 
   it('a rollout that changed gets a timer pass after the usual rest, not the ten-fold rest of timer passes', async () => {
-    // The first pass worked 1 s: the next may come after 1 s of rest; an unchanged timer pass only after 10 s.
+    // Every pass works 1 s: the next may come after 1 s of rest; an unchanged timer pass only after 10 s.
+    // Changed once: the first tick that asks is told so, later ones are not.
     let changed = false;
-    const r = rig(true, false, { tickMs: 10, firstBusyMs: 1000, changed: () => changed });
+    const changedOnce = () => {
+      const was = changed;
+      changed = false;
+      return was;
+    };
+    const r = rig(true, false, { tickMs: 10, busyMs: 1000, changed: changedOnce });
     r.pacer.start();
-    await waitFor(() => r.requests.length === 1, 'the first timer pass');
+    await r.time.advance(0);
+    expect(r.requests).toHaveLength(1);
+    // Unchanged, no timer pass comes after the usual rest of 1 s: timer passes over it rest ten-fold, to 10 s.
+    await r.time.advance(1_500);
+    expect(r.requests).toHaveLength(1);
+    // Changed: the very next tick brings its timer pass, 8.5 s before the ten-fold rest would end.
     changed = true;
-    await waitFor(() => r.requests.length >= 2, 'a timer pass for the changed rollout', 6_000);
-    expect(r.requests.slice(0, 2).map((q) => q.kind)).toEqual(['timer', 'timer']);
+    await r.time.advance(10);
+    expect(r.requests).toHaveLength(2);
+    expect(r.requests.map((q) => q.kind)).toEqual(['timer', 'timer']);
   });
 
   it('ignores reports while no rollout is moving: the next timer pass looks at every device anyway', async () => {
     const r = rig(false);
     r.pacer.start();
-    await waitFor(() => r.requests.length === 1, 'the first timer pass');
+    await r.time.advance(0);
+    expect(r.requests).toHaveLength(1);
     r.pacer.reported(['gh-row-05']);
+    // A short pass would be set with no delay: nothing is set, and advancing runs nothing.
+    expect(r.time.pending()).toBe(1);
+    await r.time.advance(1_000);
     await r.pacer.runFull();
-    // A short pass would have been queued with no delay (these passes take no time): let such a timer fire first.
-    await new Promise((resolve) => setTimeout(resolve, 10));
     expect(r.requests.map((q) => q.kind)).toEqual(['timer', 'explicit']);
   });
 });

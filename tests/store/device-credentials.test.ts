@@ -1,28 +1,14 @@
 import { createHmac } from 'node:crypto';
-import { mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { mkdirSync, readdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { afterEach, describe, expect, it } from 'vitest';
-import { createBlobStore, hashPassword, openStore, type Store } from '../../src/store/index.js';
+import { describe, expect, it } from 'vitest';
+import { createBlobStore, hashPassword } from '../../src/store/index.js';
 import { createLoginGuard } from '../../src/store/login-guard.js';
-import { sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { sqlHandle, sqliteHandle } from '../../src/store/sqlite-handle.js';
+import { storeBackend } from '../support/store-backend.js';
+import { storeFolders } from '../support/store-folders.js';
 
-const dirs: string[] = [];
-const stores: Store[] = [];
-function tempDir(): string {
-  const d = mkdtempSync(join(tmpdir(), 'ocellus-cred-'));
-  dirs.push(d);
-  return d;
-}
-function open(dir: string): Store {
-  const s = openStore(dir);
-  stores.push(s);
-  return s;
-}
-afterEach(() => {
-  for (const s of stores.splice(0)) s.close();
-  for (const d of dirs.splice(0)) rmSync(d, { recursive: true, force: true });
-});
+const { tempDir, open } = storeFolders('cred');
 const at = '2026-03-01T10:00:00.000Z';
 
 describe('device secrets at rest', () => {
@@ -36,7 +22,7 @@ describe('device secrets at rest', () => {
     expect(statSync(keyPath).mode & 0o777).toBe(0o600);
     const key = readFileSync(keyPath);
     expect(key.length).toBe(32);
-    const stored = sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string;
+    const stored = sqlHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string;
     expect(stored).toBe(`hmac-sha256$${createHmac('sha256', key).update(password).digest('base64')}`);
   });
 
@@ -44,13 +30,13 @@ describe('device secrets at rest', () => {
     const s = open(tempDir());
     s.devices.enrol({ id: 'gh-a-01', deviceClassId: 'cam', tags: [], actor: 'op', at });
     const legacy = 'old-secret-from-an-earlier-version';
-    sqliteHandle(s).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword(legacy), 'gh-a-01');
+    sqlHandle(s).prepare('UPDATE devices SET password_hash = ? WHERE id = ?').run(hashPassword(legacy), 'gh-a-01');
     // The synchronous check never runs scrypt: it refuses a legacy hash.
     expect(s.devices.verifyCredentials('gh-a-01', legacy)).toBe(false);
     expect(await s.devices.checkLogin('gh-a-01', 'wrong')).toEqual({ ok: false, reason: 'bad-credentials' });
-    expect((sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('scrypt$')).toBe(true);
+    expect((sqlHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('scrypt$')).toBe(true);
     expect(await s.devices.checkLogin('gh-a-01', legacy)).toEqual({ ok: true });
-    expect((sqliteHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('hmac-sha256$')).toBe(true);
+    expect((sqlHandle(s).prepare('SELECT password_hash FROM devices').pluck().get() as string).startsWith('hmac-sha256$')).toBe(true);
     expect(s.devices.verifyCredentials('gh-a-01', legacy)).toBe(true);
   });
 
@@ -73,7 +59,7 @@ describe('device secrets at rest', () => {
 });
 
 describe('data folder permissions', () => {
-  it('creates the data folder 0700 and the database 0600, and tightens a database that was readable by others', () => {
+  it.runIf(storeBackend === 'sqlite')('creates the data folder 0700 and the database 0600, and tightens a database that was readable by others', () => {
     const parent = tempDir();
     const dir = join(parent, 'data');
     open(dir).close();

@@ -7,7 +7,8 @@ import { createApp, createSigner } from '../../src/api/index.js';
 import type { ReleasePublisher } from '../../src/protocol/release.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../../src/metrics/registry.js';
 import { generateSigningKeyPair } from '../../src/protocol/signing.js';
-import { createBlobStore, loadOrCreateSigningKey, openStore, type Role, type Store } from '../../src/store/index.js';
+import { createBlobStore, loadOrCreateSigningKey, type Role, type Store } from '../../src/store/index.js';
+import { openTestStore } from './store-backend.js';
 
 /** Demo data: a small greenhouse scout camera (invented numbers, same orders of magnitude as the greenhouse demo set). */
 export const deviceClass = {
@@ -149,7 +150,7 @@ export function createHarness(
   dir: string,
   options: { publisher?: ReleasePublisher; maxWeightsBytes?: number; clock?: { now(): Date }; tokens?: Record<Role, string> } = {},
 ): Harness {
-  const store = openStore(dir);
+  const store = openTestStore(dir);
   const blobs = createBlobStore(dir);
   const key = loadOrCreateSigningKey(dir, generateSigningKeyPair);
   const metrics = createMetricsRegistry();

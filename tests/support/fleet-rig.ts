@@ -1,7 +1,8 @@
 /**
  * A rig for the fleet tests: a real SQLite store in a temporary folder, the embedded MQTT broker, the bus
- * bridge, the real HTTP API in-process, the rollout engine on a short tick, a real HTTP server for weights,
- * and in-process agents built with the agent's factory and the simulated driver (demo data throughout).
+ * bridge, the real HTTP API in-process, the rollout engine on timers and a clock the test moves, a real HTTP
+ * server for weights, and in-process agents built with the agent's factory and the simulated driver (demo
+ * data throughout).
  */
 import mqtt, { type MqttClient } from 'mqtt';
 import { createApp, createSigner } from '../../src/api/index.js';
@@ -13,10 +14,11 @@ import { createRolloutEngine, type RolloutEngine, type RolloutEngineOptions } fr
 import type { SignedRelease } from '../../src/protocol/release.js';
 import { createBlobStore, openStore, type Store } from '../../src/store/index.js';
 import { createAgent, type Agent } from '../../device-agent/agent.js';
+import { createManualScheduler, type ManualScheduler } from './manual-scheduler.js';
 import type { AgentConfig } from '../../device-agent/config.js';
 import { createSimDriver, type SimDriver } from '../../device-agent/sim-driver.js';
 import { systemClock } from '../../device-agent/clock.js';
-import { demoDeviceClass, demoRelease, demoTask, demoWeights, keys, sign, tempDir } from './agent-fixtures.js';
+import { demoDeviceClass, demoRelease, demoTask, demoWeights, keys, sign, tempDir, waitFor } from './agent-fixtures.js';
 import { agentConfig, startWeightsServer, type WeightsServer } from './agent-rig.js';
 
 /** Demo data: two tasks of a greenhouse row camera, with the weights the weights server hands out. */
@@ -35,7 +37,17 @@ export interface FleetRig {
   store: Store;
   bridge: Bridge;
   broker: EmbeddedBroker;
+  /** Started, and listening for reports, but its timers run only when the test advances `engineTime`. */
   engine: RolloutEngine;
+  engineTime: ManualScheduler;
+  /** The engine's clock: real time plus what `advanceEngineClock` added (apply and offline timeouts count on it). */
+  engineClock: { now(): Date };
+  advanceEngineClock(ms: number): void;
+  /**
+   * Runs engine passes until the rollout's view satisfies `done` (then returns it), with the agents' real MQTT
+   * traffic in between; fails after `timeoutMs`.
+   */
+  driveRollout(id: string, done: (rollout: any) => boolean, message: string, timeoutMs?: number): Promise<any>;
   /** Drift and class calibrations on their own timer (`calibrationEveryMs`); tests may call refresh() themselves. */
   calibration: CalibrationEngine;
   web: WeightsServer;
@@ -74,8 +86,11 @@ export async function startFleetRig(options: RolloutEngineOptions & CalibrationE
   const calibration = createCalibrationEngine({
     store, clock: { now: () => new Date() }, ...(calibrationEveryMs !== undefined ? { calibrationEveryMs } : {}), ...(driftTolerance !== undefined ? { driftTolerance } : {}),
   });
+  const engineTime = createManualScheduler();
+  let engineClockOffsetMs = 0;
+  const engineClock = { now: () => new Date(Date.now() + engineClockOffsetMs) };
   const engine = createRolloutEngine({
-    store, publisher: bridge, clock: { now: () => new Date() }, calibration, onDevicesStored: (listener) => bridge.onStored(listener), tickMs: 50, ...engineOptions,
+    store, publisher: bridge, clock: engineClock, calibration, onDevicesStored: (listener) => bridge.onStored(listener), scheduler: engineTime, ...engineOptions,
   });
   calibration.start();
   engine.start();
@@ -87,6 +102,16 @@ export async function startFleetRig(options: RolloutEngineOptions & CalibrationE
   }
   const app = createApp({ store, blobs, signer: createSigner(keys), publisher: bridge, onError: (e) => { throw e; } });
   const operatorToken = store.tokens.create({ role: 'operator', label: 'fleet test operator', actor: 'test set-up', at: new Date().toISOString() }).secret;
+
+  async function call(method: string, path: string, body?: unknown): Promise<{ status: number; body: any }> {
+    const res = await app.request(path, {
+      method,
+      headers: { authorization: `Bearer ${operatorToken}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
+      ...(body === undefined ? {} : { body: JSON.stringify(body) }),
+    });
+    const text = await res.text();
+    return { status: res.status, body: text && res.headers.get('content-type')?.includes('json') ? JSON.parse(text) : text };
+  }
 
   function enrol(deviceId: string, tags: string[] = []): string {
     if (!passwords.has(deviceId)) {
@@ -104,14 +129,18 @@ export async function startFleetRig(options: RolloutEngineOptions & CalibrationE
     calibration,
     web,
     operatorToken,
-    async call(method, path, body) {
-      const res = await app.request(path, {
-        method,
-        headers: { authorization: `Bearer ${operatorToken}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
-        ...(body === undefined ? {} : { body: JSON.stringify(body) }),
-      });
-      const text = await res.text();
-      return { status: res.status, body: text && res.headers.get('content-type')?.includes('json') ? JSON.parse(text) : text };
+    engineTime,
+    engineClock,
+    advanceEngineClock(ms) {
+      engineClockOffsetMs += ms;
+    },
+    call,
+    async driveRollout(id, done, message, timeoutMs = 60_000) {
+      return waitFor(async () => {
+        await engine.tick();
+        const view = (await call('GET', `/api/v1/rollouts/${id}`)).body;
+        return done(view) ? view : null;
+      }, message, timeoutMs);
     },
     storeRelease(id, version) {
       const signed = sign(demoRelease(id, version, demoTasks));

@@ -1,11 +1,12 @@
 import { assignRelease } from '../../fleet/rollout/assign.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
-import type { ResolvedDeps } from '../context.js';
-import { badRequest, conflict, notFound } from '../errors.js';
+import type { Context } from 'hono';
+import { enrolDevice, revokeDevice, rotateDevicePassword } from '../../fleet/enrolment/credentials.js';
+import type { AppEnv, ResolvedDeps } from '../context.js';
+import { notFound } from '../errors.js';
 import { assignRequestSchema, deviceQuerySchema, enrolRequestSchema } from '../request-schemas.js';
-import { refusalError } from '../refusals.js';
+import { refusalError, unwrap } from '../refusals.js';
 import { requestBody, requestQuery, type Router } from '../routing.js';
 
 /** Shown with every assignment: the API sends settings to a robot, so the caution travels with the answer. */
@@ -24,20 +25,13 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
     return { ...d, online: state?.online ?? false, lastSeenAt: state?.lastSeenAt ?? null, reportedState: state?.state ?? null };
   }
 
+  function changeContext(c: Context<AppEnv>) {
+    return { store, actor: actorOf(c), at: deps.clock.now().toISOString() };
+  }
+
   route('devices.enrol', async (c) => {
     const body = requestBody(c, enrolRequestSchema);
-    if (!store.documents.latest('device-class', body.deviceClassId)) {
-      throw badRequest('unknown device class', [{ path: 'deviceClassId', message: `no device class '${body.deviceClassId}' is stored` }]);
-    }
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const tags = [...new Set(body.tags)];
-    const enrolled = store.transaction(() => {
-      const e = store.devices.enrol({ id: body.id, deviceClassId: body.deviceClassId, tags, actor, at });
-      if (!e) throw conflict(`device '${body.id}' is already enrolled`);
-      recordChange(store, { at, actor, action: 'device.enrol', target: `device/${body.id}`, detail: { deviceClassId: body.deviceClassId, tags } });
-      return e;
-    });
+    const enrolled = unwrap(enrolDevice(body, changeContext(c)));
     return c.json({ device: view(enrolled.device), mqtt: { username: enrolled.device.id, password: enrolled.password } }, 201);
   });
 
@@ -71,28 +65,14 @@ export function registerDeviceRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('devices.rotate-password', async (c) => {
     const id = c.req.param('id') ?? '';
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const rotated = store.transaction(() => {
-      const r = store.devices.rotatePassword(id);
-      if (!r) throw notFound(`device '${id}'`);
-      recordChange(store, { at, actor, action: 'device.rotate-password', target: `device/${id}`, detail: null });
-      return r;
-    });
+    const rotated = unwrap(rotateDevicePassword(id, changeContext(c)));
     const session = await endSession(id);
     return c.json({ device: view(rotated.device), mqtt: { username: id, password: rotated.password }, session });
   });
 
   route('devices.revoke', async (c) => {
     const id = c.req.param('id') ?? '';
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const revoked = store.transaction(() => {
-      const d = store.devices.revoke(id, at);
-      if (!d) throw notFound(`device '${id}'`);
-      recordChange(store, { at, actor, action: 'device.revoke', target: `device/${id}`, detail: { revokedAt: d.revokedAt } });
-      return d;
-    });
+    const revoked = unwrap(revokeDevice(id, changeContext(c)));
     const session = await endSession(id);
     return c.json({ device: view(revoked), session });
   });

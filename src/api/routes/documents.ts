@@ -1,16 +1,16 @@
 import type { Context } from 'hono';
 import type { DocumentRecord } from '../../store/documents.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
+import { createDocument, updateDocument, type StoredDocument } from '../../documents/save.js';
 import type { AppEnv, ResolvedDeps } from '../context.js';
-import { badRequest, conflict, notFound } from '../errors.js';
-import { diffJson } from '../json-diff.js';
+import { badRequest, notFound } from '../errors.js';
+import { unwrap } from '../refusals.js';
 import { DOCUMENT_COLLECTIONS, type DocumentCollection } from '../route-table.js';
 import { requestBody, type Router } from '../routing.js';
 
 type Doc = Record<string, unknown> & { id?: string };
 
-function withId(body: Doc, id: string | undefined, noun: string): Doc & { id: string } {
+function withId(body: Doc, id: string | undefined, noun: string): StoredDocument {
   if (typeof body.id !== 'string') {
     if (id === undefined) throw badRequest(`a ${noun} needs an id to be stored`, [{ path: 'id', message: 'required' }]);
     return { ...body, id };
@@ -18,17 +18,7 @@ function withId(body: Doc, id: string | undefined, noun: string): Doc & { id: st
   if (id !== undefined && body.id !== id) {
     throw badRequest(`the body's id does not match the path`, [{ path: 'id', message: `is '${body.id}', the path names '${id}'` }]);
   }
-  return body as Doc & { id: string };
-}
-
-/** Cross-document references checked before a save: a model must name a stored network. */
-function checkReferences(deps: ResolvedDeps, collection: DocumentCollection, doc: Doc): void {
-  if (collection === 'models') {
-    const networkId = String(doc.networkId);
-    if (!deps.store.documents.latest('network', networkId)) {
-      throw badRequest(`unknown network '${networkId}'`, [{ path: 'networkId', message: `no network '${networkId}' is stored; push it first` }]);
-    }
-  }
+  return body as StoredDocument;
 }
 
 /** Models also say whether their weights are in the blob store. */
@@ -44,7 +34,7 @@ export function registerDocumentRoutes(route: Router, deps: ResolvedDeps, collec
   const { kind, schema, noun } = DOCUMENT_COLLECTIONS[collection];
   const { store } = deps;
 
-  async function readDocument(c: Context<AppEnv>, pathId?: string): Promise<Doc & { id: string }> {
+  async function readDocument(c: Context<AppEnv>, pathId?: string): Promise<StoredDocument> {
     const doc = requestBody(c, schema) as Doc;
     return withId(doc, pathId, noun);
   }
@@ -53,15 +43,7 @@ export function registerDocumentRoutes(route: Router, deps: ResolvedDeps, collec
 
   route(`${collection}.create`, async (c) => {
     const doc = await readDocument(c);
-    checkReferences(deps, collection, doc);
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const record = store.transaction(() => {
-      const created = store.documents.create(kind, doc.id, doc, actor, at);
-      if (!created) throw conflict(`${noun} '${doc.id}' already exists; use PUT to save a new version`);
-      recordChange(store, { at, actor, action: `${kind}.create`, target: `${kind}/${doc.id}`, detail: { version: 1 } });
-      return created;
-    });
+    const record = unwrap(createDocument(kind, doc, { store, actor: actorOf(c), at: deps.clock.now().toISOString() }));
     return c.json(present(deps, collection, record), 201);
   });
 
@@ -74,17 +56,7 @@ export function registerDocumentRoutes(route: Router, deps: ResolvedDeps, collec
   route(`${collection}.update`, async (c) => {
     const id = c.req.param('id') ?? '';
     const doc = await readDocument(c, id);
-    checkReferences(deps, collection, doc);
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const record = store.transaction(() => {
-      const before = store.documents.latest(kind, id);
-      if (!before) throw notFound(`${noun} '${id}' (use POST to create it)`);
-      const saved = store.documents.update(kind, id, doc, actor, at)!;
-      const changed = diffJson(before.document, doc).map((ch) => ch.path);
-      recordChange(store, { at, actor, action: `${kind}.update`, target: `${kind}/${id}`, detail: { version: saved.version, changed } });
-      return saved;
-    });
+    const record = unwrap(updateDocument(kind, doc, { store, actor: actorOf(c), at: deps.clock.now().toISOString() }));
     return c.json(present(deps, collection, record));
   });
 

@@ -1,12 +1,12 @@
 import { METRIC_NAMES } from '../../metrics/registry.js';
 import { profileSchema, type Profile } from '../../schema/profile.js';
 import type { ProfileRevision } from '../../store/profiles.js';
+import { checkProfile } from '../../profiles/check.js';
+import { diffRevisions } from '../../profiles/diff.js';
+import { createProfile, reviseProfile } from '../../profiles/save.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
 import type { ResolvedDeps } from '../context.js';
-import { badRequest, conflict, notFound } from '../errors.js';
-import { diffJson } from '../json-diff.js';
-import { checkProfile, type CheckedProfile } from '../../release/profile-inputs.js';
+import { badRequest, notFound } from '../errors.js';
 import { diffQuerySchema } from '../request-schemas.js';
 import { unwrap } from '../refusals.js';
 import { requestBody, requestQuery, type Router } from '../routing.js';
@@ -21,8 +21,7 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
   const failures = deps.metrics.counter(METRIC_NAMES.validationFailures, 'Profile validations whose report failed');
 
-  function checked(profile: Profile, where: 'save' | 'check'): CheckedProfile {
-    const result = unwrap(checkProfile(store, profile));
+  function counted<T extends { report: { status: string } }>(result: T, where: 'save' | 'check'): T {
     if (result.report.status === 'fail') failures.inc({ where });
     return result;
   }
@@ -37,34 +36,16 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
 
   route('profiles.create', async (c) => {
     const profile = requestBody(c, profileSchema);
-    if (store.profiles.latest(profile.id)) throw conflict(`profile '${profile.id}' already exists; use PUT to save a new revision`);
-    const { report, refs } = checked(profile, 'save');
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const saved = store.transaction(() => {
-      const r = store.profiles.create({ profileId: profile.id, profile, report, refs, actor, at });
-      if (!r) throw conflict(`profile '${profile.id}' already exists; use PUT to save a new revision`);
-      recordChange(store, { at, actor, action: 'profile.create', target: `profile/${profile.id}`, detail: { revision: 1, status: report.status } });
-      return r;
-    });
-    return c.json(saved, 201);
+    const saved = unwrap(createProfile(profile, { store, actor: actorOf(c), at: deps.clock.now().toISOString() }));
+    return c.json(counted(saved, 'save'), 201);
   });
 
   route('profiles.update', async (c) => {
     const id = c.req.param('id') ?? '';
     const profile = requestBody(c, profileSchema);
     if (profile.id !== id) throw badRequest("the body's id does not match the path", [{ path: 'id', message: `is '${profile.id}', the path names '${id}'` }]);
-    if (!store.profiles.latest(id)) throw notFound(`profile '${id}' (use POST to create it)`);
-    const { report, refs } = checked(profile, 'save');
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const saved = store.transaction(() => {
-      const r = store.profiles.addRevision({ profileId: id, profile, report, refs, actor, at });
-      if (!r) throw notFound(`profile '${id}'`);
-      recordChange(store, { at, actor, action: 'profile.revise', target: `profile/${id}`, detail: { revision: r.revision, status: report.status } });
-      return r;
-    });
-    return c.json(saved);
+    const saved = unwrap(reviseProfile(profile, { store, actor: actorOf(c), at: deps.clock.now().toISOString() }));
+    return c.json(counted(saved, 'save'));
   });
 
   route('profiles.read', (c) => {
@@ -88,24 +69,13 @@ export function registerProfileRoutes(route: Router, deps: ResolvedDeps): void {
   });
 
   route('profiles.diff', (c) => {
-    const id = c.req.param('id') ?? '';
     const q = requestQuery(c, diffQuerySchema);
-    const from = store.profiles.revision(id, q.from);
-    const to = store.profiles.revision(id, q.to);
-    if (!from) throw notFound(`revision ${q.from} of profile '${id}'`);
-    if (!to) throw notFound(`revision ${q.to} of profile '${id}'`);
-    return c.json({
-      profileId: id,
-      from: q.from,
-      to: q.to,
-      status: { from: from.status, to: to.status },
-      changes: diffJson(from.profile, to.profile),
-    });
+    return c.json(unwrap(diffRevisions(store, c.req.param('id') ?? '', q.from, q.to)));
   });
 
   route('validate', async (c) => {
     const profile = requestBody(c, profileSchema);
-    const { report, refs } = checked(profile, 'check');
+    const { report, refs } = counted(unwrap(checkProfile(store, profile)), 'check');
     return c.json({ report, refs });
   });
 }

@@ -1,7 +1,8 @@
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
+import { issueToken, revokeToken } from '../../access/api-tokens.js';
 import type { ResolvedDeps } from '../context.js';
-import { badRequest, notFound } from '../errors.js';
+import { badRequest } from '../errors.js';
+import { unwrap } from '../refusals.js';
 import { auditQuerySchema, tokenRequestSchema } from '../request-schemas.js';
 import { requestBody, requestQuery, type Router } from '../routing.js';
 
@@ -11,13 +12,7 @@ export function registerTokenAndAuditRoutes(route: Router, deps: ResolvedDeps): 
 
   route('tokens.create', async (c) => {
     const body = requestBody(c, tokenRequestSchema);
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const created = store.transaction(() => {
-      const t = store.tokens.create({ role: body.role, label: body.label ?? `${body.role} token`, actor, at });
-      recordChange(store, { at, actor, action: 'token.create', target: `token/${t.token.id}`, detail: { role: t.token.role, label: t.token.label } });
-      return t;
-    });
+    const created = issueToken(body, { store, actor: actorOf(c), at: deps.clock.now().toISOString() });
     return c.json({ token: created.token, secret: created.secret }, 201);
   });
 
@@ -27,18 +22,7 @@ export function registerTokenAndAuditRoutes(route: Router, deps: ResolvedDeps): 
     const raw = c.req.param('id') ?? '';
     const id = Number(raw);
     if (!/^\d{1,15}$/.test(raw)) throw badRequest('token ids are whole numbers', [{ path: 'id', message: `got '${raw}'` }]);
-    const at = deps.clock.now().toISOString();
-    const actor = actorOf(c);
-    const revoked = store.transaction(() => {
-      const before = store.tokens.get(id);
-      if (!before) throw notFound(`token ${id}`);
-      const after = store.tokens.revoke(id, at)!;
-      if (before.revokedAt === null) {
-        recordChange(store, { at, actor, action: 'token.revoke', target: `token/${id}`, detail: { role: before.role, label: before.label } });
-      }
-      return after;
-    });
-    return c.json(revoked);
+    return c.json(unwrap(revokeToken(id, { store, actor: actorOf(c), at: deps.clock.now().toISOString() })));
   });
 
   route('audit', (c) => {

@@ -1,7 +1,6 @@
 import { Readable } from 'node:stream';
 import type { Model } from '../../schema/model.js';
 import { actorOf } from '../auth.js';
-import { recordChange } from '../audit-log.js';
 import { streamChunks } from '../body.js';
 import type { ResolvedDeps } from '../context.js';
 import { HttpError, notFound } from '../errors.js';
@@ -9,6 +8,8 @@ import { decideRange, etagMatches } from '../http-range.js';
 import { weightsQuerySchema } from '../request-schemas.js';
 import { requestQuery, type Router } from '../routing.js';
 import { weightsInScope } from '../../release/download-scope.js';
+import { uploadWeights } from '../../documents/weights.js';
+import { unwrap } from '../refusals.js';
 
 /** Streamed, hash-checked upload and resumable, cache-validated download of model weights. */
 export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
@@ -18,7 +19,7 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     const id = c.req.param('id') ?? '';
     const model = store.documents.latest<Model>('model', id);
     if (!model) throw notFound(`model '${id}'`);
-    const { sha256, sizeBytes } = model.document;
+    const { sizeBytes } = model.document;
     const max = deps.limits.maxWeightsBytes;
     const declared = Number(c.req.header('content-length'));
     if (Number.isFinite(declared) && declared > sizeBytes && declared <= max) {
@@ -27,16 +28,8 @@ export function registerWeightsRoutes(route: Router, deps: ResolvedDeps): void {
     if (Number.isFinite(declared) && declared > max) {
       throw new HttpError(413, `weights are larger than the ${max}-byte limit`, { issues: [{ path: 'body', message: `${declared} bytes` }] });
     }
-    const result = await blobs.put(streamChunks(c.req.raw.body), { sha256, sizeBytes, maxBytes: max });
-    if (!result.ok) {
-      const status = result.reason === 'too-large' || result.reason === 'over-declared-size' ? 413 : 400;
-      throw new HttpError(status, `weights refused for model '${id}' version ${model.version}`, { issues: [{ path: 'body', message: result.detail }] });
-    }
-    const at = deps.clock.now().toISOString();
-    store.transaction(() =>
-      recordChange(store, { at, actor: actorOf(c), action: 'model.weights.upload', target: `model/${id}`, detail: { version: model.version, sha256, sizeBytes: result.sizeBytes } }),
-    );
-    return c.json({ modelId: id, version: model.version, sha256, sizeBytes: result.sizeBytes }, 201);
+    const stored = await uploadWeights(id, streamChunks(c.req.raw.body), { store, blobs, actor: actorOf(c), now: () => deps.clock.now().toISOString(), maxBytes: max });
+    return c.json(unwrap(stored), 201);
   });
 
   route('models.weights.download', (c) => {

@@ -7,6 +7,7 @@ import { createAssignmentDispatcher } from './dispatch.js';
 import { createFactsReader } from './facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './gate.js';
 import { createPassPacer, type PassRequest, type PassResult } from './pacing.js';
+import type { Scheduler } from './scheduler.js';
 import type { RolloutSpec } from './spec.js';
 
 /** The actor of changes the engine makes on its own (wave starts, gate pauses, completion). */
@@ -20,6 +21,8 @@ export interface RolloutEngineOptions {
   /** Sends the broker has not acknowledged yet above which the engine waits before recording more (2,000 by default). */
   maxSendsInFlight?: number;
   log?: (line: string) => void;
+  /** The timers passes run on (the system's by default; tests advance their own). */
+  scheduler?: Scheduler;
 }
 
 export interface RolloutEngineDeps extends RolloutEngineOptions {
@@ -251,6 +254,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
 
   const pacer = createPassPacer({
     tickMs,
+    ...(deps.scheduler ? { scheduler: deps.scheduler } : {}),
     runPass: pass,
     reportsWake,
     changed,

@@ -1,3 +1,5 @@
+import { systemScheduler, type Scheduler } from './scheduler.js';
+
 /**
  * When the rollout engine runs its passes. A full pass looks at every open device of every moving rollout;
  * a short pass looks only at devices that just reported (their state or events were stored). Passes never
@@ -40,6 +42,8 @@ export interface PassPacer {
 
 export interface PacerOptions {
   tickMs: number;
+  /** The timers and the time the rests are counted in (the system's by default). */
+  scheduler?: Scheduler;
   runPass: PassRunner;
   /** Devices' reports wake the engine (then timer passes over unchanged rollouts rest FULL_PASS_REST times longer). */
   reportsWake: boolean;
@@ -50,8 +54,9 @@ export interface PacerOptions {
 
 export function createPassPacer(options: PacerOptions): PassPacer {
   const { tickMs, runPass } = options;
-  let timer: NodeJS.Timeout | null = null;
-  let scheduled: NodeJS.Timeout | null = null;
+  const scheduler = options.scheduler ?? systemScheduler;
+  let timer: (() => void) | null = null;
+  let scheduled: (() => void) | null = null;
   let chain: Promise<void> = Promise.resolve();
   let busy = false;
   let started = false;
@@ -74,8 +79,7 @@ export function createPassPacer(options: PacerOptions): PassPacer {
   function kick() {
     if (!started || scheduled || busy) return;
     if (!fullDue && dirty.size === 0) return;
-    scheduled = setTimeout(runNext, Math.max(0, restUntil - performance.now()));
-    scheduled.unref?.();
+    scheduled = scheduler.after(Math.max(0, restUntil - scheduler.nowMs()), runNext);
   }
 
   function runNext() {
@@ -99,7 +103,7 @@ export function createPassPacer(options: PacerOptions): PassPacer {
       busy = true;
       // A full pass may find a rollout that just started: collect the reports that arrive meanwhile.
       if (full) moving = true;
-      const begun = performance.now();
+      const begun = scheduler.nowMs();
       let busyMs = 0;
       try {
         const result = await runPass(request);
@@ -107,11 +111,11 @@ export function createPassPacer(options: PacerOptions): PassPacer {
         moving = result.moving;
         if (result.fullPassNow) fullDue = true;
       } catch (e) {
-        busyMs = performance.now() - begun;
+        busyMs = scheduler.nowMs() - begun;
         options.onError(e);
       } finally {
         busy = false;
-        const end = performance.now();
+        const end = scheduler.nowMs();
         restUntil = end + busyMs;
         if (full) nextFullAt = end + (options.reportsWake ? FULL_PASS_REST : 1) * busyMs;
         kick();
@@ -127,18 +131,17 @@ export function createPassPacer(options: PacerOptions): PassPacer {
       started = true;
       fullDue = true;
       kick();
-      timer = setInterval(() => {
+      timer = scheduler.every(tickMs, () => {
         if (busy) return;
-        if (!fullDue && performance.now() < nextFullAt && !safely(options.changed)) return;
+        if (!fullDue && scheduler.nowMs() < nextFullAt && !safely(options.changed)) return;
         fullDue = true;
         kick();
-      }, tickMs);
-      timer.unref?.();
+      });
     },
     stop: async function stop() {
       started = false;
-      if (timer) clearInterval(timer);
-      if (scheduled) clearTimeout(scheduled);
+      timer?.();
+      scheduled?.();
       timer = null;
       scheduled = null;
       await chain.catch(() => undefined);

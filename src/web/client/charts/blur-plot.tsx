@@ -1,4 +1,5 @@
 import { num } from '../format.js';
+import { LineSwatch, SeriesLegend, SeriesPaths, type SeriesStyle } from './legend.js';
 import { linearScale, logScale, OKABE_ITO } from './scale.js';
 
 export interface BlurPoint {
@@ -25,7 +26,7 @@ interface Props {
 type Key = 'totalPx' | 'defocusPx' | 'diffractionPx' | 'pixelPx' | 'motionPx';
 
 /** The parts of the combined blur, each drawn as its own line; the combined blur is at least the largest. */
-const SERIES: Array<{ key: Key; label: string; color: string; width: number; dash?: string }> = [
+const SERIES: Array<SeriesStyle<Key>> = [
   { key: 'totalPx', label: 'combined blur', color: OKABE_ITO.blue, width: 2.5 },
   { key: 'defocusPx', label: 'defocus', color: OKABE_ITO.orange, width: 1.5, dash: '5 3' },
   { key: 'diffractionPx', label: 'diffraction', color: OKABE_ITO.reddishPurple, width: 1.5, dash: '1 3' },
@@ -110,21 +111,14 @@ export function BlurPlot({ curve: sensorCurve, toleratedBlurPx, unit = 'sensor-p
             </text>
           </g>
         )}
-        {[...SERIES].reverse().map((s) => (
-          <path d={line(s.key)} fill="none" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} data-series={s.key} />
-        ))}
+        <SeriesPaths series={SERIES} pathOf={line} />
       </svg>
       <figcaption>
-        <ul class="legend">
-          {SERIES.map((s) => (
-            <li>
-              <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} /></svg> {s.label}
-            </li>
-          ))}
+        <SeriesLegend series={SERIES}>
           <li>
-            <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={OKABE_ITO.vermillion} stroke-width="2" stroke-dasharray="8 3 2 3" /></svg> tolerated blur
+            <LineSwatch color={OKABE_ITO.vermillion} width={2} dash="8 3 2 3" /> tolerated blur
           </li>
-        </ul>
+        </SeriesLegend>
         <details>
           <summary>Blur figures as a table</summary>
           <table class="grid compact">

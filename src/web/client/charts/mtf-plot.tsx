@@ -1,5 +1,6 @@
 import { num } from '../format.js';
 import { linearScale, OKABE_ITO } from './scale.js';
+import { SeriesLegend, SeriesPaths, type SeriesStyle } from './legend.js';
 
 export interface MtfPoint {
   cycPerMm: number;
@@ -22,7 +23,7 @@ const H = 230;
 const M = { left: 44, right: 14, top: 14, bottom: 40 };
 
 type Key = 'system' | 'diffraction' | 'defocus' | 'pixel' | 'motion';
-const SERIES: Array<{ key: Key; label: string; color: string; width: number; dash?: string }> = [
+const SERIES: Array<SeriesStyle<Key>> = [
   { key: 'system', label: 'system', color: OKABE_ITO.blue, width: 2.5 },
   { key: 'defocus', label: 'defocus', color: OKABE_ITO.orange, width: 1.5, dash: '5 3' },
   { key: 'diffraction', label: 'diffraction', color: OKABE_ITO.reddishPurple, width: 1.5, dash: '1 3' },
@@ -86,21 +87,14 @@ export function MtfPlot({ points, distanceM, downscale }: Props) {
           </g>
         )}
         {mtf50 !== null && <circle cx={x(mtf50)} cy={y(0.5)} r="4" fill="none" stroke={OKABE_ITO.vermillion} stroke-width="2" />}
-        {[...SERIES].reverse().map((s) => (
-          <path d={line(s.key)} fill="none" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} data-series={s.key} />
-        ))}
+        <SeriesPaths series={SERIES} pathOf={line} />
       </svg>
       <figcaption>
-        <ul class="legend">
-          {SERIES.map((s) => (
-            <li>
-              <svg width="28" height="8" aria-hidden="true"><line x1="0" x2="28" y1="4" y2="4" stroke={s.color} stroke-width={s.width} stroke-dasharray={s.dash} /></svg> {s.label}
-            </li>
-          ))}
+        <SeriesLegend series={SERIES}>
           <li>
             <svg width="12" height="12" aria-hidden="true"><circle cx="6" cy="6" r="4" fill="none" stroke={OKABE_ITO.vermillion} stroke-width="2" /></svg> MTF50
           </li>
-        </ul>
+        </SeriesLegend>
       </figcaption>
     </figure>
   );

@@ -1,26 +1,8 @@
 import { useRef, useState } from 'preact/hooks';
+import type { HistoryInterval } from '../../../api-client/response-types.js';
 import { clockTime, dateTime, duration } from '../format.js';
 import { colourForId, linearScale } from './scale.js';
 import { timeTicks } from './time-axis.js';
-
-export interface TimelineInterval {
-  /** 'offline': the server had no connection and the robot's own events do not say what it ran. */
-  kind: 'profile' | 'offline';
-  task: string | null;
-  profileId: string | null;
-  profileRevision: number | null;
-  /** On an offline interval: the release it had applied when it went. */
-  releaseId: string | null;
-  lastKnownTask?: string | null;
-  start: string;
-  end: string | null;
-  reason: string;
-  /** Seq of the task-switched event that started it; null on an offline interval. */
-  seq: number | null;
-  cause?: { rolloutId?: string; actor?: string; assignment?: string } | null;
-  /** 'after-the-fact': from events the robot kept while offline and delivered later, on its own clock. */
-  reported: 'live' | 'after-the-fact';
-}
 
 export interface TimelineMark {
   atMs: number;
@@ -29,7 +11,7 @@ export interface TimelineMark {
 }
 
 interface Props {
-  intervals: TimelineInterval[];
+  intervals: HistoryInterval[];
   marks: TimelineMark[];
   fromMs: number;
   toMs: number;

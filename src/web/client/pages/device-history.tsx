@@ -1,6 +1,6 @@
 import { useMemo } from 'preact/hooks';
 import { SeriesPlot, type SeriesPoint } from '../charts/series-plot.js';
-import type { TimelineInterval, TimelineMark } from '../charts/timeline.js';
+import type { TimelineMark } from '../charts/timeline.js';
 import { useLoad, useSession } from '../context.js';
 import { dateTime, duration, num } from '../format.js';
 import { sToMs } from '../../../physics/units.js';
@@ -13,11 +13,6 @@ export interface StoredEvent {
   [field: string]: unknown;
 }
 
-export interface DeviceHistory {
-  from: string;
-  to: string;
-  intervals: TimelineInterval[];
-}
 
 export interface DeviceEventsAnswer {
   events: StoredEvent[];

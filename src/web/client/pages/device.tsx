@@ -8,7 +8,8 @@ import type { DeviceDetail } from '../../../api-client/response-types.js';
 import { ErrorNote, Loading, OnlineBadge, SafetyCaution } from '../ui/status.js';
 import { DeviceAssign } from './device-assign.js';
 import { DeviceDrift } from './device-drift.js';
-import { DeviceEvents, DeviceMeasurements, DeviceUsage, marksOf, type DeviceEventsAnswer, type DeviceHistory } from './device-history.js';
+import { DeviceEvents, DeviceMeasurements, DeviceUsage, marksOf, type DeviceEventsAnswer } from './device-history.js';
+import type { DeviceHistoryAnswer } from '../../../api-client/response-types.js';
 
 const PRESETS: Array<{ label: string; spanMs: number }> = [
   { label: 'Last day', spanMs: 86_400_000 },
@@ -43,7 +44,7 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
   const device = useLoad(() => api.get<DeviceDetail>(`/devices/${encodeURIComponent(deviceId)}`), [deviceId]);
   const history = useLoad(
     // A window that ends at the present asks without 'to': the server's now, so what still runs (or is still offline) has no end.
-    () => api.get<DeviceHistory>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: win.toMs >= Date.now() - 5_000 ? undefined : new Date(win.toMs).toISOString() }),
+    () => api.get<DeviceHistoryAnswer>(`/devices/${encodeURIComponent(deviceId)}/history`, { from: new Date(win.fromMs).toISOString(), to: win.toMs >= Date.now() - 5_000 ? undefined : new Date(win.toMs).toISOString() }),
     [deviceId, win.fromMs, win.toMs],
   );
   const events = useLoad(

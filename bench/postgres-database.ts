@@ -1,0 +1,27 @@
+// A throwaway PostgreSQL database for a bench part: created with C collation (the store needs it), dropped after.
+import { randomBytes } from 'node:crypto';
+import { openPgSyncConnection } from '../src/store/pg-sync-connection.js';
+
+/** The machine's own server, trust auth, user postgres (override with OCELLUS_BENCH_POSTGRES_URL). */
+export const benchPostgresUrl = process.env.OCELLUS_BENCH_POSTGRES_URL ?? 'postgres://postgres@127.0.0.1:5432/postgres';
+
+export function databaseUrl(name: string): string {
+  const u = new URL(benchPostgresUrl);
+  u.pathname = `/${name}`;
+  return u.toString();
+}
+
+function admin(sql: string): void {
+  const c = openPgSyncConnection({ url: benchPostgresUrl, applicationName: 'ocellus-bench' });
+  try {
+    c.exec(sql);
+  } finally {
+    c.close();
+  }
+}
+
+export function createBenchDatabase(label: string): { name: string; url: string; drop(): void } {
+  const name = `ocellus_bench_${label}_${randomBytes(4).toString('hex')}`;
+  admin(`CREATE DATABASE ${name} TEMPLATE template0 LC_COLLATE 'C' LC_CTYPE 'C'`);
+  return { name, url: databaseUrl(name), drop: () => admin(`DROP DATABASE IF EXISTS ${name} WITH (FORCE)`) };
+}
