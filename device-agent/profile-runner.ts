@@ -293,8 +293,11 @@ export function createProfileRunner(deps: RunnerDeps) {
         activeTask = task;
         running = to;
         switched(fromTask, to, reason, overheadMs, outcome.actuationMs);
-        deps.releases.saveTask(applied.release.id, task);
+        const saved = deps.releases.saveTask(applied.release.id, task);
         deps.changed();
+        // The answer waits for the task to be on disk (a restart resumes the task the caller was told of); the
+        // overhead above is the switch's own, without this bookkeeping.
+        await saved;
         return { ok: true, task, overheadMs, actuationMs: outcome.actuationMs, toolMs: outcome.toolMs };
       });
     },

@@ -27,8 +27,12 @@ export interface ReleaseStore {
   trustedKeys(): string[];
   /** Records a newly applied release, its sequence and its active task (atomically, before the call resolves). */
   saveRelease(signed: unknown, mark: AppliedMark, activeTask: string): Promise<void>;
-  /** Records the active task after a switch; written behind the switch, latest value wins. */
-  saveTask(releaseId: string, activeTask: string): void;
+  /**
+   * Records the active task after a switch; written behind the switch, latest value wins. Resolves once the
+   * write was tried (never rejects: a failed write is the store's fault() and is retried), so a caller can
+   * answer "switched" only after the task would survive a power cut.
+   */
+  saveTask(releaseId: string, activeTask: string): Promise<void>;
   /** The last write that failed (a full disk, say), or null once everything asked for is on disk. */
   fault(): string | null;
   /** Resolves when every write asked for so far has been tried. */
@@ -68,7 +72,7 @@ export function createReleaseStore(options: ReleaseStoreOptions): ReleaseStore {
   const keysPath = join(dir, 'trusted-keys.json');
   let chain: Promise<void> = Promise.resolve();
   let latestTask: { releaseId: string; task: string } | null = null;
-  let taskWriteQueued = false;
+  let taskWrite: Promise<void> | null = null;
   let faulted: string | null = null;
   let retryTimer: NodeJS.Timeout | null = null;
   let closed = false;
@@ -148,12 +152,14 @@ export function createReleaseStore(options: ReleaseStoreOptions): ReleaseStore {
     },
     saveTask: function saveTask(releaseId, activeTask) {
       latestTask = { releaseId, task: activeTask };
-      if (taskWriteQueued) return;
-      taskWriteQueued = true;
-      void enqueue(() => {
-        taskWriteQueued = false;
+      // A write already queued has not filled in its task yet: it will write this latest one.
+      if (taskWrite) return taskWrite;
+      const write = enqueue(() => {
+        taskWrite = null;
         owed.set(taskPath, JSON.stringify(latestTask));
       }).catch(() => {});
+      taskWrite = write;
+      return write;
     },
     fault: () => faulted,
     settle: function settle() {
