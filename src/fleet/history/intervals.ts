@@ -93,14 +93,15 @@ export function deviceHistory(reader: EventRangeReader, assignments: readonly As
  */
 export function deviceHistoryWithOffline(
   reader: EventRangeReader,
-  connections: Pick<DeviceConnectionRepository, 'between' | 'lastBefore'>,
+  connections: Pick<DeviceConnectionRepository, 'window'>,
   assignments: readonly AssignmentRecord[],
   deviceId: string,
   w: HistoryWindow,
 ): HistoryInterval[] {
   const fromIso = new Date(w.fromMs).toISOString();
   const toIso = new Date(w.toMs).toISOString();
-  const periods = offlinePeriods(connections.lastBefore(deviceId, fromIso), connections.between(deviceId, fromIso, toIso));
+  const seen = connections.window(deviceId, fromIso, toIso);
+  const periods = offlinePeriods(seen.before, seen.changes);
   const profile = deviceHistory(reader, assignments, deviceId, w);
   if (periods.length === 0) return profile;
   return withOffline(deviceId, profile, periods.map((period) => ({ period, runs: reportedRuns(reader, deviceId, period) })), w);
