@@ -160,40 +160,46 @@ export function createEventRangeReader(db: SqlConnection): EventRangeReader {
 }
 
 /**
- * PostgreSQL's typedWindow: the seq search as a recursive bisection inside the server, then the typed events
- * and both neighbours, in one statement (one round trip instead of about twenty). f(m) = "the first stored
- * event at or after seq m is at or after the time"; it only turns from false to true as m grows (seq increases
- * with ts per device), so bisection over [lo − 1, hi + 1] finds the smallest m where it holds, and the first
- * stored seq from m is the answer (hi + 1 when no event is that late), the same as the interpolation search.
- * Times are compared as instants (ts::timestamptz, microseconds) against the window's millisecond bounds, which
- * is Date.parse's truncation to milliseconds.
+ * PostgreSQL's typedWindow: the same interpolation search as firstSeqAt, run inside the server as a recursive
+ * query (one row per bound and step, the state being firstSeqAt's variables), then the typed events and both
+ * neighbours, in one statement: one round trip instead of about twenty. Interpolation matters here, not only
+ * on SQLite: each probe reads ts from the table's heap, and a steady event rate lands in a few probes where
+ * plain bisection takes log2(n). Times are compared as instants truncated to milliseconds (ts::timestamptz,
+ * floor of epoch × 1000), as Date.parse does.
  */
 function serverTypedWindow(db: SqlConnection): EventRangeReader['typedWindow'] {
   const statement = db.prepare(`
     WITH RECURSIVE
       edges AS (
-        SELECT (SELECT seq FROM device_events WHERE device_id = @device ORDER BY seq LIMIT 1) AS lo,
-               (SELECT seq FROM device_events WHERE device_id = @device ORDER BY seq DESC LIMIT 1) AS hi),
-      bounds (bound, at) AS (
-        VALUES (0, timestamptz 'epoch' + @fromMs::bigint * interval '1 millisecond'),
-               (1, timestamptz 'epoch' + @toMs::bigint * interval '1 millisecond')),
-      search (bound, at, a, z, hi) AS (
-        SELECT b.bound, b.at, e.lo - 1, e.hi + 1, e.hi FROM bounds b, edges e WHERE e.lo IS NOT NULL
+        SELECT lo.seq AS lo_seq, lo.ms AS lo_ms, hi.seq AS hi_seq, hi.ms AS hi_ms
+        FROM (SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+              WHERE device_id = @device ORDER BY seq LIMIT 1) lo,
+             (SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+              WHERE device_id = @device ORDER BY seq DESC LIMIT 1) hi),
+      bounds (bound, at) AS (VALUES (0, @fromMs::bigint), (1, @toMs::bigint)),
+      search (bound, at, a, am, b, bm, lim, bis, answer) AS (
+        SELECT k.bound, k.at, e.lo_seq, e.lo_ms, e.hi_seq, e.hi_ms, e.hi_seq, false,
+               CASE WHEN e.lo_ms >= k.at THEN e.lo_seq WHEN e.hi_ms < k.at THEN e.hi_seq + 1 END
+        FROM bounds k CROSS JOIN edges e
         UNION ALL
         SELECT s.bound, s.at,
-               CASE WHEN p.ok THEN s.a ELSE (s.a + s.z) / 2 END,
-               CASE WHEN p.ok THEN (s.a + s.z) / 2 ELSE s.z END,
-               s.hi
+               CASE WHEN p.seq < s.lim AND p.ms < s.at THEN p.seq ELSE s.a END,
+               CASE WHEN p.seq < s.lim AND p.ms < s.at THEN p.ms ELSE s.am END,
+               CASE WHEN p.seq < s.lim AND p.ms >= s.at THEN p.seq ELSE s.b END,
+               CASE WHEN p.seq < s.lim AND p.ms >= s.at THEN p.ms ELSE s.bm END,
+               CASE WHEN p.seq >= s.lim OR p.ms >= s.at THEN m.mid ELSE s.lim END,
+               NOT s.bis,
+               NULL::bigint
         FROM search s
         CROSS JOIN LATERAL (
-          SELECT ts::timestamptz >= s.at AS ok FROM device_events
-          WHERE device_id = @device AND seq >= (s.a + s.z) / 2 ORDER BY seq LIMIT 1) p
-        WHERE s.z - s.a > 1),
+          SELECT least(s.lim - 1, greatest(s.a + 1, floor(0.5 + CASE WHEN s.bis OR s.bm <= s.am THEN (s.a + s.lim) / 2.0
+                 ELSE s.a + (s.at - s.am)::float8 / (s.bm - s.am) * (s.b - s.a) END)::bigint)) AS mid) m
+        CROSS JOIN LATERAL (
+          SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+          WHERE device_id = @device AND seq >= m.mid ORDER BY seq LIMIT 1) p
+        WHERE s.answer IS NULL AND s.lim - s.a > 1),
       found AS (
-        SELECT s.bound,
-               CASE WHEN s.z > s.hi THEN s.hi + 1
-                    ELSE (SELECT seq FROM device_events WHERE device_id = @device AND seq >= s.z ORDER BY seq LIMIT 1) END AS seq
-        FROM search s WHERE s.z - s.a <= 1),
+        SELECT bound, coalesce(answer, b) AS seq FROM search WHERE answer IS NOT NULL OR lim - a <= 1),
       range AS (
         SELECT coalesce((SELECT seq FROM found WHERE bound = 0), 1) AS lo_seq,
                coalesce((SELECT seq FROM found WHERE bound = 1), 1) AS hi_seq)
