@@ -3,6 +3,7 @@ import { join } from 'node:path';
 import { decodeMessage } from '../src/protocol/decode.js';
 import { MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
 import { PROTOCOL_VERSION, eventBodySchema, type EventBody, type StateMessage } from '../src/protocol/messages.js';
+import { eventLine } from './event-lines.js';
 import { taskOf } from '../src/protocol/release.js';
 import { systemClock, type AgentClock } from './clock.js';
 import type { AgentConfig } from './config.js';
@@ -71,6 +72,8 @@ export function createAgent(deps: AgentDeps): Agent {
     if (!checked.success) return log(`agent: dropped an invalid ${body.type} event: ${checked.error.issues[0]!.message}`);
     events!.append(body);
     outbox!.kick();
+    const line = eventLine(checked.data);
+    if (line) log(`agent: ${line}`);
   }
 
   function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {

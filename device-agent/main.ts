@@ -11,6 +11,7 @@ import { readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { describeIssues } from '../src/schema/issues.js';
 import { createAgent } from './agent.js';
+import { msText } from './event-lines.js';
 import { resolveAgentSettings, resolvePassword, envOf, flagOf, agentSettingsSchema } from './config.js';
 import { callControl } from './control-client.js';
 import type { ControlEndpoint } from './control-server.js';
@@ -64,7 +65,7 @@ async function control(argv: string[], method: 'GET' | 'POST', path: string, bod
       // A line for people; --json gives the control endpoint's answer.
       const b = res.body as { task?: string; unchanged?: boolean; actuationMs?: number; error?: string };
       const text = ok
-        ? b.unchanged ? `task ${b.task} was already running` : `switched to task ${b.task} (actuation ${b.actuationMs ?? 0} ms)`
+        ? b.unchanged ? `task ${b.task} was already running` : `switched to task ${b.task} (actuation ${msText(b.actuationMs ?? 0)})`
         : `task not switched: ${b.error ?? JSON.stringify(res.body)}`;
       (ok ? process.stdout : process.stderr).write(`${text}\n`);
     }

@@ -10,6 +10,7 @@ import type { WeightsUploadRefusalCode } from '../documents/weights.js';
 import type { EnrolmentRefusalCode } from '../fleet/enrolment/credentials.js';
 import type { ProfileDiffRefusalCode } from '../profiles/diff.js';
 import type { ProfileSaveRefusalCode } from '../profiles/save.js';
+import type { PreviewRefusalCode } from '../profiles/preview.js';
 import type { Outcome, Refusal } from '../schema/refusal.js';
 import { HttpError } from './errors.js';
 
@@ -18,6 +19,7 @@ export type RefusalCode =
   | ReissueRefusalCode
   | ProfileSaveRefusalCode
   | ProfileDiffRefusalCode
+  | PreviewRefusalCode
   | DocumentSaveRefusalCode
   | WeightsUploadRefusalCode
   | EnrolmentRefusalCode
@@ -57,6 +59,8 @@ const STATUS_OF: Record<RefusalCode, ContentfulStatusCode> = {
   'weights-mismatch': 400,
   'device-enrolled': 409,
   'token-not-found': 404,
+  'image-too-large': 413,
+  'image-unreadable': 400,
 };
 
 /** The HTTP error for a refusal: its status from the table, its message and issues, its detail as extra fields. */

@@ -17,6 +17,7 @@ import {
   diffQuerySchema,
   enrolRequestSchema,
   releaseQuerySchema,
+  renderPreviewRequestSchema,
   tokenRequestSchema,
   weightsQuerySchema,
 } from './request-schemas.js';
@@ -85,6 +86,7 @@ export const ROUTES: readonly RouteSpec[] = [
   { key: 'profiles.revisions', method: 'get', path: `${P}/:id/revisions`, access: 'viewer', mutates: false, summary: 'Every revision of a profile', tag: 'profiles' },
   { key: 'profiles.revision', method: 'get', path: `${P}/:id/revisions/:revision`, access: 'viewer', mutates: false, summary: 'One revision of a profile', tag: 'profiles' },
   { key: 'profiles.diff', method: 'get', path: `${P}/:id/diff`, access: 'viewer', mutates: false, query: diffQuerySchema, summary: 'Field-level differences between two revisions', tag: 'profiles' },
+  { key: 'render-preview', method: 'post', path: `${API_BASE}/render-preview`, access: 'viewer', mutates: false, body: renderPreviewRequestSchema, summary: "What the robot sees: a sample image through a profile's point-spread function and sensor noise at a distance, as a PNG at the network's input size", tag: 'profiles' },
   { key: 'validate', method: 'post', path: `${API_BASE}/validate`, access: 'viewer', mutates: false, body: profileSchema, summary: 'Validate a profile without saving it', tag: 'profiles' },
   { key: 'plan', method: 'post', path: `${API_BASE}/plan`, access: 'engineer', mutates: false, body: planRequestSchema, summary: 'Search settings for a task on a device class: the Pareto front of candidates that pass every check (energy, accuracy, latency), or the binding constraints and near misses; up to about a second of CPU', tag: 'profiles' },
 

@@ -39,10 +39,17 @@ const DEFAULT_ROLLOUT_AT_S = 120;
  */
 function stopRequest(io: CliIo) {
   let stopping = false;
+  let repeats = 0;
   let resolveStop: (why: string) => void = () => {};
   const requested = new Promise<string>((resolvePromise) => (resolveStop = resolvePromise));
   const onSignal = (signal: string) => {
-    if (stopping) return void io.stderr(`demo: ${signal} again; already stopping\n`);
+    // One Ctrl-C reaches the demo twice (from the terminal and relayed by its launcher): only a second
+    // press, a third signal, is worth an answer.
+    if (stopping) {
+      repeats += 1;
+      if (repeats === 2) io.stderr(`demo: ${signal} again; still stopping the robots, the server and the broker\n`);
+      return;
+    }
     stopping = true;
     resolveStop(signal);
   };

@@ -14,7 +14,9 @@ export const usage = `usage: ocellus import-network <model.onnx|model.tflite> [-
   Reads a deployed model file and writes the network document its weights describe: one layer per node that
   computes on the image, every tensor's shape inferred (shapes computed inside the graph are folded), weights
   counted whether stored as initializers or Constant nodes. An operator this importer does not know is an error
-  naming the node. --input-shape fixes symbolic input dimensions (N must be 1: costs are per image).
+  naming the node. --input-shape fixes symbolic input dimensions (N must be 1: costs are per image); it is N,C,H,W for
+  TFLite files too, whose NHWC input is set from it. TFLite files: weights are counted whatever their stored
+  type; their bytes follow --precision (int8: 1 byte per parameter), and the stored types are listed.
   --out FILE writes the document (JSON); without it a summary is printed. --json prints
   {network, macs, params, batch_norm_params, peak_activation_bytes, layers[…]} with the keys of 'ocellus cost --json'.
 `;
@@ -29,6 +31,14 @@ function parseShape(raw: string): number[] {
 
 const slug = (file: string): string =>
   basename(file, extname(file)).toLowerCase().replace(/[^a-z0-9._-]+/g, '-').replace(/^[^a-z0-9]+/, '').slice(0, 64) || 'imported';
+
+/** "int8 4,209,088; int32 1,000": parameters by the element type the file stores them in. */
+function storageText(storage: Record<string, number>): string {
+  return Object.entries(storage)
+    .sort((a, b) => b[1] - a[1])
+    .map(([type, n]) => `${type} ${n.toLocaleString('en-US')}`)
+    .join('; ');
+}
 
 export async function run(args: string[], io: CliIo): Promise<number> {
   return guard(io, usage, async () => {
@@ -68,7 +78,9 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       id: values.id ?? slug(shown),
       name: values.name ?? basename(shown),
     });
-    const network = { ...imported.network, notes: `Imported from ${basename(shown)} (sha256 ${sha256}).` };
+    const storage = imported.weightStorage ? storageText(imported.weightStorage) : undefined;
+    const stored = storage ? ` Weights stored as ${storage}; bytes are counted from the model's precision.` : '';
+    const network = { ...imported.network, notes: `Imported from ${basename(shown)} (sha256 ${sha256}).${stored}` };
     const parsed = networkSchema.parse(network);
     const analysis = analyzeNetwork(parsed);
     if (values.out !== undefined) {
@@ -85,6 +97,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
         ['layers', String(parsed.layers.length)],
         ['multiply-accumulates', num(analysis.macs, 6)],
         ['parameters', num(analysis.params, 6)],
+        ...(storage ? [['weights stored', storage] as [string, string]] : []),
         ['batch-norm parameters', `${num(analysis.batchNormParams, 6)} (not in parameters; folded at deployment)`],
         ...(values.out !== undefined ? [['written', values.out] as [string, string]] : []),
       ]),

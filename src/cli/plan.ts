@@ -7,6 +7,7 @@ import { idSchema } from '../schema/index.js';
 import { candidateToProfile, plan } from '../plan/index.js';
 import type { Candidate, ModelCandidate, PlanOptions, PlanResult } from '../plan/index.js';
 import { formatCheck } from '../validate/index.js';
+import { shippedFromFile } from './shipped-network.js';
 import { guard, optionalNumber, parseFlags, printJson, UsageError } from './args.js';
 import { EXIT_BAD_INPUT, EXIT_CHECK_FAILED, EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
@@ -41,16 +42,18 @@ const FLAGS = {
   help: { type: 'boolean' },
 } as const;
 
-function modelCandidates(catalog: Catalog, wanted: string[] | undefined, catalogDir: string): ModelCandidate[] {
+/** Models and their networks; a model that takes its network from its weights file brings the network read from it. */
+async function modelCandidates(catalog: Catalog, wanted: string[] | undefined, catalogDir: string, cwd: string): Promise<ModelCandidate[]> {
   const ids = wanted ?? catalog.documents.flatMap((d) => (d.kind === 'model' ? [d.value.id] : []));
   if (ids.length === 0) throw new UsageError(`no models found in ${catalogDir}`);
-  return ids.map((id) => {
+  const pairs = ids.map((id) => {
     const model = findDocument(catalog, 'model', id);
     if (!model) throw new UsageError(`--models: model '${id}' not found in ${catalogDir}`);
     const network = findDocument(catalog, 'network', model.networkId);
     if (!network) throw new UsageError(`model '${id}' names network '${model.networkId}', which is not in ${catalogDir}`);
     return { model, network };
   });
+  return Promise.all(pairs.map(async (p) => ({ ...p, ...(await shippedFromFile(catalog, p.model, p.network, cwd)) })));
 }
 
 const f3 = (v: number) => (Math.abs(v) >= 100 ? v.toFixed(0) : Math.abs(v) >= 10 ? v.toFixed(1) : v.toFixed(2));
@@ -131,7 +134,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const deviceClass = findDocument(catalog, 'device-class', values['device-class']);
     if (!deviceClass) throw new UsageError(`--device-class: device class '${values['device-class']}' not found in ${catalogDir}`);
     const wanted = values.models?.flatMap((m) => m.split(',')).map((m) => m.trim()).filter((m) => m !== '');
-    const candidates = modelCandidates(catalog, wanted, catalogDir);
+    const candidates = await modelCandidates(catalog, wanted, catalogDir, io.cwd);
 
     const result = plan({ task, deviceClass, candidates, options });
     if (values.json) printJson(io, result);

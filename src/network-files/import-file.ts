@@ -1,5 +1,5 @@
-import { InputError } from '../schema/issues.js';
 import { importOnnx, type ImportedNetwork, type OnnxImportOptions } from './onnx-import.js';
+import { importTflite } from './tflite-import.js';
 
 export type ModelFileFormat = 'onnx' | 'tflite';
 
@@ -9,11 +9,18 @@ export function sniffFormat(bytes: Uint8Array): ModelFileFormat {
   return 'onnx';
 }
 
-/** Import a model file of either format, told apart by its content rather than its name. */
-export function importNetworkFile(bytes: Uint8Array, source: string, options: OnnxImportOptions = {}): ImportedNetwork & { format: ModelFileFormat } {
-  const format = sniffFormat(bytes);
-  if (format === 'tflite') {
-    throw new InputError(`${source} is a TFLite file; this version imports ONNX files only`, [{ path: '(file)', message: 'TFLite import is not available' }], source);
-  }
+export interface ImportedFile extends ImportedNetwork {
+  format: ModelFileFormat;
+  /** TFLite only: parameters by the element type the file stores them in. */
+  weightStorage?: Record<string, number>;
+}
+
+/**
+ * Import a model file of either format, told apart by its content rather than its name; a file named
+ * .tflite without the TFLite identifier is read as TFLite all the same, so its error says what is wrong.
+ */
+export function importNetworkFile(bytes: Uint8Array, source: string, options: OnnxImportOptions = {}): ImportedFile {
+  const format = sniffFormat(bytes) === 'tflite' || /\.tflite$/i.test(source) ? 'tflite' : 'onnx';
+  if (format === 'tflite') return { ...importTflite(bytes, source, options), format };
   return { ...importOnnx(bytes, source, options), format };
 }

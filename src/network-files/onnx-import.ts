@@ -6,9 +6,10 @@
  * compute shapes (Shape → Slice → Concat → Reshape) are folded. Anything else is an error naming the node.
  */
 import type { onnx } from 'onnx-proto';
-import { analyzeNetwork } from '../physics/network-cost.js';
 import { InputError } from '../schema/issues.js';
-import { networkSchema, type NetworkInput } from '../schema/network.js';
+import type { NetworkInput } from '../schema/network.js';
+import { crossCheckShapes } from './cross-check.js';
+import { layerIdOf } from './layer-id.js';
 import { foldNode } from './onnx-fold.js';
 import { onnxProto } from './onnx-proto.js';
 import { chw, mapNode, NodeProblem, reshapeTo, resolveReshape, type LayerDraft, type Operand } from './onnx-layers.js';
@@ -52,7 +53,6 @@ function decode(bytes: Uint8Array, source: string): onnx.ModelProto {
   return model;
 }
 
-const layerIdOf = (raw: string): string => raw.replace(/[^A-Za-z0-9._:/-]/g, '_').slice(-64) || 'node';
 
 export function importOnnx(bytes: Uint8Array, source: string, options: OnnxImportOptions = {}): ImportedNetwork {
   const model = decode(bytes, source);
@@ -228,19 +228,9 @@ export function importOnnx(bytes: Uint8Array, source: string, options: OnnxImpor
   return { network, tensorDims, inputName, outputNames: (graph.output ?? []).map((o) => o.name ?? ''), opsetVersion: opset === undefined || opset === null ? 0 : toInt(opset) };
 }
 
-/** The cost walk must reach the same c×h×w as the importer for every layer; a disagreement is a bug to report. */
+/** The cost walk must reach the same c×h×w as the importer for every layer. */
 function crossCheck(network: NetworkInput, activations: Map<string, Activation>, source: string): void {
-  const parsed = networkSchema.safeParse(network);
-  if (!parsed.success) throw new InputError(`${source}: the imported layers do not form a valid network document`, parsed.error.issues.map((i) => ({ path: i.path.join('.'), message: i.message })), source);
-  const analysis = analyzeNetwork(parsed.data);
   const byLayer = new Map<string, number[]>();
-  for (const a of activations.values()) if (a.layer !== INPUT) byLayer.set(a.layer, a.dims);
-  analysis.layers.forEach((l, i) => {
-    const dims = byLayer.get(l.id);
-    if (!dims) return;
-    const expected = chw(dims);
-    if (expected.some((d, k) => d !== l.outShape[k])) {
-      throw new InputError(`${source}: layer ${l.id}: the cost walk gives ${l.outShape.join('×')}, the ONNX graph ${expected.join('×')}`, [{ path: `layers[${i}]`, message: 'shape disagreement between importer and cost walk' }], source);
-    }
-  });
+  for (const a of activations.values()) if (a.layer !== INPUT) byLayer.set(a.layer, chw(a.dims));
+  crossCheckShapes(network, byLayer, source, 'ONNX');
 }

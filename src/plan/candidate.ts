@@ -78,9 +78,10 @@ export interface Confirmation {
 
 /** Run the real validator on a candidate of the grid and compare its figures with the fast evaluator's. */
 export function confirmCandidate(t: PlanTables, index: number, candidate: Candidate, calibration?: Calibration): Confirmation {
-  const { model, network } = t.models[unpackIndex(t, index).m]!;
+  const { model, network, declaredNetwork } = t.models[unpackIndex(t, index).m]!;
   const profile = candidateToProfile(candidate, { id: 'planned', taskId: t.task.id, deviceClassId: t.deviceClass.id });
-  const report = validate({ profile, task: t.task, deviceClass: t.deviceClass, model, network }, calibration ? { calibration } : {});
+  const networks = declaredNetwork ? { network: declaredNetwork, shippedNetwork: network } : { network };
+  const report = validate({ profile, task: t.task, deviceClass: t.deviceClass, model, ...networks }, calibration ? { calibration } : {});
   const failing = report.checks.filter((c) => c.status === 'fail');
   const fig = report.figures;
   const worst = fig.blurCurve.reduce((w, p) => (p.totalPx > w ? p.totalPx : w), -Infinity);

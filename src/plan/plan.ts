@@ -5,6 +5,7 @@
 import { analyzeNetwork } from '../physics/network-cost.js';
 import { InputError, deviceClassSchema, modelSchema, networkSchema, parseWith, taskSchema } from '../schema/index.js';
 import type { CheckCode, DeviceClass, InputIssue, Task } from '../schema/index.js';
+import { shippedNetworkMismatch } from '../validate/index.js';
 import { candidateAt, confirmCandidate } from './candidate.js';
 import { FAIL_CODES, MASK_COUNT } from './codes.js';
 import { candidateCount } from './evaluator.js';
@@ -36,7 +37,14 @@ function parseInput(input: PlanInput): { task: Task; deviceClass: DeviceClass; c
       const network = networks.get(c?.network) ?? parseWith(networkSchema, c?.network);
       networks.set(c?.network, network);
       if (!network.ok) network.issues.forEach(at(`candidates[${i}].network`));
-      if (model.ok && network.ok) candidates.push({ model: model.value, network: network.value });
+      let shipped: Pick<ModelCandidate, 'shippedNetwork' | 'shippedNetworkProblem'> = {};
+      if (c?.shippedNetwork !== undefined) {
+        const parsed = networks.get(c.shippedNetwork) ?? parseWith(networkSchema, c.shippedNetwork);
+        networks.set(c.shippedNetwork, parsed);
+        if (!parsed.ok) parsed.issues.forEach(at(`candidates[${i}].shippedNetwork`));
+        else shipped = { shippedNetwork: parsed.value };
+      } else if (typeof c?.shippedNetworkProblem === 'string') shipped = { shippedNetworkProblem: c.shippedNetworkProblem };
+      if (model.ok && network.ok) candidates.push({ model: model.value, network: network.value, ...shipped });
     });
   }
   if (!task.ok || !deviceClass.ok || issues.length > 0) throw new InputError('plan input is not valid', issues, 'plan input');
@@ -44,14 +52,16 @@ function parseInput(input: PlanInput): { task: Task; deviceClass: DeviceClass; c
 }
 
 /** Why a model is left out of the search: the validator's check it would fail, or listed twice. */
-type SkipCode = Extract<CheckCode, 'model-task' | 'model-precision' | 'model-network' | 'network-cost'> | 'duplicate-model';
+type SkipCode = Extract<CheckCode, 'model-task' | 'model-precision' | 'model-network' | 'network-cost' | 'network-weights'> | 'duplicate-model';
 
 /** Models the search can use: measured for the task, of the accelerator's precision, costable; the rest are skipped with the validator's reason. */
 function plannedModels(task: Task, deviceClass: DeviceClass, candidates: ModelCandidate[]): { models: PlannedModel[]; skipped: (SkippedModel & { code: SkipCode })[] } {
   const models: PlannedModel[] = [];
   const skipped: (SkippedModel & { code: SkipCode })[] = [];
   const precision = deviceClass.accelerator.precision;
-  for (const { model, network } of candidates) {
+  for (const { model, network: declared, shippedNetwork, shippedNetworkProblem } of candidates) {
+    const fromWeights = model.networkFrom === 'weights';
+    const network = fromWeights && shippedNetwork ? shippedNetwork : declared;
     const skip = (code: SkipCode, reason: string) => skipped.push({ modelId: model.id, code, reason });
     if (models.some((m) => m.model.id === model.id)) {
       skip('duplicate-model', `model ${model.id} is listed more than once; the first is used`);
@@ -59,12 +69,16 @@ function plannedModels(task: Task, deviceClass: DeviceClass, candidates: ModelCa
       skip('model-task', `model ${model.id} was measured for ${model.measuredForTaskIds.join(', ')}, not for task ${task.id}`);
     } else if (model.precision !== precision) {
       skip('model-precision', `model ${model.id} is ${model.precision} but the accelerator of ${deviceClass.id} runs ${precision}`);
-    } else if (model.networkId !== network.id) {
-      skip('model-network', `model ${model.id} names network '${model.networkId}' but the network given is '${network.id ?? '(no id)'}'`);
+    } else if (model.networkId !== declared.id) {
+      skip('model-network', `model ${model.id} names network '${model.networkId}' but the network given is '${declared.id ?? '(no id)'}'`);
+    } else if (fromWeights && !shippedNetwork) {
+      skip('network-weights', `model ${model.id} takes its network from its weights, which gave none: ${shippedNetworkProblem ?? 'the weights were not read'}`);
+    } else if (fromWeights && shippedNetworkMismatch(declared, network) !== null) {
+      skip('network-weights', `network ${declared.id ?? declared.name} does not match the shipped weights of model ${model.id}: ${shippedNetworkMismatch(declared, network)}`);
     } else {
       try {
         const shared = models.find((m) => m.network === network);
-        models.push({ model, network, analysis: shared ? shared.analysis : analyzeNetwork(network) });
+        models.push({ model, network, analysis: shared ? shared.analysis : analyzeNetwork(network), ...(fromWeights ? { declaredNetwork: declared } : {}) });
       } catch (e) {
         skip('network-cost', `network ${network.id ?? '(no id)'} of model ${model.id} cannot be costed: ${e instanceof Error ? e.message : String(e)}`);
       }

@@ -25,8 +25,11 @@ import type { SearchAxes } from './types.js';
 
 export interface PlannedModel {
   model: Model;
+  /** The network costed: the shipped one when the model takes its network from its weights. */
   network: Network;
   analysis: NetworkAnalysis;
+  /** The declared network, when `network` is the shipped one (the validator checks the two match). */
+  declaredNetwork?: Network;
 }
 
 export interface PlanTables {

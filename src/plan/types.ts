@@ -4,7 +4,12 @@ import type { Calibration } from '../validate/index.js';
 /** One model the planner may choose, with the network it runs. */
 export interface ModelCandidate {
   model: Model;
+  /** The declared network document. */
   network: Network;
+  /** The network read from the model's weights, when the model takes its network from them (`networkFrom: "weights"`): it is the one costed. */
+  shippedNetwork?: Network;
+  /** Why the weights gave no network; the model is then skipped with this reason. */
+  shippedNetworkProblem?: string;
 }
 
 /** How the search space is laid out. Every field has a default; see DEFAULT_PLAN_OPTIONS. */

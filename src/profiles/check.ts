@@ -5,10 +5,12 @@ import type { Network } from '../schema/network.js';
 import { physicalLimitIssues, type Profile } from '../schema/profile.js';
 import type { Report } from '../schema/report.js';
 import type { Task } from '../schema/task.js';
+import type { DocumentRecord } from '../store/documents.js';
 import type { RevisionRefs } from '../store/profiles.js';
 import type { Store } from '../store/store.js';
 import { refuse, type Outcome } from '../schema/refusal.js';
 import { validate } from '../validate/index.js';
+import type { ShippedNetworks } from './shipped-networks.js';
 
 /** Why a profile cannot be checked: documents it refers to are not stored, or settings the hardware cannot take. */
 export type ProfileRefusalCode = 'references-not-stored' | 'physically-impossible';
@@ -20,10 +22,51 @@ export interface CheckedProfile {
 
 /**
  * Looks up the latest task, device class, model and its network a profile refers to, refuses settings
- * the hardware cannot take, and validates the rest. Missing references and impossible settings are refusals
- * naming the field; a profile that fails checks is not refused: its report says so.
+ * the hardware cannot take, and validates the rest. A model that takes its network from its weights is
+ * costed from its uploaded weights (`shipped`), and a declared network that does not match them fails the
+ * report's network-weights check. Missing references and impossible settings are refusals naming the
+ * field; a profile that fails checks is not refused: its report says so.
  */
-export function checkProfile(store: Store, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
+export function checkProfile(store: Store, shipped: ShippedNetworks, profile: Profile): Outcome<CheckedProfile, ProfileRefusalCode> {
+  const found = profileDocuments(store, profile);
+  if (!found.ok) return found;
+  const { task, deviceClass, model, network } = found.value;
+  const report = validate({
+    profile,
+    task: task.document,
+    deviceClass: deviceClass.document,
+    model: model.document,
+    network: network.document,
+    ...shipped.forModel(model.document, network.document),
+  });
+  // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
+  const stored = JSON.parse(JSON.stringify(report)) as Report;
+  return {
+    ok: true,
+    value: {
+      report: stored,
+      refs: {
+        task: { id: task.id, version: task.version },
+        deviceClass: { id: deviceClass.id, version: deviceClass.version },
+        model: { id: model.id, version: model.version },
+        network: { id: network.id, version: network.version },
+      },
+    },
+  };
+}
+
+export interface ProfileDocuments {
+  task: DocumentRecord<Task>;
+  deviceClass: DocumentRecord<DeviceClass>;
+  model: DocumentRecord<Model>;
+  network: DocumentRecord<Network>;
+}
+
+/**
+ * The latest stored task, device class, model and network a profile refers to; missing references and
+ * settings the hardware cannot physically take are refusals naming the field.
+ */
+export function profileDocuments(store: Store, profile: Profile): Outcome<ProfileDocuments, ProfileRefusalCode> {
   const task = store.documents.latest<Task>('task', profile.taskId);
   const deviceClass = store.documents.latest<DeviceClass>('device-class', profile.deviceClassId);
   const model = store.documents.latest<Model>('model', profile.modelId);
@@ -42,25 +85,5 @@ export function checkProfile(store: Store, profile: Profile): Outcome<CheckedPro
   if (impossible.length > 0) {
     return refuse('physically-impossible', `settings device class '${deviceClass.id}' cannot physically take`, impossible);
   }
-  const report = validate({
-    profile,
-    task: task.document,
-    deviceClass: deviceClass.document,
-    model: model.document,
-    network: network.document,
-  });
-  // JSON drops what it cannot hold (an infinite blur becomes null): store and return the same thing.
-  const stored = JSON.parse(JSON.stringify(report)) as Report;
-  return {
-    ok: true,
-    value: {
-      report: stored,
-      refs: {
-        task: { id: task.id, version: task.version },
-        deviceClass: { id: deviceClass.id, version: deviceClass.version },
-        model: { id: model.id, version: model.version },
-        network: { id: network.id, version: network.version },
-      },
-    },
-  };
+  return { ok: true, value: { task, deviceClass, model, network } };
 }

@@ -3,12 +3,15 @@ import { refuse, type Outcome } from '../schema/refusal.js';
 import type { ProfileRevision } from '../store/profiles.js';
 import type { Store } from '../store/store.js';
 import { checkProfile, type ProfileRefusalCode } from './check.js';
+import type { ShippedNetworks } from './shipped-networks.js';
 
 /** Why a profile save was refused: its inputs (see `checkProfile`), or a clash with what is stored. */
 export type ProfileSaveRefusalCode = ProfileRefusalCode | 'profile-exists' | 'profile-not-found';
 
 export interface ProfileSaveContext {
   store: Store;
+  /** The networks of models that take theirs from their uploaded weights. */
+  shipped: ShippedNetworks;
   actor: string;
   at: string;
 }
@@ -21,7 +24,7 @@ export function createProfile(profile: Profile, ctx: ProfileSaveContext): Outcom
   const { store, actor, at } = ctx;
   const exists = () => refuse('profile-exists', `profile '${profile.id}' already exists; use PUT to save a new revision`);
   if (store.profiles.latest(profile.id)) return exists();
-  const checked = checkProfile(store, profile);
+  const checked = checkProfile(store, ctx.shipped, profile);
   if (!checked.ok) return checked;
   const { report, refs } = checked.value;
   return store.transaction(() => {
@@ -37,7 +40,7 @@ export function reviseProfile(profile: Profile, ctx: ProfileSaveContext): Outcom
   const { store, actor, at } = ctx;
   const id = profile.id;
   if (!store.profiles.latest(id)) return refuse('profile-not-found', `profile '${id}' (use POST to create it) not found`);
-  const checked = checkProfile(store, profile);
+  const checked = checkProfile(store, ctx.shipped, profile);
   if (!checked.ok) return checked;
   const { report, refs } = checked.value;
   return store.transaction(() => {

@@ -22,9 +22,14 @@ export interface ReissueContext {
  * Going back to an older release: a NEW release, with the next sequence number of its device class, a
  * fresh expiry and the old release's content (tasks, weights by hash, default task, apply policy,
  * audience), naming the release it re-issues. Devices refuse a lower sequence than they applied, so
- * this is the only way back. Signs and stores it with its audit entry; call inside a transaction.
+ * this is the only way back. Signs and stores it with its audit entry in one transaction (joining the
+ * caller's, when there is one: a rollback re-issues inside its own).
  */
 export function reissueRelease(sourceId: string, ctx: ReissueContext): ReissueResult {
+  return ctx.store.transaction(() => reissueIn(sourceId, ctx));
+}
+
+function reissueIn(sourceId: string, ctx: ReissueContext): ReissueResult {
   const record = ctx.store.releases.get(sourceId);
   if (!record) return refuse('reissue-source-not-found', `no release '${sourceId}' is stored`, [{ path: 'releaseId', message: sourceId }]);
   const source = record.parsed.release;

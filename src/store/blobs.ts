@@ -1,5 +1,5 @@
 import { createHash, randomBytes } from 'node:crypto';
-import { createReadStream, lstatSync, mkdirSync, readdirSync, rmSync, statSync, type ReadStream } from 'node:fs';
+import { createReadStream, lstatSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync, type ReadStream } from 'node:fs';
 import { open, rename, rm } from 'node:fs/promises';
 import { join } from 'node:path';
 import { syncFolder } from './durable-file.js';
@@ -30,6 +30,8 @@ export interface BlobStore {
    * (and declared size) match. On any refusal or error the temporary file is removed.
    */
   put(source: AsyncIterable<Uint8Array>, expect: BlobPutExpectation): Promise<BlobPutResult>;
+  /** The whole content of a stored blob, or null when absent. */
+  readWhole(sha256: string): Buffer | null;
   /** Reads a stored blob, or the inclusive byte range [start, end] of it. */
   read(sha256: string, range?: { start: number; end: number }): ReadStream;
 }
@@ -136,5 +138,14 @@ export function createBlobStore(dataDir: string, options: BlobStoreOptions = {})
     return createReadStream(pathOf(sha256), range ? { start: range.start, end: range.end } : {});
   }
 
-  return { root, pathOf, sizeOf, put, read };
+  function readWhole(sha256: string): Buffer | null {
+    try {
+      return readFileSync(pathOf(sha256));
+    } catch (e) {
+      if ((e as NodeJS.ErrnoException).code === 'ENOENT') return null;
+      throw e;
+    }
+  }
+
+  return { root, pathOf, sizeOf, put, readWhole, read };
 }

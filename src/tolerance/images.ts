@@ -37,7 +37,8 @@ export async function listImages(dir: string, shownDir: string): Promise<string[
 }
 
 /** Decode one file to the input size, stretched to fill (as a camera frame is resized for the network). */
-export async function decodeImage(file: string, shown: string, size: InputSize): Promise<Uint8Array> {
+/** Decodes a file (path) or encoded bytes, resized to the network's input. */
+export async function decodeImage(file: string | Buffer, shown: string, size: InputSize): Promise<Uint8Array> {
   try {
     let pipeline = sharp(file, { failOn: 'error' }).removeAlpha();
     pipeline = size.channels === 1 ? pipeline.toColourspace('b-w') : pipeline.toColourspace('srgb');

@@ -9,3 +9,6 @@ export type { BlurTolerance, TaskCurves } from './tolerance.js';
 export { BLUR_SAMPLES, blurCurveOf, downscaleFactor, imageSetup, sampleDistancesM, workingFNumberForFocus, worstCombinedBlurPx, worstPoint } from './image-model.js';
 export type { BlurPoint, ImageSetup } from './image-model.js';
 export { NEAR_CLIPPING_FRACTION } from './signal-checks.js';
+export { shippedNetworkFrom } from './shipped-network.js';
+export type { ShippedNetwork } from './shipped-network.js';
+export { shippedNetworkMismatch } from './network-weights.js';

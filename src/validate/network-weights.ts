@@ -21,6 +21,18 @@ function firstDifference(declaredAll: NetworkAnalysis, shippedAll: NetworkAnalys
   return null;
 }
 
+/**
+ * Why a declared network does not describe the shipped one (the first costed layer that differs), or null
+ * when they match; either network that cannot be costed is a difference too.
+ */
+export function shippedNetworkMismatch(declared: ValidationInput['network'], shipped: ValidationInput['network']): string | null {
+  try {
+    return firstDifference(cachedAnalysis(declared), cachedAnalysis(shipped), declared.id ?? declared.name);
+  } catch (e) {
+    return `the declared and shipped networks cannot both be costed: ${(e as Error).message}`;
+  }
+}
+
 /** The input whose network is costed: the shipped one when the model takes its network from its weights. */
 export function costedInput(input: ValidationInput): ValidationInput {
   return input.model.networkFrom === 'weights' && input.shippedNetwork ? { ...input, network: input.shippedNetwork } : input;

@@ -37,6 +37,8 @@ function validFor(key: string): { path: string; body: unknown } {
     'profiles.create': { path: '/api/v1/profiles', body: { ...goodProfile, id: 'fuzz-profile' } },
     'profiles.update': { path: `/api/v1/profiles/${goodProfile.id}`, body: goodProfile },
     validate: { path: '/api/v1/validate', body: goodProfile },
+    // A 1×1 PNG (the smallest sample image).
+    'render-preview': { path: '/api/v1/render-preview', body: { profile: goodProfile, distanceM: 0.5, image: 'iVBORw0KGgoAAAANSUhEUgAAAAEAAAABCAYAAAAfFcSJAAAADUlEQVR42mNkYPhfDwAChwGA60e6kgAAAABJRU5ErkJggg==' } },
     plan: { path: '/api/v1/plan', body: { taskId: task.id, deviceClassId: deviceClass.id, modelIds: [model.id], options: { granuleKib: 256, nearMisses: 1 } } },
     'releases.create': { path: '/api/v1/releases', body: { deviceClassId: deviceClass.id, tasks: { count: { profileId: goodProfile.id, revision: 1 } }, defaultTask: 'count' } },
     'devices.enrol': { path: '/api/v1/devices', body: { id: 'gh-fuzz', deviceClassId: deviceClass.id, tags: ['a'] } },
@@ -102,7 +104,8 @@ describe('bad bodies never give a 500 nor leave a row behind (fast-check)', () =
           const before = snapshot();
           const res = await h.call(method, path, { body: text });
           expect(res.status, text.slice(0, 300)).toBeLessThan(500);
-          const payload = (await res.json()) as { error?: string; issues?: unknown[] };
+          // Every answer is JSON except the render preview's PNG.
+          const payload = (res.status < 400 && key === 'render-preview' ? (expect(res.headers.get('content-type')).toBe('image/png'), {}) : await res.json()) as { error?: string; issues?: unknown[] };
           if (res.status >= 400) {
             expect(typeof payload.error).toBe('string');
             expect(Array.isArray(payload.issues)).toBe(true);

@@ -62,6 +62,15 @@ function sh(command: string, env: NodeJS.ProcessEnv, timeoutMs = 120_000): Promi
   });
 }
 
+/** Waits (bounded) for a line in a background command's output. */
+async function waitForText(output: () => string, pattern: RegExp, timeoutMs = 30_000): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (!pattern.test(output())) {
+    if (Date.now() > deadline) throw new Error(`no ${pattern} in:\n${output()}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+
 const background: ChildProcess[] = [];
 let holder: RunningServer | null = null;
 
@@ -91,6 +100,8 @@ describe('the README walk-through, in order, beside a server on the default port
     expect(commands.length).toBeGreaterThan(15);
     const env: NodeJS.ProcessEnv = { PATH: process.env.PATH, HOME: process.env.HOME, TMPDIR: process.env.TMPDIR };
     const ran: string[] = [];
+    // What the agent's shell shows.
+    let agentOut = () => '';
     for (const c of commands) {
       const exported = /^export ([A-Z_]+)=(.*)$/.exec(c.text);
       if (exported) {
@@ -109,6 +120,7 @@ describe('the README walk-through, in order, beside a server on the default port
         child.stdout!.on('data', (b: Buffer) => (out += b));
         child.stderr!.on('data', (b: Buffer) => (out += b));
         background.push(child);
+        if (!/ serve /.test(c.text)) agentOut = () => out;
         const deadline = Date.now() + 90_000;
         const ready = / serve /.test(c.text)
           ? async () => fetch(`http://127.0.0.1:${httpPort}/api/v1/openapi.json`).then((res) => res.ok, () => false)
@@ -135,7 +147,13 @@ describe('the README walk-through, in order, beside a server on the default port
       const r = await sh(c.text, env);
       expect(r.code, `${c.text}\nstdout: ${r.stdout}\nstderr: ${r.stderr}`).toBe(0);
       ran.push(c.text);
-      if (/ agent -- task /.test(c.text)) expect(r.stdout).toMatch(/^switched to task leaf-inspection/);
+      if (/ agent -- task /.test(c.text)) {
+        // Milliseconds to one decimal, not timer noise.
+        expect(r.stdout).toMatch(/^switched to task leaf-inspection \(actuation \d+(\.\d)? ms\)\n$/);
+        // The robot's shell said what reached it and what it switched to, as it happened.
+        expect(agentOut()).toMatch(/agent: applied release gh-scout-a-v1 \(version 1\)/);
+        await waitForText(agentOut, /agent: task leaf-inspection: profile leaf-inspection-a revision 1 of release gh-scout-a-v1 \(local, from row-navigation\)/);
+      }
       if (/ history gh-a-01$/.test(c.text)) expect(r.stdout).toMatch(/leaf-inspection/);
       if (/\/metrics$/.test(c.text)) expect(r.stdout).toContain('# TYPE');
       if (/ push /.test(c.text)) expect(r.stdout).toMatch(/profile/);

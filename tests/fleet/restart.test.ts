@@ -58,6 +58,8 @@ async function startServerProcess(): Promise<ChildProcess> {
       if (/^http:\/\/\S+\n/m.test(out)) resolve();
     });
     child.once('exit', (code) => reject(new Error(`serve exited early with ${code}: ${stderr}`)));
+    // Bounded: a server that neither starts nor exits fails the test with what it said.
+    setTimeout(() => reject(new Error(`serve did not start within 60 s: ${stderr}`)), 60_000).unref();
   });
   return child;
 }
@@ -122,9 +124,8 @@ afterAll(async () => {
 });
 
 describe('rollout across a SIGKILL of the server process', () => {
-  let rolloutId = '';
-
-  it('continues where it was after SIGKILL and a restart, assigning no device twice', async () => {
+  // One scenario, one test: the CLI's reads below are of the rollout this test ran, never of another test's.
+  it('continues where it was after SIGKILL and a restart, assigning no device twice; the CLI reads the same server', async () => {
     const release = (await must('POST', '/api/v1/releases', {
       deviceClassId: deviceClass.id,
       tasks: { fruit: { profileId: goodProfile.id, revision: 1 } },
@@ -139,7 +140,7 @@ describe('rollout across a SIGKILL of the server process', () => {
       gate: { applyTimeoutS: 120, telemetryFrames: 6, telemetryTimeoutS: 120, latencyTolerance: 0.5 },
     });
     expect(created.status).toBe(201);
-    rolloutId = created.body.id;
+    const rolloutId: string = created.body.id;
     await waitFor(async () => (await api('GET', `/api/v1/rollouts/${rolloutId}`)).body.currentWave >= 3, 'rollout reached its third wave', 60_000);
 
     const killed = new Promise<NodeJS.Signals | null>((r) => server!.once('exit', (_code, signal) => r(signal)));
@@ -159,9 +160,8 @@ describe('rollout across a SIGKILL of the server process', () => {
       expect(device.assignments.filter((a) => a.cause === `rollout:${rolloutId}`)).toHaveLength(1);
     }
     await waitFor(() => agents.every((a) => a.state().releaseId === release.release.id), 'every agent runs the release');
-  });
 
-  it('ocellus rollout status and ocellus history read the same server', async () => {
+    // ocellus rollout status and ocellus history read the same server.
     const io = captureIo(process.cwd(), { OCELLUS_TOKEN: ADMIN, OCELLUS_SERVER: base() });
     expect(await rolloutCommand(['status', rolloutId], io)).toBe(0);
     expect(io.out()).toContain(`rollout ${rolloutId}: completed`);

@@ -3,6 +3,7 @@
  * its broker, rollout engine and two simulated robots, on the greenhouse demo data. Screenshots of every
  * page go to test-artifacts/console/.
  */
+import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CHROMIUM_PATH, hasChromium, startConsoleRig, until, type ConsoleRig } from '../support/web-rig.js';
 
@@ -169,6 +170,55 @@ describe.skipIf(!hasChromium)(`web console in Chromium (skipped without ${CHROMI
     await page.setViewportSize({ width: 820, height: 1180 });
     await rig.screenshot(page, 'profile-editor-tablet');
     expect(await tableOverflowPx(page)).toBeLessThanOrEqual(0);
+    await page.context().close();
+  });
+
+  it("the editor's \"what the robot sees\" shows the server's render of an uploaded image at a chosen distance, leaves the plots where they are, and refuses an oversized image", async () => {
+    const page = await rig.openPage(rig.tokens.engineer);
+    await page.goto(`${rig.server.url}/#/profiles/fruit-counting-a`);
+    // Whichever revision the tests before this one left (the latency test saves one).
+    await page.getByRole('heading', { level: 1 }).filter({ hasText: /revision \d+/ }).waitFor();
+    await page.locator('figure.chart').first().waitFor();
+    // Where each plot sits in the page (scrolling aside): opening and using the preview must not move them.
+    const charts = () =>
+      page.locator('figure.chart').evaluateAll((fs) =>
+        fs.map((f) => {
+          const r = f.getBoundingClientRect();
+          return [r.left + window.scrollX, r.top + window.scrollY, r.width, r.height];
+        }),
+      );
+    const before = await charts();
+    // A card of 8 px bars, 320×240 (made here): its edges show the blur.
+    const raw = Buffer.alloc(320 * 240 * 3);
+    for (let i = 0; i < 320 * 240; i++) raw.fill(Math.floor((i % 320) / 8) % 2 ? 255 : 0, i * 3, i * 3 + 3);
+    const card = await sharp(raw, { raw: { width: 320, height: 240, channels: 3 } }).png().toBuffer();
+
+    await page.getByText('What the robot sees').click();
+    await page.getByLabel('Sample image').setInputFiles({ name: 'bars.png', mimeType: 'image/png', buffer: card });
+    await page.getByRole('spinbutton', { name: 'Object distance (m)' }).fill('0.6');
+    await page.getByRole('button', { name: 'Render preview' }).click();
+    const img = page.locator('figure.preview-figure img');
+    await img.waitFor();
+    const src = (await img.getAttribute('src'))!;
+    // The same request through the API gives the same PNG, byte for byte.
+    const { profile } = await rig.api.json<{ profile: unknown }>('GET', '/api/v1/profiles/fruit-counting-a');
+    const res = await fetch(`${rig.server.url}/api/v1/render-preview`, {
+      method: 'POST',
+      headers: { authorization: `Bearer ${rig.tokens.engineer}`, 'content-type': 'application/json' },
+      body: JSON.stringify({ profile, image: card.toString('base64'), distanceM: 0.6 }),
+    });
+    expect(res.status).toBe(200);
+    expect(src).toBe(`data:image/png;base64,${Buffer.from(await res.arrayBuffer()).toString('base64')}`);
+    expect(await page.locator('figure.preview-figure figcaption').textContent()).toContain('at 0.6 m');
+    expect(await charts()).toEqual(before);
+    await rig.screenshot(page, 'profile-editor-preview');
+
+    const big = await sharp({ create: { width: 5000, height: 4000, channels: 3, background: { r: 90, g: 130, b: 70 } } }).png().toBuffer();
+    await page.getByLabel('Sample image').setInputFiles({ name: 'huge.png', mimeType: 'image/png', buffer: big });
+    await page.getByRole('button', { name: 'Render preview' }).click();
+    await page.getByRole('alert').filter({ hasText: 'No preview' }).waitFor();
+    expect(await page.getByRole('alert').filter({ hasText: 'No preview' }).textContent()).toContain('5000×4000 px; at most 16777216 pixels (4096×4096)');
+    expect(rig.cspViolations).toEqual([]);
     await page.context().close();
   });
 

@@ -1,7 +1,7 @@
+import type { Context } from 'hono';
 import { assignRelease } from '../../fleet/rollout/assign.js';
 import type { DeviceRecord } from '../../store/devices.js';
 import { actorOf } from '../auth.js';
-import type { Context } from 'hono';
 import { enrolDevice, revokeDevice, rotateDevicePassword } from '../../fleet/enrolment/credentials.js';
 import type { AppEnv, ResolvedDeps } from '../context.js';
 import { notFound } from '../errors.js';

@@ -1,5 +1,6 @@
 import { createCalibrator } from '../../fleet/calibration/calibrator.js';
 import { plan } from '../../plan/index.js';
+import { createShippedNetworks } from '../../profiles/shipped-networks.js';
 import type { ModelCandidate, PlanOptions } from '../../plan/index.js';
 import type { DeviceClass } from '../../schema/device-class.js';
 import type { InputIssue } from '../../schema/issues.js';
@@ -67,6 +68,7 @@ function planDocuments(store: Store, body: PlanRequest): PlanDocuments {
  */
 export function registerPlanRoutes(route: Router, deps: ResolvedDeps): void {
   const { store } = deps;
+  const shipped = createShippedNetworks(deps.blobs);
   route('plan', async (c) => {
     const body = requestBody(c, planRequestSchema);
     const docs = planDocuments(store, body);
@@ -77,7 +79,8 @@ export function registerPlanRoutes(route: Router, deps: ResolvedDeps): void {
       ...(body.options?.nearMisses !== undefined ? { nearMisses: body.options.nearMisses } : {}),
       ...(calibration ? { calibration } : {}),
     };
-    const candidates: ModelCandidate[] = docs.candidates.map((d) => ({ model: d.model.document, network: d.network.document }));
+    // A model that takes its network from its weights is costed from its uploaded blob.
+    const candidates: ModelCandidate[] = docs.candidates.map((d) => ({ model: d.model.document, network: d.network.document, ...shipped.forModel(d.model.document, d.network.document) }));
     // InputError (a stored document the planner refuses, options that leave nothing to search) renders as a 400.
     const result = plan({ task: docs.task.document, deviceClass: docs.deviceClass.document, candidates, options });
     return c.json({

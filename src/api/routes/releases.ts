@@ -23,7 +23,7 @@ export function registerReleaseRoutes(route: Router, deps: ResolvedDeps): void {
   route('releases.reissue', (c) => {
     const at = deps.clock.now().toISOString();
     const id = c.req.param('id') ?? '';
-    const stored = unwrap(store.transaction(() => reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at })));
+    const stored = unwrap(reissueRelease(id, { store, blobs: deps.blobs, signer, actor: actorOf(c), at }));
     return c.body(stored.raw, 201, { 'content-type': JSON_TYPE });
   });
 

@@ -1,4 +1,5 @@
 import { num } from '../format.js';
+import { PlotAxes } from './axes.js';
 import { LineSwatch, SeriesLegend, SeriesPaths, type SeriesStyle } from './legend.js';
 import { linearScale, logScale, OKABE_ITO } from './scale.js';
 
@@ -75,30 +76,7 @@ export function BlurPlot({ curve: sensorCurve, toleratedBlurPx, unit = 'sensor-p
         <text x={(x(nearM) + x(farM)) / 2} y={M.top + 12} class="band-label" text-anchor="middle">
           working range
         </text>
-        {y.ticks(5).map((t) => (
-          <g>
-            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
-            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
-        {x.ticks().map((t) => (
-          <g>
-            <line x1={x(t)} x2={x(t)} y1={H - M.bottom} y2={H - M.bottom + 4} class="axis" />
-            <text x={x(t)} y={H - M.bottom + 16} text-anchor="middle" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
-        <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
-        <line x1={M.left} x2={M.left} y1={M.top} y2={H - M.bottom} class="axis" />
-        <text x={(M.left + W - M.right) / 2} y={H - 6} text-anchor="middle" class="axis-title">
-          object distance (m, log scale)
-        </text>
-        <text x={14} y={(M.top + H - M.bottom) / 2} text-anchor="middle" class="axis-title" transform={`rotate(-90 14 ${(M.top + H - M.bottom) / 2})`}>
-          blur ({unitText})
-        </text>
+        <PlotAxes frame={{ W, H, M }} x={x} y={y} xTicks={x.ticks()} yTicks={y.ticks(5)} xTitle="object distance (m, log scale)" yTitle={`blur (${unitText})`} />
         <line x1={x(focusM)} x2={x(focusM)} y1={M.top} y2={H - M.bottom} stroke={OKABE_ITO.bluishGreen} stroke-width="1.5" stroke-dasharray="2 3" />
         <text x={x(focusM) + 4} y={H - M.bottom - 6} class="tick" fill={OKABE_ITO.bluishGreen}>
           focus {num(focusM)} m

@@ -2,6 +2,7 @@ import type { JSX } from 'preact';
 import { num } from '../format.js';
 import type { Candidate } from '../../../api-client/response-types.js';
 import { linearScale, OKABE_ITO, SERIES_COLOURS } from './scale.js';
+import { YGrid } from './axes.js';
 
 interface Props {
   front: Candidate[];
@@ -103,14 +104,7 @@ export function FrontPlot({ front, nearMisses, minAccuracy, selected, onSelect }
   return (
     <figure class="chart front-chart">
       <svg viewBox={`0 0 ${W} ${H}`} role="img" aria-label={summary} class="chart-svg">
-        {y.ticks(5).map((t) => (
-          <g>
-            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
-            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
+        <YGrid frame={{ W, H, M }} y={y} ticks={y.ticks(5)} />
         {x.ticks(5).map((t) => (
           <text x={x(t)} y={H - M.bottom + 16} text-anchor="middle" class="tick">
             {num(t)}

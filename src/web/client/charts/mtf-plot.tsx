@@ -1,5 +1,6 @@
 import { num } from '../format.js';
 import { linearScale, OKABE_ITO } from './scale.js';
+import { PlotAxes } from './axes.js';
 import { SeriesLegend, SeriesPaths, type SeriesStyle } from './legend.js';
 
 export interface MtfPoint {
@@ -54,30 +55,7 @@ export function MtfPlot({ points, distanceM, downscale }: Props) {
   return (
     <figure class="chart">
       <svg viewBox={`0 0 ${W} ${H}`} role="img" aria-label={summary} class="chart-svg" data-chart="mtf">
-        {y.ticks(5).map((t) => (
-          <g>
-            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
-            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
-        {x.ticks(5).map((t) => (
-          <g>
-            <line x1={x(t)} x2={x(t)} y1={H - M.bottom} y2={H - M.bottom + 4} class="axis" />
-            <text x={x(t)} y={H - M.bottom + 16} text-anchor="middle" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
-        <line x1={M.left} x2={W - M.right} y1={H - M.bottom} y2={H - M.bottom} class="axis" />
-        <line x1={M.left} x2={M.left} y1={M.top} y2={H - M.bottom} class="axis" />
-        <text x={(M.left + W - M.right) / 2} y={H - 6} text-anchor="middle" class="axis-title">
-          spatial frequency on the sensor (cycles/mm)
-        </text>
-        <text x={12} y={(M.top + H - M.bottom) / 2} text-anchor="middle" class="axis-title" transform={`rotate(-90 12 ${(M.top + H - M.bottom) / 2})`}>
-          MTF
-        </text>
+        <PlotAxes frame={{ W, H, M }} x={x} y={y} xTicks={x.ticks(5)} yTicks={y.ticks(5)} xTitle="spatial frequency on the sensor (cycles/mm)" yTitle="MTF" yTitleX={12} />
         {inputNyquist !== null && (
           <g>
             <line x1={x(inputNyquist)} x2={x(inputNyquist)} y1={M.top} y2={H - M.bottom} stroke={OKABE_ITO.bluishGreen} stroke-width="1.5" stroke-dasharray="2 3" />

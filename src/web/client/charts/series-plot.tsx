@@ -1,6 +1,7 @@
 import { clockTime, dateTime, num } from '../format.js';
 import { linearScale, OKABE_ITO } from './scale.js';
 import { timeTicks } from './time-axis.js';
+import { YGrid } from './axes.js';
 
 export interface SeriesPoint {
   atMs: number;
@@ -49,14 +50,7 @@ export function SeriesPlot({ title, unit, points, fromMs, toMs }: Props) {
         <text x={M.left} y={14} class="tick">
           {title} ({unit})
         </text>
-        {y.ticks(4).map((t) => (
-          <g>
-            <line x1={M.left} x2={W - M.right} y1={y(t)} y2={y(t)} class="gridline" />
-            <text x={M.left - 6} y={y(t) + 4} text-anchor="end" class="tick">
-              {num(t)}
-            </text>
-          </g>
-        ))}
+        <YGrid frame={{ W, H, M }} y={y} ticks={y.ticks(4)} />
         {ticks.map((t) => (
           <text x={x(t)} y={H - 8} text-anchor="middle" class="tick">
             {clockTime(t, stepMs < 300_000)}

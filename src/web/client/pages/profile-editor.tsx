@@ -8,6 +8,7 @@ import { ErrorNote, Loading, SafetyCaution, StatusBadge } from '../ui/status.js'
 import { ProfileForm, type FieldProblem } from './profile-form.js';
 import { ProfileReport } from './profile-report.js';
 import { ProfileRevisions } from './profile-revisions.js';
+import { RenderPreview } from './render-preview.js';
 
 /** Pause after the last keystroke before asking the validator, so typing "0.45" is one request, not three. */
 const VALIDATE_PAUSE_MS = 250;
@@ -158,6 +159,7 @@ export function ProfileEditorPage({ profileId }: { profileId: string }) {
         <div class="editor-main">
           {problems && <ErrorNote error={problems.error} title="These settings cannot be checked" />}
           {answer && <ProfileReport report={answer} task={context.data?.task} focusM={draft.camera.focusDistanceM} checking={checking} />}
+          <RenderPreview draft={draft} />
         </div>
       </div>
       {revisions.data && <ProfileRevisions profileId={profileId} revisions={revisions.data} />}
