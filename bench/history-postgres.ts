@@ -9,13 +9,24 @@ import { openPgSyncConnection } from '../src/store/pg-sync-connection.js';
 import { openStore } from '../src/store/index.js';
 import type { BenchFigure } from './figure.js';
 import { DAYS, DEVICES, EVENTS_PER_DEVICE, measureDeviceDay, START_MS, STEP_MS, TASKS } from './history.js';
-import { createBenchDatabase } from './postgres-database.js';
+import { createBenchDatabase, keptBenchDatabase } from './postgres-database.js';
 
 const CHUNK_DEVICES = 100;
 
 /** One device's task in its k-th block of ten events: a fixed hash of (device, block), so every run is the same. */
 function taskSql(block: string): string {
   return `(ARRAY[${TASKS.map((t) => `'${t}'`).join(', ')}])[1 + abs(hashtext(d.id || '/' || (${block})::text)) % ${TASKS.length}]`;
+}
+
+/** Empties what a load cut short left in a kept database, so generate() starts from the migrated schema. */
+function resetFleet(url: string): void {
+  const db = openPgSyncConnection({ url, applicationName: 'ocellus-bench-reset' });
+  try {
+    db.exec('DROP INDEX IF EXISTS device_events_by_type; CREATE INDEX device_events_by_type ON device_events (type, device_id, seq)');
+    db.exec('TRUNCATE device_events, assignments, devices, releases CASCADE');
+  } finally {
+    db.close();
+  }
 }
 
 function generate(url: string, log: (line: string) => void): number {
@@ -65,14 +76,38 @@ function generate(url: string, log: (line: string) => void): number {
   return setupS;
 }
 
+/** Whether a kept database already holds the whole synthetic fleet (a load cut short is regenerated). */
+function holdsFleet(url: string): boolean {
+  const db = openPgSyncConnection({ url, applicationName: 'ocellus-bench-check' });
+  try {
+    const table = db.prepare("SELECT to_regclass('device_events') AS t").get() as { t: string | null };
+    if (table.t === null) return false;
+    const n = db.prepare('SELECT count(*)::int AS n FROM device_events').get() as { n: number };
+    return n.n === DEVICES * EVENTS_PER_DEVICE;
+  } finally {
+    db.close();
+  }
+}
+
+/**
+ * OCELLUS_BENCH_KEEP_DB=1 keeps the generated database (ocellus_bench_history_kept) after the run and reuses it
+ * on the next one, skipping the ~4 minute load; migrations still run on it at open. Drop it with
+ * `psql -h 127.0.0.1 -U postgres -c 'DROP DATABASE ocellus_bench_history_kept'`.
+ */
 export async function run(): Promise<BenchFigure[]> {
   const log = (line: string) => process.stderr.write(`${line}\n`);
   const dir = mkdtempSync(join(tmpdir(), 'ocellus-bench-history-pg-'));
-  const database = createBenchDatabase('history');
+  const keep = process.env.OCELLUS_BENCH_KEEP_DB === '1';
+  const database = keep ? { ...keptBenchDatabase('history'), drop: () => undefined } : createBenchDatabase('history');
   try {
     // Opened once first so the schema is migrated before the bulk load writes into it.
     openStore(dir, { databaseUrl: database.url }).close();
-    const setupS = generate(database.url, log);
+    let setupS = 0;
+    if (keep && holdsFleet(database.url)) log('history-postgres: reusing the kept database (OCELLUS_BENCH_KEEP_DB=1)');
+    else {
+      if (keep) resetFleet(database.url);
+      setupS = generate(database.url, log);
+    }
     const store = openStore(dir, { databaseUrl: database.url });
     try {
       const figure = await measureDeviceDay(store, dir, 'history-postgres-device-day-p95', log);

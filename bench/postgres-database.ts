@@ -21,6 +21,25 @@ function admin(sql: string): void {
   }
 }
 
+/**
+ * A kept database for a bench part whose setup is long: created once (C collation) and left in place, so the
+ * next run can measure again without regenerating. `fresh` says whether it was just created.
+ */
+export function keptBenchDatabase(label: string): { name: string; url: string; fresh: boolean; drop(): void } {
+  const name = `ocellus_bench_${label}_kept`;
+  const c = openPgSyncConnection({ url: benchPostgresUrl, applicationName: 'ocellus-bench' });
+  let fresh = false;
+  try {
+    if (c.prepare('SELECT 1 FROM pg_database WHERE datname = ?').get(name) === undefined) {
+      c.exec(`CREATE DATABASE ${name} TEMPLATE template0 LC_COLLATE 'C' LC_CTYPE 'C'`);
+      fresh = true;
+    }
+  } finally {
+    c.close();
+  }
+  return { name, url: databaseUrl(name), fresh, drop: () => admin(`DROP DATABASE IF EXISTS ${name} WITH (FORCE)`) };
+}
+
 export function createBenchDatabase(label: string): { name: string; url: string; drop(): void } {
   const name = `ocellus_bench_${label}_${randomBytes(4).toString('hex')}`;
   admin(`CREATE DATABASE ${name} TEMPLATE template0 LC_COLLATE 'C' LC_CTYPE 'C'`);

@@ -1,5 +1,5 @@
 import { createHash, randomBytes } from 'node:crypto';
-import { createReadStream, mkdirSync, readFileSync, readdirSync, rmSync, statSync, type ReadStream } from 'node:fs';
+import { createReadStream, lstatSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync, type ReadStream } from 'node:fs';
 import { open, rename, rm } from 'node:fs/promises';
 import { join } from 'node:path';
 import { syncFolder } from './durable-file.js';
@@ -37,15 +37,48 @@ export interface BlobStore {
 }
 
 /**
- * Opens the store, creating its folders, and removes whatever an earlier process left in `tmp/` (uploads cut
- * by a crash): only one server uses a data folder, so at start nothing in it is being written.
+ * How old a temporary upload file must be (since its last write) before an opening store removes it: 1 hour.
+ * An upload in progress writes its file as bytes arrive and is cut at its declared size; Node's HTTP server
+ * ends any request after its requestTimeout (300 s by default), so a live upload's file is never this old.
  */
-export function createBlobStore(dataDir: string): BlobStore {
+export const TMP_SWEEP_AGE_MS = 3_600_000;
+
+export interface BlobStoreOptions {
+  /** The present, for the sweep of old temporary files (default Date.now). */
+  nowMs?: () => number;
+  /** Temporary files last written at least this long ago are removed at open (default TMP_SWEEP_AGE_MS). */
+  tmpSweepAgeMs?: number;
+}
+
+/**
+ * Removes from `tmp/` what uploads cut by a crash left behind, and only that: files last written at least
+ * `ageMs` ago. Replicas may share the folder, and one starting must not delete another's upload in progress.
+ * A file another replica removes meanwhile is skipped. Returns the names removed.
+ */
+export function sweepTmp(tmpDir: string, nowMs: number, ageMs: number): string[] {
+  const removed: string[] = [];
+  for (const name of readdirSync(tmpDir)) {
+    const path = join(tmpDir, name);
+    let mtimeMs: number;
+    try {
+      mtimeMs = lstatSync(path).mtimeMs;
+    } catch {
+      continue;
+    }
+    if (nowMs - mtimeMs < ageMs) continue;
+    rmSync(path, { force: true, recursive: true });
+    removed.push(name);
+  }
+  return removed;
+}
+
+/** Opens the store, creating its folders, and sweeps old temporary files (see sweepTmp). */
+export function createBlobStore(dataDir: string, options: BlobStoreOptions = {}): BlobStore {
   const root = join(dataDir, 'blobs');
   const tmpDir = join(root, 'tmp');
   mkdirSync(join(root, 'sha256'), { recursive: true, mode: 0o700 });
   mkdirSync(tmpDir, { recursive: true, mode: 0o700 });
-  for (const name of readdirSync(tmpDir)) rmSync(join(tmpDir, name), { force: true, recursive: true });
+  sweepTmp(tmpDir, (options.nowMs ?? Date.now)(), options.tmpSweepAgeMs ?? TMP_SWEEP_AGE_MS);
 
   function pathOf(sha256: string): string {
     if (!SHA256_HEX.test(sha256)) throw new RangeError(`not a sha256 hex digest: ${JSON.stringify(sha256)}`);

@@ -50,6 +50,8 @@ export interface DeviceConnectionRepository {
   between(deviceId: string, fromIso: string, toIso: string): ConnectionChange[];
   /** The latest change before a time, or null. */
   lastBefore(deviceId: string, beforeIso: string): ConnectionChange | null;
+  /** lastBefore(fromIso) and between(fromIso, toIso) in one statement: what a history window needs. */
+  window(deviceId: string, fromIso: string, toIso: string): { before: ConnectionChange | null; changes: ConnectionChange[] };
   /** The newest changes, newest first. */
   latest(deviceId: string, limit: number): ConnectionChange[];
 }
@@ -60,6 +62,12 @@ export function createDeviceConnectionRepository(db: SqlConnection): DeviceConne
     VALUES (@deviceId, @at, @online, @cause, @releaseId, @task)`);
   const betweenRows = db.prepare('SELECT * FROM device_connections WHERE device_id = ? AND at >= ? AND at < ? ORDER BY at, id');
   const beforeRow = db.prepare('SELECT * FROM device_connections WHERE device_id = ? AND at < ? ORDER BY at DESC, id DESC LIMIT 1');
+  // Each branch in a subquery of its own (SQLite allows ORDER BY and LIMIT only there in a compound), ordered outside.
+  const windowRows = db.prepare(`
+    SELECT 0 AS part, b.* FROM (SELECT * FROM device_connections WHERE device_id = @deviceId AND at < @fromIso ORDER BY at DESC, id DESC LIMIT 1) b
+    UNION ALL
+    SELECT 1 AS part, w.* FROM (SELECT * FROM device_connections WHERE device_id = @deviceId AND at >= @fromIso AND at < @toIso) w
+    ORDER BY part, at, id`);
   const latestRows = db.prepare('SELECT * FROM device_connections WHERE device_id = ? ORDER BY at DESC, id DESC LIMIT ?');
   return {
     insert: function insert(c) {
@@ -71,6 +79,12 @@ export function createDeviceConnectionRepository(db: SqlConnection): DeviceConne
     lastBefore: function lastBefore(deviceId, beforeIso) {
       const row = beforeRow.get(deviceId, beforeIso) as Row | undefined;
       return row ? toRecord(row) : null;
+    },
+    window: function window(deviceId, fromIso, toIso) {
+      const rows = windowRows.all({ deviceId, fromIso, toIso }) as Array<Row & { part: number }>;
+      const first = rows[0];
+      const before = first !== undefined && first.part === 0 ? toRecord(first) : null;
+      return { before, changes: (before ? rows.slice(1) : rows).map(toRecord) };
     },
     latest: function latest(deviceId, limit) {
       return (latestRows.all(deviceId, limit) as Row[]).map(toRecord);

@@ -13,7 +13,23 @@ export interface SeqRange {
   hiSeq: number;
 }
 
+/** One read of a time window for one event type: the seq range, its typed events, and their neighbours outside it. */
+export interface TypedWindow {
+  range: SeqRange;
+  /** Events of the type with loSeq ≤ seq < hiSeq, ascending. */
+  events: RangeEvent[];
+  /** The last event of the type before loSeq, or null. */
+  before: RangeEvent | null;
+  /** The first event of the type at or after hiSeq, or null. */
+  after: RangeEvent | null;
+}
+
 export interface EventRangeReader {
+  /**
+   * seqRange, ofType, lastBefore(range.loSeq) and firstFrom(range.hiSeq) together. On PostgreSQL one
+   * statement (the search runs in the server); on SQLite the same point reads as the four calls.
+   */
+  typedWindow(deviceId: string, type: string, fromMs: number, toMs: number): TypedWindow;
   /** The seq range of a device's events with fromMs ≤ ts < toMs. */
   seqRange(deviceId: string, fromMs: number, toMs: number): SeqRange;
   /** Events of one type with loSeq ≤ seq < hiSeq, ascending. */
@@ -92,17 +108,33 @@ export function createEventRangeReader(db: SqlConnection): EventRangeReader {
     return bSeq;
   }
 
+  const seqRange = function seqRange(deviceId: string, fromMs: number, toMs: number): SeqRange {
+    const lo = edge(lowest.get(deviceId) as { seq: number; ts: string } | undefined);
+    const hi = edge(highest.get(deviceId) as { seq: number; ts: string } | undefined);
+    if (!lo || !hi) return { loSeq: 1, hiSeq: 1 };
+    const loSeq = firstSeqAt(deviceId, lo, hi, fromMs);
+    const hiSeq = firstSeqAt(deviceId, lo, hi, toMs);
+    return { loSeq, hiSeq: Math.max(loSeq, hiSeq) };
+  };
+  const typedWindow = db.dialect === 'postgres' ? serverTypedWindow(db) : null;
+
   const edge = (row: { seq: number; ts: string } | undefined) => (row ? { seq: row.seq, ms: Date.parse(row.ts) } : undefined);
 
   return {
-    seqRange: function seqRange(deviceId, fromMs, toMs) {
-      const lo = edge(lowest.get(deviceId) as { seq: number; ts: string } | undefined);
-      const hi = edge(highest.get(deviceId) as { seq: number; ts: string } | undefined);
-      if (!lo || !hi) return { loSeq: 1, hiSeq: 1 };
-      const loSeq = firstSeqAt(deviceId, lo, hi, fromMs);
-      const hiSeq = firstSeqAt(deviceId, lo, hi, toMs);
-      return { loSeq, hiSeq: Math.max(loSeq, hiSeq) };
-    },
+    seqRange,
+    typedWindow:
+      typedWindow ??
+      function localTypedWindow(deviceId, type, fromMs, toMs) {
+        const range = seqRange(deviceId, fromMs, toMs);
+        const before = typedBefore.get(type, deviceId, range.loSeq) as Row | undefined;
+        const after = typedFrom.get(type, deviceId, range.hiSeq) as Row | undefined;
+        return {
+          range,
+          events: (typedRange.all(type, deviceId, range.loSeq, range.hiSeq) as Row[]).map(toEvent),
+          before: before ? toEvent(before) : null,
+          after: after ? toEvent(after) : null,
+        };
+      },
     ofType: function ofType(deviceId, type, range) {
       return (typedRange.all(type, deviceId, range.loSeq, range.hiSeq) as Row[]).map(toEvent);
     },
@@ -124,5 +156,76 @@ export function createEventRangeReader(db: SqlConnection): EventRangeReader {
     maxSeq: function maxSeq(deviceId) {
       return (highest.get(deviceId) as { seq: number } | undefined)?.seq ?? 0;
     },
+  };
+}
+
+/**
+ * PostgreSQL's typedWindow: the same interpolation search as firstSeqAt, run inside the server as a recursive
+ * query (one row per bound and step, the state being firstSeqAt's variables), then the typed events and both
+ * neighbours, in one statement: one round trip instead of about twenty. Interpolation matters here, not only
+ * on SQLite: each probe reads ts from the table's heap, and a steady event rate lands in a few probes where
+ * plain bisection takes log2(n). Times are compared as instants truncated to milliseconds (ts::timestamptz,
+ * floor of epoch × 1000), as Date.parse does.
+ */
+function serverTypedWindow(db: SqlConnection): EventRangeReader['typedWindow'] {
+  const statement = db.prepare(`
+    WITH RECURSIVE
+      edges AS (
+        SELECT lo.seq AS lo_seq, lo.ms AS lo_ms, hi.seq AS hi_seq, hi.ms AS hi_ms
+        FROM (SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+              WHERE device_id = @device ORDER BY seq LIMIT 1) lo,
+             (SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+              WHERE device_id = @device ORDER BY seq DESC LIMIT 1) hi),
+      bounds (bound, at) AS (VALUES (0, @fromMs::bigint), (1, @toMs::bigint)),
+      search (bound, at, a, am, b, bm, lim, bis, answer) AS (
+        SELECT k.bound, k.at, e.lo_seq, e.lo_ms, e.hi_seq, e.hi_ms, e.hi_seq, false,
+               CASE WHEN e.lo_ms >= k.at THEN e.lo_seq WHEN e.hi_ms < k.at THEN e.hi_seq + 1 END
+        FROM bounds k CROSS JOIN edges e
+        UNION ALL
+        SELECT s.bound, s.at,
+               CASE WHEN p.seq < s.lim AND p.ms < s.at THEN p.seq ELSE s.a END,
+               CASE WHEN p.seq < s.lim AND p.ms < s.at THEN p.ms ELSE s.am END,
+               CASE WHEN p.seq < s.lim AND p.ms >= s.at THEN p.seq ELSE s.b END,
+               CASE WHEN p.seq < s.lim AND p.ms >= s.at THEN p.ms ELSE s.bm END,
+               CASE WHEN p.seq >= s.lim OR p.ms >= s.at THEN m.mid ELSE s.lim END,
+               NOT s.bis,
+               NULL::bigint
+        FROM search s
+        CROSS JOIN LATERAL (
+          SELECT least(s.lim - 1, greatest(s.a + 1, floor(0.5 + CASE WHEN s.bis OR s.bm <= s.am THEN (s.a + s.lim) / 2.0
+                 ELSE s.a + (s.at - s.am)::float8 / (s.bm - s.am) * (s.b - s.a) END)::bigint)) AS mid) m
+        CROSS JOIN LATERAL (
+          SELECT seq, floor(extract(epoch FROM ts::timestamptz) * 1000)::bigint AS ms FROM device_events
+          WHERE device_id = @device AND seq >= m.mid ORDER BY seq LIMIT 1) p
+        WHERE s.answer IS NULL AND s.lim - s.a > 1),
+      found AS (
+        SELECT bound, coalesce(answer, b) AS seq FROM search WHERE answer IS NOT NULL OR lim - a <= 1),
+      range AS (
+        SELECT coalesce((SELECT seq FROM found WHERE bound = 0), 1) AS lo_seq,
+               coalesce((SELECT seq FROM found WHERE bound = 1), 1) AS hi_seq)
+    SELECT 'range' AS part, r.lo_seq AS seq, greatest(r.lo_seq, r.hi_seq)::text AS ts, NULL AS event FROM range r
+    UNION ALL
+    SELECT 'before', b.seq, b.ts, b.event FROM range r CROSS JOIN LATERAL (
+      SELECT seq, ts, event FROM device_events WHERE type = @type AND device_id = @device AND seq < r.lo_seq ORDER BY seq DESC LIMIT 1) b
+    UNION ALL
+    SELECT 'in', i.seq, i.ts, i.event FROM range r CROSS JOIN LATERAL (
+      SELECT seq, ts, event FROM device_events
+      WHERE type = @type AND device_id = @device AND seq >= r.lo_seq AND seq < greatest(r.lo_seq, r.hi_seq) ORDER BY seq) i
+    UNION ALL
+    SELECT 'after', f.seq, f.ts, f.event FROM range r CROSS JOIN LATERAL (
+      SELECT seq, ts, event FROM device_events WHERE type = @type AND device_id = @device AND seq >= greatest(r.lo_seq, r.hi_seq) ORDER BY seq LIMIT 1) f`);
+  return function serverWindow(deviceId, type, fromMs, toMs) {
+    const rows = statement.all({ device: deviceId, type, fromMs, toMs }) as Array<{ part: string; seq: number; ts: string; event: string | null }>;
+    let range: SeqRange = { loSeq: 1, hiSeq: 1 };
+    const events: RangeEvent[] = [];
+    let before: RangeEvent | null = null;
+    let after: RangeEvent | null = null;
+    for (const r of rows) {
+      if (r.part === 'range') range = { loSeq: r.seq, hiSeq: Number(r.ts) };
+      else if (r.part === 'before') before = toEvent(r as Row);
+      else if (r.part === 'after') after = toEvent(r as Row);
+      else events.push(toEvent(r as Row));
+    }
+    return { range, events, before, after };
   };
 }

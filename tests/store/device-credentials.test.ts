@@ -2,7 +2,7 @@ import { createHmac } from 'node:crypto';
 import { mkdirSync, readdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { createBlobStore, hashPassword } from '../../src/store/index.js';
+import { createBlobStore, hashPassword, TMP_SWEEP_AGE_MS } from '../../src/store/index.js';
 import { createLoginGuard } from '../../src/store/login-guard.js';
 import { sqlHandle, sqliteHandle } from '../../src/store/sqlite-handle.js';
 import { storeBackend } from '../support/store-backend.js';
@@ -74,11 +74,16 @@ describe('data folder permissions', () => {
     expect(statSync(join(other, 'ocellus.db-wal')).mode & 0o777).toBe(0o600);
   });
 
-  it('sweeps upload remnants left in blobs/tmp by an earlier process when the blob store opens', () => {
+  it('sweeps upload remnants left in blobs/tmp by an earlier process when the blob store opens, once they are an hour old', () => {
     const dir = tempDir();
     createBlobStore(dir);
-    writeFileSync(join(dir, 'blobs', 'tmp', '1700000000000-deadbeef.part'), 'half an upload');
-    createBlobStore(dir);
+    const part = join(dir, 'blobs', 'tmp', '1700000000000-deadbeef.part');
+    writeFileSync(part, 'half an upload');
+    const writtenMs = statSync(part).mtimeMs;
+    // Younger than the sweep age it may be another replica's upload in progress (tests/store/blob-tmp-sweep.test.ts).
+    createBlobStore(dir, { nowMs: () => writtenMs + TMP_SWEEP_AGE_MS - 1 });
+    expect(readdirSync(join(dir, 'blobs', 'tmp'))).toEqual(['1700000000000-deadbeef.part']);
+    createBlobStore(dir, { nowMs: () => writtenMs + TMP_SWEEP_AGE_MS });
     expect(readdirSync(join(dir, 'blobs', 'tmp'))).toEqual([]);
   });
 });

@@ -77,15 +77,12 @@ function intervalOf(deviceId: string, e: RangeEvent, start: string, end: string 
 export function deviceHistory(reader: EventRangeReader, assignments: readonly AssignmentRecord[], deviceId: string, w: HistoryWindow): HistoryInterval[] {
   const fromIso = new Date(w.fromMs).toISOString();
   const toIso = new Date(w.toMs).toISOString();
-  const range = reader.seqRange(deviceId, w.fromMs, w.toMs);
-  const switches = reader.ofType(deviceId, 'task-switched', range);
-  const before = reader.lastBefore(deviceId, 'task-switched', range.loSeq);
+  const { events: switches, before, after } = reader.typedWindow(deviceId, 'task-switched', w.fromMs, w.toMs);
   const starts: Array<{ e: RangeEvent; start: string }> = [];
   // A switch exactly at `from` starts the window itself; the one before it then ran for no time inside it.
   if (before && (switches.length === 0 || Date.parse(switches[0]!.ts) > w.fromMs)) starts.push({ e: before, start: fromIso });
   for (const e of switches) starts.push({ e, start: e.ts });
   if (starts.length === 0) return [];
-  const after = reader.firstFrom(deviceId, 'task-switched', range.hiSeq);
   const openEnd = after ? toIso : w.toMs >= w.nowMs ? null : toIso;
   return starts.map((s, i) => intervalOf(deviceId, s.e, s.start, i + 1 < starts.length ? starts[i + 1]!.start : openEnd, assignments));
 }
@@ -96,14 +93,15 @@ export function deviceHistory(reader: EventRangeReader, assignments: readonly As
  */
 export function deviceHistoryWithOffline(
   reader: EventRangeReader,
-  connections: Pick<DeviceConnectionRepository, 'between' | 'lastBefore'>,
+  connections: Pick<DeviceConnectionRepository, 'window'>,
   assignments: readonly AssignmentRecord[],
   deviceId: string,
   w: HistoryWindow,
 ): HistoryInterval[] {
   const fromIso = new Date(w.fromMs).toISOString();
   const toIso = new Date(w.toMs).toISOString();
-  const periods = offlinePeriods(connections.lastBefore(deviceId, fromIso), connections.between(deviceId, fromIso, toIso));
+  const seen = connections.window(deviceId, fromIso, toIso);
+  const periods = offlinePeriods(seen.before, seen.changes);
   const profile = deviceHistory(reader, assignments, deviceId, w);
   if (periods.length === 0) return profile;
   return withOffline(deviceId, profile, periods.map((period) => ({ period, runs: reportedRuns(reader, deviceId, period) })), w);
