@@ -15,6 +15,8 @@ export interface DispatchDeps {
   /** Sends the broker has not acknowledged yet above which recording waits: bounds what a large wave holds in memory. */
   maxSendsInFlight: number;
   log: (line: string) => void;
+  /** The time waits are counted in, in ms (the engine's scheduler: only differences count). */
+  nowMs: () => number;
 }
 
 export interface AssignmentDispatcher {
@@ -107,10 +109,10 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
       if (parsed.size > PARSED_RELEASES_KEPT) parsed.clear();
       for (let i = 0; i < devices.length; i += deps.batchSize) {
         if (i > 0) {
-          const waitStart = performance.now();
+          const waitStart = deps.nowMs();
           await nextTurn();
           while (sendsInFlight > deps.maxSendsInFlight && sending.size > 0) await Promise.race(sending);
-          waitedMs += performance.now() - waitStart;
+          waitedMs += deps.nowMs() - waitStart;
           // An operator may have paused or aborted the rollout while the loop turned.
           if (!stillMoving(r, rollback)) return { waitedMs, failed };
         }
