@@ -1,7 +1,8 @@
 // Ingest bench on PostgreSQL: the fleet of bench/ingest.ts (40 agents draining 7,500 events each through the
 // embedded broker) into one server whose store is a PostgreSQL database, against a bare batched insert of
 // the same rows into the same PostgreSQL server in the same run. Targets: ratio ≥ 0.5, lost = 0.
-// Two replicas behind one MQTT 5 broker are measured by the scale-out bench; measureIngest is the hook.
+// ingest-postgres-2-replicas: the same fleet through a private Mosquitto (MQTT 5) into two replicas sharing the
+// device messages (shared subscription) and the PostgreSQL database, against the same bare insert, same run.
 import { mkdtempSync, rmSync } from 'node:fs';
 import { cpus, tmpdir, totalmem } from 'node:os';
 import { join } from 'node:path';
@@ -12,6 +13,7 @@ import type { BenchFigure } from './figure.js';
 import { median } from './figure.js';
 import { BARE_BATCH, measureIngest } from './ingest.js';
 import { createBenchDatabase } from './postgres-database.js';
+import { mosquittoInstalled, startBenchMosquitto } from './private-mosquitto.js';
 
 const BARE_RUNS = 3;
 
@@ -64,18 +66,32 @@ async function bareInsertRate(rowsByDevice: Map<string, NewDeviceEvent[]>): Prom
 }
 
 export async function run(): Promise<BenchFigure[]> {
+  const machine = `${cpus().length} cores, ${Math.round(totalmem() / 2 ** 30)} GiB`;
+  const figures: BenchFigure[] = [];
   const database = createBenchDatabase('ingest');
   try {
-    return [
-      await measureIngest({
-        name: 'ingest-postgres',
-        databaseUrl: database.url,
-        targetPerS: 0,
-        bareRate: bareInsertRate,
-        extra: { replicas: 1, machine: `${cpus().length} cores, ${Math.round(totalmem() / 2 ** 30)} GiB` },
-      }),
-    ];
+    figures.push(await measureIngest({ name: 'ingest-postgres', databaseUrl: database.url, targetPerS: 0, bareRate: bareInsertRate, extra: { replicas: 1, machine } }));
   } finally {
     database.drop();
   }
+  if (!mosquittoInstalled) {
+    process.stderr.write('ingest-postgres-2-replicas skipped: the mosquitto program is not installed (replicas need an MQTT 5 broker)\n');
+    return figures;
+  }
+  const replicated = createBenchDatabase('ingest_replicas');
+  const broker = await startBenchMosquitto();
+  try {
+    figures.push(await measureIngest({
+      name: 'ingest-postgres-2-replicas',
+      databaseUrl: replicated.url,
+      targetPerS: 0,
+      bareRate: bareInsertRate,
+      replicas: { count: 2, brokerUrl: broker.url },
+      extra: { replicas: 2, broker: 'Mosquitto (private, MQTT 5 shared subscription)', machine },
+    }));
+  } finally {
+    await broker.stop();
+    replicated.drop();
+  }
+  return figures;
 }

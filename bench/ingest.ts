@@ -4,9 +4,9 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createInterface } from 'node:readline';
 import { fileURLToPath } from 'node:url';
-import { startBus } from '../src/bus/start-bus.js';
+import { startBus, type Bus } from '../src/bus/start-bus.js';
 import type { NewDeviceEvent } from '../src/store/device-events.js';
-import { openStore } from '../src/store/index.js';
+import { openStore, type Store } from '../src/store/index.js';
 import { startServer } from '../src/server/start-server.js';
 import { median, type BenchFigure } from './figure.js';
 import type { IngestFleetSettings } from './ingest-fleet.js';
@@ -102,13 +102,35 @@ export interface IngestBenchOptions {
   extra?: Record<string, unknown>;
   /** Events/s the ingest must reach (TARGET_PER_S when absent; 0 when only the ratio and losses count). */
   targetPerS?: number;
+  /**
+   * Several replicas instead of one server: `count` buses in replicas mode, each on its own connection to the same
+   * store, sharing the device messages through an MQTT 5 shared subscription on the external broker `brokerUrl`.
+   */
+  replicas?: { count: number; brokerUrl: string };
 }
 
 /** One server (HTTP, embedded broker, bridge, event writer) receiving the fleet's backlog; the figure compares it with options.bareRate. */
 export async function measureIngest(options: IngestBenchOptions): Promise<BenchFigure> {
   const root = mkdtempSync(join(tmpdir(), 'ocellus-bench-ingest-'));
-  const server = await startServer({ dataDir: join(root, 'server'), port: 0, ...(options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {}) });
-  const bus = await startBus({ store: server.store, metrics: server.metrics, embedded: { port: 0 } });
+  const storeOptions = options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {};
+  const server = await startServer({ dataDir: join(root, 'server'), port: 0, ...storeOptions });
+  const replicaStores: Store[] = [];
+  const buses: Bus[] = [];
+  if (options.replicas) {
+    const group = `bench-ingest-${process.pid}`;
+    for (let i = 0; i < options.replicas.count; i++) {
+      const store = i === 0 ? server.store : openStore(join(root, 'server'), storeOptions);
+      if (i > 0) replicaStores.push(store);
+      buses.push(await startBus({
+        store, ...(i === 0 ? { metrics: server.metrics } : {}),
+        external: { url: options.replicas.brokerUrl, username: 'ocellus-server', password: '' },
+        replicas: { group, replicaId: `bench-${i + 1}` },
+      }));
+    }
+  } else buses.push(await startBus({ store: server.store, metrics: server.metrics, embedded: { port: 0 } }));
+  const bus = buses[0]!;
+  /** What every replica's bridge stored, summed. */
+  const stored = () => buses.reduce((sum, b) => sum + b.bridge.stats().eventsStored, 0);
   let fleet: ReturnType<typeof startFleet> | null = null;
   try {
     const at = new Date().toISOString();
@@ -140,14 +162,14 @@ export async function measureIngest(options: IngestBenchOptions): Promise<BenchF
     const deadline = performance.now() + DEADLINE_MS;
     fleet.child.stdin.write('go\n');
     for (;;) {
-      const stored = bus.bridge.stats().eventsStored;
+      const storedNow = stored();
       const now = performance.now();
-      if (stored > 0 && firstMs === null) (firstMs = now), (firstCount = stored);
-      if (stored >= EXPECTED) {
+      if (storedNow > 0 && firstMs === null) (firstMs = now), (firstCount = storedNow);
+      if (storedNow >= EXPECTED) {
         lastMs = now;
         break;
       }
-      if (now > deadline) throw new Error(`ingest: ${stored} of ${EXPECTED} events stored after ${DEADLINE_MS / 1000} s`);
+      if (now > deadline) throw new Error(`ingest: ${storedNow} of ${EXPECTED} events stored after ${DEADLINE_MS / 1000} s`);
       await new Promise((r) => setTimeout(r, 10));
     }
     await fleet.phase('drained');
@@ -161,7 +183,8 @@ export async function measureIngest(options: IngestBenchOptions): Promise<BenchF
     const events = server.store.deviceEvents;
     const complete = devices.filter((d) => events.contiguousSeq(d.id) === EVENTS_PER_DEVICE + 1 && events.count(d.id) === EVENTS_PER_DEVICE + 1).length;
     const lost = EXPECTED - storedRows.length;
-    const stats = bus.bridge.stats();
+    const perReplica = buses.map((b) => b.bridge.stats());
+    const stats = { eventsStored: stored(), eventsDuplicate: perReplica.reduce((sum, r) => sum + r.eventsDuplicate, 0) };
     const value = Math.round((stats.eventsStored - firstCount) / ((lastMs - firstMs!) / 1000));
     const floor = Math.round(await options.bareRate(rowsByDevice));
     const ratio = Math.round((value / floor) * 1000) / 1000;
@@ -177,6 +200,7 @@ export async function measureIngest(options: IngestBenchOptions): Promise<BenchF
         events: EXPECTED,
         duplicates: stats.eventsDuplicate,
         devicesComplete: complete,
+        ...(options.replicas ? { storedPerReplica: perReplica.map((r) => r.eventsStored) } : {}),
         ...options.extra,
         ok: value >= (options.targetPerS ?? TARGET_PER_S) && ratio >= MIN_RATIO && lost === 0 && complete === DEVICES,
     };
@@ -186,7 +210,8 @@ export async function measureIngest(options: IngestBenchOptions): Promise<BenchF
       fleet.child.kill('SIGTERM');
       await fleet.exited;
     }
-    await bus.close();
+    for (const b of buses) await b.close();
+    for (const s of replicaStores) s.close();
     await server.close();
     rmSync(root, { recursive: true, force: true });
   }

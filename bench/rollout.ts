@@ -24,10 +24,12 @@ import { loadOrCreateDeviceSecretKey } from '../src/store/device-secret-key.js';
 import { benchDeviceClass, benchTask } from './agent-fixture.js';
 import { median, type BenchFigure } from './figure.js';
 import type { RolloutFleetSettings } from './rollout-fleet.js';
-import { sqliteHandle } from '../src/store/sqlite-handle.js';
+import { sqlHandle } from '../src/store/sqlite-handle.js';
+import { benchPostgresUrl, createBenchDatabase, postgresReachable } from './postgres-database.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 const SIZES = [1000, 5000];
+const POSTGRES_SIZE = 1000;
 /** Floor rounds and rollouts per size; each figure is the median. */
 const ROUNDS = 3;
 const PASSWORD = 'bench-device-password-demo-data';
@@ -53,11 +55,11 @@ async function until(check: () => boolean, what: string, timeoutMs: number, ever
   }
 }
 
-/** Devices written straight into SQLite sharing one password's keyed hash, as enrolment stores it. */
+/** Devices written straight into the store's database sharing one password's keyed hash, as enrolment stores it. */
 function seedDevices(store: Store, ids: string[]): void {
   const hash = hashDeviceSecret(PASSWORD, loadOrCreateDeviceSecretKey(store.dataDir));
   const at = new Date().toISOString();
-  const insert = sqliteHandle(store).prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
+  const insert = sqlHandle(store).prepare(`INSERT INTO devices (id, device_class_id, tags, password_hash, assigned_release_id, created_at, created_by)
     VALUES (?, ?, '["bench"]', ?, NULL, ?, 'bench (demo data)')`);
   store.transaction(() => ids.forEach((id) => insert.run(id, benchDeviceClass.id, hash, at)));
 }
@@ -87,7 +89,7 @@ function cpuMeter(childPid: number | undefined): () => CpuUse {
 
 /** Where the rollout's time went, from stored times alone (ms after creation): read after the run, so it costs the run nothing. */
 function phases(store: Store, rolloutId: string, releaseId: string, createdMs: number): string {
-  const q = (sql: string, ...args: unknown[]) => sqliteHandle(store).prepare(sql).pluck().get(...args) as string | null;
+  const q = (sql: string, ...args: unknown[]) => sqlHandle(store).prepare(sql).pluck().get(...args) as string | null;
   const after = (iso: string | null) => (iso === null ? '?' : String(Date.parse(iso) - Math.round(createdMs)));
   const firstAssigned = q('SELECT MIN(assigned_at) FROM rollout_devices WHERE rollout_id = ?', rolloutId);
   const firstState = q('SELECT MIN(updated_at) FROM device_state WHERE release_id = ?', releaseId);
@@ -143,9 +145,11 @@ function storeRelease(store: Store, n: number, round: number, keys: { privateKey
   return release;
 }
 
-export async function measure(n: number): Promise<BenchFigure> {
+/** One size on one store backend: SQLite (the default) or a fresh PostgreSQL database of the bench's own. */
+export async function measure(n: number, backend: 'sqlite' | 'postgres' = 'sqlite'): Promise<BenchFigure> {
   const work = mkdtempSync(join(tmpdir(), 'ocellus-bench-rollout-'));
-  const store = openStore(join(work, 'server'));
+  const database = backend === 'postgres' ? createBenchDatabase(`rollout_${n}`) : null;
+  const store = openStore(join(work, 'server'), database ? { databaseUrl: database.url } : {});
   const ids = Array.from({ length: n }, (_, i) => `bench-dev-${String(i).padStart(5, '0')}`);
   seedDevices(store, ids);
   const keys = generateSigningKeyPair();
@@ -177,7 +181,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     const service = createRolloutService(store);
     await engine.tick();
     engine.start();
-    const statusOf = sqliteHandle(store).prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
+    const statusOf = sqlHandle(store).prepare('SELECT status FROM rollouts WHERE id = ?').pluck();
     const values: number[] = [];
     for (const release of releases) {
       const request = rolloutRequestSchema.parse({
@@ -199,7 +203,7 @@ export async function measure(n: number): Promise<BenchFigure> {
       }, 'rollout completed', 600_000, 10);
       const value = performance.now() - t1;
       const used = cpu();
-      const running = sqliteHandle(store).prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
+      const running = sqlHandle(store).prepare('SELECT COUNT(*) FROM device_state WHERE release_id = ?').pluck().get(release.id) as number;
       if (running !== n) throw new Error(`${running} of ${n} devices report release ${release.id}`);
       values.push(value);
       log(`${n}: rollout of ${release.id} to completion ${value.toFixed(0)} ms (CPU server ${used.server} / fleet ${used.fleet} ms; ${running} devices report it)`);
@@ -210,7 +214,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     const value = median(values);
     const floor = median(floors.map((f) => f.ms));
     const ratio = value / floor;
-    return { name: `rollout-${n}`, value: Math.round(value), unit: 'ms', target: Math.round(2 * floor), floor: Math.round(floor), ratio: Math.round(ratio * 100) / 100, ok: ratio <= 2 };
+    return { name: `rollout-${backend === 'postgres' ? 'postgres-' : ''}${n}`, value: Math.round(value), unit: 'ms', target: Math.round(2 * floor), floor: Math.round(floor), ratio: Math.round(ratio * 100) / 100, ok: ratio <= 2 };
   } finally {
     child.stdin!.end();
     await new Promise((r) => (child.exitCode !== null ? r(null) : child.once('exit', r)));
@@ -218,6 +222,7 @@ export async function measure(n: number): Promise<BenchFigure> {
     await server.endAsync(true);
     await broker.close();
     store.close();
+    database?.drop();
     rmSync(work, { recursive: true, force: true });
   }
 }
@@ -225,5 +230,8 @@ export async function measure(n: number): Promise<BenchFigure> {
 export async function run(): Promise<BenchFigure[]> {
   const figures: BenchFigure[] = [];
   for (const n of SIZES) figures.push(await measure(n));
+  // The same rollout with the store on PostgreSQL (the replicas' store); the floor is the same bus, measured in the same run.
+  if (await postgresReachable()) figures.push(await measure(POSTGRES_SIZE, 'postgres'));
+  else log(`rollout-postgres-${POSTGRES_SIZE} skipped: no PostgreSQL answers on ${new URL(benchPostgresUrl).host}`);
   return figures;
 }

@@ -1,7 +1,15 @@
+import { z } from 'zod';
+
 /** Something changed in the fleet: the bus stored devices' state or events, or a change was made through the API. */
 export type FleetChange =
   | { kind: 'devices'; deviceIds: string[] }
   | { kind: 'api'; method: string; route: string; path: string };
+
+/** The same shape as a schema, for changes relayed from another replica (checked before they reach listeners). */
+export const fleetChangeSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('devices'), deviceIds: z.array(z.string().max(64)).max(100_000) }),
+  z.object({ kind: z.literal('api'), method: z.string().max(16), route: z.string().max(512), path: z.string().max(2048) }),
+]);
 
 export type ChangeListener = (change: FleetChange) => void;
 

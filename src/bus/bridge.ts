@@ -7,7 +7,7 @@ import { decodeEventsMessage } from '../protocol/decode-events.js';
 import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
 import type { ReleasePublisher, SignedReleaseText } from '../protocol/release.js';
-import { allDevicesFilter, deviceTopic, parseDeviceTopic } from '../protocol/topics.js';
+import { allDevicesFilter, deviceTopic, parseDeviceTopic, sharedFilter } from '../protocol/topics.js';
 import type { DeviceEventColumns } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
@@ -26,6 +26,14 @@ export interface BridgeOptions {
   metrics?: MetricsRegistry;
   /** The embedded broker's notes of devices dropped for missed keep-alives (an external broker gives none). */
   keepaliveNotes?: Pick<KeepaliveNotes, 'takeMissed'>;
+  /**
+   * Replicas: subscribe to device state and events as this MQTT 5 shared-subscription group
+   * (`$share/<group>/…`), so the broker hands each message to one replica of the group. Without it the
+   * bridge subscribes alone and receives every message, retained states included.
+   */
+  shareGroup?: string;
+  /** How long after a batch failed to be stored the bridge tries its states and connection changes again (1,000 ms by default). */
+  retryMs?: number;
   log?: (line: string) => void;
 }
 
@@ -48,12 +56,15 @@ export interface Bridge extends ReleasePublisher {
   /** Calls `listener` with the ids of the devices whose state or events were just stored (e.g. for live pages); returns the unsubscribe. */
   onStored(listener: (deviceIds: string[]) => void): () => void;
   stats(): BridgeStats;
-  /** Stores everything received so far and sends the acks; resolves once that is done. */
+  /** Stores everything received so far and sends the acks; resolves once that is done, or once a write failed (what it held is kept for the retry). */
   flush(): Promise<void>;
   /** Settles once the broker has answered the bridge's first subscription to device state and events. */
   subscribed(): Promise<void>;
   close(): Promise<void>;
 }
+
+/** At most this many connection changes wait for a database that keeps failing; the oldest go first. */
+const MAX_KEPT_CONNECTIONS = 10_000;
 
 type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, StateMessage>; connections: Array<[string, ConnectionSighting]> };
 const emptyPending = (): Pending => ({ events: new Map(), states: new Map(), connections: [] });
@@ -78,6 +89,9 @@ export function createBridge(options: BridgeOptions): Bridge {
   let scheduled: NodeJS.Immediate | null = null;
   let writing: Promise<void> | null = null;
   let closed = false;
+  let retryTimer: ReturnType<typeof setTimeout> | null = null;
+  let failures = 0;
+  const retryMs = options.retryMs ?? 1000;
   const storedListeners = new Set<(deviceIds: string[]) => void>();
 
   options.metrics?.gauge(METRIC_NAMES.devicesOnline, 'Devices whose latest state says online', () => [{ value: states.countOnline() }]);
@@ -151,13 +165,32 @@ export function createBridge(options: BridgeOptions): Bridge {
       .write(ingest)
       .then(
         (result) => afterCommit(ingest, result),
-        // Nothing was stored or acked, so every device resends this batch; the bridge itself keeps running.
-        (e: unknown) => log(`bus: could not store a batch (${(e as Error).message}); devices will resend it`),
+        (e: unknown) => {
+          // Nothing was stored or acked: devices resend their events, but a state message is sent once, so its
+          // state and connection change would be lost. They go back ahead of what arrived since, and are tried again.
+          failures += 1;
+          keepForRetry(batch);
+          log(`bus: could not store a batch (${(e as Error).message}); devices will resend its events, its states are kept to try again`);
+        },
       )
       .finally(() => {
         writing = null;
+        if (retryTimer) return;
         if (pending.events.size > 0 || pending.states.size > 0) scheduled ??= setImmediate(startWrite);
       });
+  }
+
+  /** Puts a failed batch's states and connection changes back, older than anything received since it was taken. */
+  function keepForRetry(failed: Pending) {
+    for (const [deviceId, state] of failed.states) if (!pending.states.has(deviceId)) pending.states.set(deviceId, state);
+    pending.connections = [...failed.connections, ...pending.connections].slice(-MAX_KEPT_CONNECTIONS);
+    if (closed || retryTimer) return;
+    // After a pause: a database that refuses writes is not asked again at once, in a loop.
+    retryTimer = setTimeout(() => {
+      retryTimer = null;
+      scheduled ??= setImmediate(startWrite);
+    }, retryMs);
+    retryTimer.unref?.();
   }
 
   function afterCommit(batch: IngestBatch, result: IngestResult) {
@@ -181,10 +214,13 @@ export function createBridge(options: BridgeOptions): Bridge {
     }
   }
 
+  /** Writes until nothing is pending, or until a write fails (what it held stays pending for the retry). */
   async function flush(): Promise<void> {
+    const failuresBefore = failures;
     startWrite();
     while (writing) {
       await writing;
+      if (failures !== failuresBefore) return;
       startWrite();
     }
   }
@@ -192,8 +228,12 @@ export function createBridge(options: BridgeOptions): Bridge {
   let markSubscribed!: () => void;
   const firstSubscription = new Promise<void>((resolve) => (markSubscribed = resolve));
 
+  // A shared subscription gets no retained messages (MQTT 5.0 §4.8.2): each device's current state is the one the
+  // replica that received its latest state message stored, read by every replica from the database.
+  const filters = [allDevicesFilter('state'), allDevicesFilter('events')].map((f) => (options.shareGroup ? sharedFilter(options.shareGroup, f) : f));
+
   function subscribe() {
-    client.subscribe([allDevicesFilter('state'), allDevicesFilter('events')], { qos: 1 }, (err) => {
+    client.subscribe(filters, { qos: 1 }, (err) => {
       if (err) log(`bus: subscription failed: ${err.message}`);
       markSubscribed();
     });
@@ -241,6 +281,8 @@ export function createBridge(options: BridgeOptions): Bridge {
     flush,
     subscribed: () => firstSubscription,
     close: async function close() {
+      if (retryTimer) clearTimeout(retryTimer);
+      retryTimer = null;
       await flush();
       closed = true;
       client.off('message', onMessage);

@@ -42,8 +42,10 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
   const result: IngestResult = { acks: [], eventsStored: 0, eventsDuplicate: 0, statesStored: 0, connectionChanges: 0 };
   const withState = new Set(batch.states.map(([deviceId]) => deviceId));
   try {
+    // Devices in id order: replicas writing at once lock their cursor rows in the same order, so they never deadlock over them.
+    const events = [...batch.events].sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0));
     return w.transaction(() => {
-      for (const [deviceId, columns] of batch.events) {
+      for (const [deviceId, columns] of events) {
         const fresh = w.events.insertColumns(deviceId, columns, batch.at);
         result.eventsStored += fresh;
         result.eventsDuplicate += columns.seqs.length - fresh;

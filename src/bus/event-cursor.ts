@@ -39,3 +39,26 @@ export function createEventCursor(events: DeviceEventRepository): EventCursor {
     },
   };
 }
+
+/**
+ * The cursor when several replicas store one device's events (MQTT 5 shared subscriptions hand consecutive
+ * batches of a device to different replicas): nothing is kept in memory, every advance reads the stored cursor
+ * (locked: replicas take turns per device) and the stored seqs above it inside the batch's write transaction, so
+ * the ack is the highest contiguous seq in the database, whoever stored the rest. Costs one indexed read of the seqs above the cursor (usually just the
+ * batch) per device and batch.
+ */
+export function createStoredEventCursor(events: DeviceEventRepository): EventCursor {
+  return {
+    advance: function advance(deviceId, _storedSeqs) {
+      const before = events.lockContiguousSeq(deviceId);
+      let contiguous = before;
+      for (const seq of events.seqsAbove(deviceId, before)) {
+        if (seq !== contiguous + 1) break;
+        contiguous = seq;
+      }
+      if (contiguous !== before) events.setContiguousSeq(deviceId, contiguous);
+      return contiguous;
+    },
+    reset: () => {},
+  };
+}

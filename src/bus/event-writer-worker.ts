@@ -2,12 +2,13 @@
 // while the main connection reads), writing the batches the bridge posts, one at a time.
 import { parentPort, workerData } from 'node:worker_threads';
 import { openEventWriterStore } from '../store/writer-connection.js';
-import { createEventCursor } from './event-cursor.js';
+import { createEventCursor, createStoredEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch } from './event-batch.js';
 
-const { location, busyTimeoutMs } = workerData as { location: string; busyTimeoutMs: number };
+const { location, busyTimeoutMs, cursorMode } = workerData as { location: string; busyTimeoutMs: number; cursorMode: 'memory' | 'stored' };
 const store = openEventWriterStore(location, busyTimeoutMs);
-const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+const cursor = cursorMode === 'stored' ? createStoredEventCursor(store.deviceEvents) : createEventCursor(store.deviceEvents);
+const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, transaction: store.transaction };
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {

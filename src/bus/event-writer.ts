@@ -2,7 +2,7 @@ import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { Store } from '../store/store.js';
-import { createEventCursor } from './event-cursor.js';
+import { createEventCursor, createStoredEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch, type IngestResult } from './event-batch.js';
 
 /** Stores the bridge's batches; resolves after the commit, so an ack is only ever sent for stored events. */
@@ -12,9 +12,16 @@ export interface EventWriter {
   close(): Promise<void>;
 }
 
+/**
+ * How the writer knows each device's contiguous seq: 'memory' when this server alone stores events (read from
+ * the database once per device), 'stored' when replicas share the work (read from the database every batch).
+ */
+export type CursorMode = 'memory' | 'stored';
+
 /** Writes on the calling thread, through the store's own connection. */
-export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'deviceConnections' | 'transaction'>): EventWriter {
-  const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor: createEventCursor(store.deviceEvents), transaction: store.transaction };
+export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'deviceConnections' | 'transaction'>, cursorMode: CursorMode = 'memory'): EventWriter {
+  const cursor = cursorMode === 'stored' ? createStoredEventCursor(store.deviceEvents) : createEventCursor(store.deviceEvents);
+  const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, transaction: store.transaction };
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),
@@ -38,14 +45,14 @@ type Reply = { ready: true } | { id: number; ok: true; result: IngestResult } | 
  * another in the order given. If the worker dies, the batches in hand fail (their devices resend them)
  * and the next write starts a new worker.
  */
-export async function startWorkerEventWriter(options: { location: string; busyTimeoutMs?: number; log?: (line: string) => void }): Promise<EventWriter> {
+export async function startWorkerEventWriter(options: { location: string; busyTimeoutMs?: number; cursorMode?: CursorMode; log?: (line: string) => void }): Promise<EventWriter> {
   const log = options.log ?? (() => {});
   const waiting = new Map<number, { resolve(r: IngestResult): void; reject(e: Error): void }>();
   let nextId = 1;
   let closing = false;
 
   function spawn(): Promise<Worker> {
-    const worker = new Worker(workerBootstrap(), { eval: true, workerData: { location: options.location, busyTimeoutMs: options.busyTimeoutMs ?? 5000 } });
+    const worker = new Worker(workerBootstrap(), { eval: true, workerData: { location: options.location, busyTimeoutMs: options.busyTimeoutMs ?? 5000, cursorMode: options.cursorMode ?? 'memory' } });
     return new Promise<Worker>((resolve, reject) => {
       let ready = false;
       worker.on('message', (m: Reply) => {

@@ -1,6 +1,6 @@
 import { DEVICE_PUBLISH_CHANNELS, DEVICE_SUBSCRIBE_CHANNELS } from './access.js';
 import { DEFAULT_PACKET_LIMITS } from './broker.js';
-import { TOPIC_ROOT } from '../protocol/topics.js';
+import { SERVER_CHANGES_TOPIC, TOPIC_ROOT } from '../protocol/topics.js';
 
 /**
  * The Mosquitto ACL file that gives an external broker the same isolation as the embedded one:
@@ -13,6 +13,8 @@ export function mosquittoAcl(serverUsername: string): string {
     '# Ocellus: the server account may publish and subscribe anywhere under the device tree.',
     `user ${serverUsername}`,
     `topic readwrite ${TOPIC_ROOT}/#`,
+    '# Replicas of the server tell each other what changed here; devices have no rule for it, so they cannot read it.',
+    `topic readwrite ${SERVER_CHANGES_TOPIC}`,
     '',
     '# Every device, logged in with its device id as user name, only within its own subtree.',
     ...DEVICE_PUBLISH_CHANNELS.map((c) => `pattern write ${TOPIC_ROOT}/%u/${c}`),

@@ -8,6 +8,7 @@ import { startEmbeddedBroker, type BrokerTls, type EmbeddedBroker } from './brok
 import { createKeepaliveNotes } from './connection-notes.js';
 import type { PacketLimits } from './packet-guard.js';
 import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
+import { createChangeRelay, type ChangeRelay } from './change-relay.js';
 
 export interface BusOptions {
   store: Store;
@@ -29,6 +30,12 @@ export interface BusOptions {
   clock?: { now(): Date };
   /** Where device events are written: a worker thread with its own connection (default), or the event loop's thread. */
   eventWriter?: 'worker' | 'inline';
+  /**
+   * Several server replicas on one external MQTT 5 broker: device state and events arrive through the shared
+   * subscription `group` (each message to one replica), acks are read from the database, and changes are relayed
+   * to the other replicas. Needs `external`: the embedded broker is MQTT 3.1.1 only and shares no subscriptions.
+   */
+  replicas?: { group: string; replicaId: string };
   metrics?: MetricsRegistry;
   log?: (line: string) => void;
 }
@@ -39,6 +46,8 @@ export interface Bus {
   brokerUrl: string;
   /** The embedded broker, when one was started. */
   broker: EmbeddedBroker | null;
+  /** The change feed between replicas, in replicas mode. */
+  relay: ChangeRelay | null;
   /**
    * Ends a device's live session (after revocation or rotation): 'closed', 'none' when it had no session,
    * or 'external-broker' when the sessions are the external broker's to end.
@@ -55,6 +64,7 @@ export interface Bus {
 export async function startBus(options: BusOptions): Promise<Bus> {
   const log = options.log ?? (() => {});
   const clock = options.clock ?? { now: () => new Date() };
+  if (options.replicas && !options.external) throw new Error(REPLICAS_NEED_BROKER);
   let broker: EmbeddedBroker | null = null;
   let account: { url: string; username: string; password: string };
   let admitDevices = () => {};
@@ -92,18 +102,27 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     // Over TLS the server's own client trusts the given CA, or else the broker's certificate itself (self-signed).
     ...(options.serverClientCaPem ? { ca: options.serverClientCaPem } : options.embedded?.tls && !options.external ? { ca: options.embedded.tls.certPem } : {}),
     clean: true,
+    // Shared subscriptions and No Local are MQTT 5 (MQTT 5.0 §4.8.2, §3.8.3.1).
+    ...(options.replicas ? { protocolVersion: 5 as const, clientId: `ocellus-server-${options.replicas.replicaId}-${randomBytes(3).toString('hex')}` } : {}),
     reconnectPeriod: 1000,
     connectTimeout: 10_000,
   });
   client.on('error', (e) => log(`bus: ${e.message}`));
+  const cursorMode = options.replicas ? 'stored' : 'memory';
   const eventWriter = options.eventWriter === 'inline'
-    ? createInlineEventWriter(options.store)
-    : await startWorkerEventWriter({ location: options.store.location, log }).catch(async (e: unknown) => {
+    ? createInlineEventWriter(options.store, cursorMode)
+    : await startWorkerEventWriter({ location: options.store.location, cursorMode, log }).catch(async (e: unknown) => {
         await client.endAsync(true);
         await broker?.close();
         throw e;
       });
-  const bridge = createBridge({ mqttClient: client, store: options.store, clock, log, eventWriter, keepaliveNotes, ...(options.metrics ? { metrics: options.metrics } : {}) });
+  const bridge = createBridge({
+    mqttClient: client, store: options.store, clock, log, eventWriter, keepaliveNotes,
+    ...(options.metrics ? { metrics: options.metrics } : {}),
+    ...(options.replicas ? { shareGroup: options.replicas.group } : {}),
+  });
+  const relay = options.replicas ? createChangeRelay({ client, replicaId: options.replicas.replicaId, log }) : null;
+  await relay?.subscribed();
   // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
   await bridge.subscribed();
   admitDevices();
@@ -112,11 +131,13 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     bridge,
     brokerUrl: account.url,
     broker,
+    relay,
     disconnectDevice: async function disconnectDevice(deviceId) {
       if (!broker) return 'external-broker';
       return (await broker.disconnect(deviceId)) ? 'closed' : 'none';
     },
     close: async function closeBus() {
+      relay?.close();
       await bridge.close();
       await eventWriter.close();
       await client.endAsync();
@@ -144,6 +165,9 @@ async function republishAssignedReleases(store: Store, bridge: Bridge, log: (lin
   }
 }
 
+export const REPLICAS_NEED_BROKER =
+  'replicas need an external MQTT 5 broker with shared subscriptions (e.g. Mosquitto 2): the embedded broker speaks MQTT 3.1.1 only and cannot share subscriptions; add --broker mqtt://HOST:PORT';
+
 /** What startServer's `bus` option expects: the bus started on the server's store and metrics. */
 export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'log' | 'loginGuard'>) {
   return async function startServerBus(context: { store: Store; metrics: MetricsRegistry; log: (line: string) => void; loginGuard?: LoginGuard }) {
@@ -156,7 +180,8 @@ export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'lo
     });
     return {
       publisher: bus.bridge,
-      description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}`,
+      description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}${options.replicas ? ` (replica ${options.replicas.replicaId} of shared-subscription group ${options.replicas.group})` : ''}`,
+      ...(bus.relay ? { relay: bus.relay } : {}),
       onDevicesStored: (listener: (deviceIds: string[]) => void) => bus.bridge.onStored(listener),
       disconnectDevice: (deviceId: string) => bus.disconnectDevice(deviceId),
       close: () => bus.close(),

@@ -5,11 +5,13 @@ import { startDemo } from '../demo/run-demo.js';
 import { DEMO_CAUTION } from '../demo/scenario.js';
 import { clock, formatSummary } from '../demo/summary.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
+import { REPLICAS_NEED_BROKER } from '../bus/start-bus.js';
 import { EXIT_BAD_INPUT, EXIT_OK } from './io.js';
 import type { CliIo } from './io.js';
 import { sToMs } from '../physics/units.js';
 
 export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--rollout-at S] [--port 8080] [--mqtt-port 1884] [--data DIR]
+                   [--database postgres://… ] [--broker mqtt://HOST:PORT [--broker-user U] [--replicas N]]
   Runs the whole system on this machine with demo data: the server with its embedded MQTT broker, the
   greenhouse scenario (profiles/greenhouse-demo) loaded through the API, a release per robot class, and
   simulated robots (device agents over MQTT with simulated cameras) working a time-compressed shift:
@@ -25,6 +27,13 @@ export const usage = `usage: ocellus demo [--robots 12] [--duration S] [--rollou
   --port, --mqtt-port   HTTP and MQTT ports on 127.0.0.1 (0 picks free ones)
   --data DIR      the demo's folder (server/, robots/<id>/, demo.log); default a new folder under the
                   system's temporary folder, kept after the run so you can look at it
+  --database URL  keep the store in PostgreSQL (postgres://…, or OCELLUS_DATABASE_URL) instead of the SQLite
+                  file in the demo's folder
+  --broker URL    use an external MQTT broker (e.g. Mosquitto on mqtt://127.0.0.1:1883) instead of the
+                  embedded one; the server logs in as --broker-user (ocellus-server) with the password in
+                  OCELLUS_BROKER_PASSWORD
+  --replicas N    run N server replicas in this process on the same store and broker (needs --broker, an
+                  MQTT 5 broker with shared subscriptions); see docs/scale-out.md
   Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as the admin token on the first start.
 `;
 
@@ -78,6 +87,10 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       'mqtt-port': { type: 'string' },
       data: { type: 'string' },
       'rollout-at': { type: 'string' },
+      database: { type: 'string' },
+      broker: { type: 'string' },
+      'broker-user': { type: 'string' },
+      replicas: { type: 'string' },
       help: { type: 'boolean' },
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
@@ -91,10 +104,21 @@ export async function run(args: string[], io: CliIo): Promise<number> {
     const defaultRolloutAtS = durationS === undefined ? DEFAULT_ROLLOUT_AT_S : Math.min(DEFAULT_ROLLOUT_AT_S, durationS * 0.2);
     const rolloutAtS = values['rollout-at'] === undefined ? defaultRolloutAtS : optionalNumber(values, 'rollout-at', defaultRolloutAtS, { positive: false });
 
+    const databaseUrl = values.database ?? io.env.OCELLUS_DATABASE_URL;
+    if (databaseUrl !== undefined && !/^postgres(ql)?:\/\//i.test(databaseUrl)) {
+      throw new UsageError(`--database (or OCELLUS_DATABASE_URL) must be a postgres:// or postgresql:// URL, got '${databaseUrl.slice(0, 40)}'`);
+    }
+    if (values.broker !== undefined && !/^(mqtts?|tcp|ssl):\/\/[^/]+/.test(values.broker)) throw new UsageError(`--broker must be an mqtt:// or mqtts:// URL, got '${values.broker}'`);
+    const replicas = optionalNumber(values, 'replicas', 1, { integer: true });
+    if (replicas > 8) throw new UsageError(`--replicas must be at most 8 on one machine, got ${replicas}`);
+    if (replicas > 1 && values.broker === undefined) throw new UsageError(REPLICAS_NEED_BROKER);
+    if (values['broker-user'] !== undefined && values.broker === undefined) throw new UsageError('--broker-user needs --broker');
+    const broker = values.broker === undefined ? undefined : { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' };
+
     io.stdout(`${DEMO_CAUTION}\n`);
     const stop = stopRequest(io);
     try {
-      return await runDemo(io, stop, { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS });
+      return await runDemo(io, stop, { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS, replicas, ...(databaseUrl !== undefined ? { databaseUrl } : {}), ...(broker ? { broker } : {}) });
     } finally {
       stop.release();
     }
@@ -110,16 +134,22 @@ interface DemoRun {
   durationS: number | undefined;
   adminToken: string | undefined;
   rolloutAtS: number;
+  replicas: number;
+  databaseUrl?: string;
+  broker?: { url: string; username: string; password: string };
 }
 
 async function runDemo(io: CliIo, stop: ReturnType<typeof stopRequest>, o: DemoRun): Promise<number> {
-  const { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS } = o;
+  const { dataDir, robots, port, mqttPort, durationS, adminToken, rolloutAtS, replicas } = o;
   io.stdout(`demo folder: ${dataDir}\n`);
   let demo;
   try {
     demo = await startDemo({
       dataDir, robots, port, mqttPort,
       rolloutAfterS: rolloutAtS,
+      replicas,
+      ...(o.databaseUrl !== undefined ? { databaseUrl: o.databaseUrl } : {}),
+      ...(o.broker ? { broker: o.broker } : {}),
       ...(adminToken ? { adminToken } : {}),
       say: (line) => io.stdout(`${line}\n`),
     });
@@ -129,6 +159,7 @@ async function runDemo(io: CliIo, stop: ReturnType<typeof stopRequest>, o: DemoR
     return EXIT_BAD_INPUT;
   }
   io.stdout(`console: ${demo.consoleUrl}\n`);
+  if (demo.replicaUrls.length > 1) io.stdout(`replicas: ${demo.replicaUrls.join(', ')} (any of them serves the console)\n`);
   io.stdout(`admin token: ${demo.adminToken}${demo.tokenSource === 'environment' ? ' (from OCELLUS_ADMIN_TOKEN)' : ''}\n`);
   io.stdout(`MQTT broker: ${demo.brokerUrl}; server log and agent logs: ${demo.logFile}\n`);
   io.stdout(

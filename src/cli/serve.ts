@@ -1,6 +1,8 @@
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { busForServer } from '../bus/start-bus.js';
+import { hostname } from 'node:os';
+import { busForServer, REPLICAS_NEED_BROKER } from '../bus/start-bus.js';
+import { SHARE_GROUP_PATTERN } from '../protocol/topics.js';
 import { startServer } from '../server/start-server.js';
 import { isPostgresUrl } from '../store/index.js';
 import { guard, optionalNumber, parseFlags, UsageError } from './args.js';
@@ -13,6 +15,7 @@ export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--d
                     [--database postgres://USER@HOST:PORT/DB]
                     [--mqtt-port 1884 | --broker mqtt://HOST:PORT [--broker-user ocellus-server]]
                     [--tls-cert FILE --tls-key FILE [--client-ca FILE [--crl FILE]]]
+                    [--replicas [--replica-group ocellus-servers] [--replica-id HOST-PID] [--leader-poll-ms 1000]]
   Runs the server: the HTTP API under /api/v1, /metrics, and the signed-release store in the data folder
   (database, model weights, signing key). Listens on loopback unless --host says otherwise.
   --database (or OCELLUS_DATABASE_URL) keeps the store in that PostgreSQL database instead of the data
@@ -27,6 +30,11 @@ export const usage = `usage: ocellus serve [--port 8080] [--host 127.0.0.1] [--d
   every device log in to the embedded broker with a certificate signed by that CA, its CN being the device
   id; --crl lists revoked device certificates (checked when a device connects: also run
   'ocellus device revoke' to end a live session). Use TLS on any network you do not fully control.
+  --replicas runs this server as one of several on the same store and the same external MQTT 5 broker
+  (--broker is required: the embedded broker cannot share subscriptions): device messages are shared out
+  through the broker's shared subscription --replica-group, one replica at a time (the holder of the
+  leader lease, polled every --leader-poll-ms) runs rollouts, calibration and drift, and changes reach
+  every replica's console. See docs/scale-out.md.
   Environment: OCELLUS_ADMIN_TOKEN (24+ characters) is stored as an admin token on the first start, when
   no token exists yet. Stops cleanly on Ctrl-C (SIGINT) or SIGTERM.
 `;
@@ -59,6 +67,10 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       'tls-key': { type: 'string' },
       'client-ca': { type: 'string' },
       crl: { type: 'string' },
+      replicas: { type: 'boolean' },
+      'replica-group': { type: 'string' },
+      'replica-id': { type: 'string' },
+      'leader-poll-ms': { type: 'string' },
       help: { type: 'boolean' },
     });
     if (values.help) return io.stdout(usage), EXIT_OK;
@@ -88,6 +100,15 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       throw new UsageError('--client-ca and --crl need --tls-cert and --tls-key');
     }
     if (values.crl !== undefined && values['client-ca'] === undefined) throw new UsageError('--crl needs --client-ca');
+    const replicaFlags = (['replica-group', 'replica-id', 'leader-poll-ms'] as const).filter((f) => values[f] !== undefined);
+    if (!values.replicas && replicaFlags.length > 0) throw new UsageError(`--${replicaFlags[0]} needs --replicas`);
+    if (values.replicas && values.broker === undefined) throw new UsageError(REPLICAS_NEED_BROKER);
+    const replicaGroup = values['replica-group'] ?? 'ocellus-servers';
+    if (!SHARE_GROUP_PATTERN.test(replicaGroup)) throw new UsageError(`--replica-group '${replicaGroup}': use 1 to 64 letters, digits, '.', '_' or '-' (no '/', '+' or '#')`);
+    const replicaId = values['replica-id'] ?? `${hostname()}-${process.pid}`;
+    if (!SHARE_GROUP_PATTERN.test(replicaId)) throw new UsageError(`--replica-id '${replicaId}': use 1 to 64 letters, digits, '.', '_' or '-'`);
+    const leaderPollMs = optionalNumber(values, 'leader-poll-ms', 1000, { integer: true });
+    const replicas = values.replicas ? { group: replicaGroup, replicaId } : undefined;
     const certPem = pem('tls-cert');
     const keyPem = pem('tls-key');
     const clientCaPem = pem('client-ca');
@@ -107,7 +128,10 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       return EXIT_BAD_INPUT;
     }
     const bus = values.broker
-      ? busForServer({ external: { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' } })
+      ? busForServer({
+          external: { url: values.broker, username: values['broker-user'] ?? 'ocellus-server', password: io.env.OCELLUS_BROKER_PASSWORD ?? '' },
+          ...(replicas ? { replicas } : {}),
+        })
       : busForServer({
           embedded: {
             port: mqttPort,
@@ -125,6 +149,7 @@ export async function run(args: string[], io: CliIo): Promise<number> {
       ...(adminToken ? { adminToken } : {}),
       bus,
       ...(tls ? { tls } : {}),
+      ...(replicas ? { replica: { replicaId, leaderPollMs } } : {}),
       log: (line) => io.stderr(`${line}\n`),
     }).catch((e: NodeJS.ErrnoException) => {
       // Taken between the check and the start (another process was quicker).

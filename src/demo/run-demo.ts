@@ -1,7 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import { appendFileSync, mkdirSync } from 'node:fs';
 import { join } from 'node:path';
-import { busForServer } from '../bus/start-bus.js';
+import { busForServer, REPLICAS_NEED_BROKER } from '../bus/start-bus.js';
 import { startServer, type RunningServer } from '../server/start-server.js';
 import { ApiError, createApiClient, type ApiClient } from '../api-client/api-client.js';
 import { enrolFleet, planRobots, type EnrolledRobot } from './fleet.js';
@@ -18,8 +18,14 @@ export interface DemoOptions {
   robots: number;
   /** HTTP port (0 picks a free one). */
   port: number;
-  /** Embedded MQTT broker port (0 picks a free one). */
+  /** Embedded MQTT broker port (0 picks a free one); unused with `broker`. */
   mqttPort: number;
+  /** A PostgreSQL database for the store (postgres://…) instead of the SQLite file in the data folder. */
+  databaseUrl?: string;
+  /** An external MQTT broker (MQTT 5 with shared subscriptions for `replicas` > 1) instead of the embedded one. */
+  broker?: { url: string; username: string; password: string };
+  /** How many server replicas share the fleet (1 by default; more need `broker`). Extra ones listen on free ports. */
+  replicas?: number;
   /** An admin token to store on the first start (OCELLUS_ADMIN_TOKEN); a random one otherwise. */
   adminToken?: string;
   /** Seconds of demo time before the staged rollout starts (it also waits until every robot runs its first release). */
@@ -32,6 +38,8 @@ export interface DemoOptions {
 
 export interface RunningDemo {
   url: string;
+  /** Every replica's URL, the first one included (one entry unless `replicas` > 1). */
+  replicaUrls: string[];
   consoleUrl: string;
   brokerUrl: string;
   adminToken: string;
@@ -97,14 +105,28 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
   mkdirSync(options.dataDir, { recursive: true });
   const log = (line: string) => appendFileSync(logFile, `${new Date().toISOString()} ${line}\n`);
   const generated = `demo-${randomBytes(18).toString('base64url')}`;
-  const server = await startServer({
-    dataDir: serverDir,
-    port: options.port,
-    adminToken: options.adminToken ?? generated,
-    log,
-    bus: busForServer({ embedded: { port: options.mqttPort } }),
-    fleet: { tickMs: 250 },
-  });
+  const replicaCount = options.replicas ?? 1;
+  if (!Number.isInteger(replicaCount) || replicaCount < 1) throw new RangeError(`replicas must be a whole number of at least 1, got ${replicaCount}`);
+  if (replicaCount > 1 && !options.broker) throw new Error(REPLICAS_NEED_BROKER);
+  // One after another: the first makes the signing key and stores the admin token, the others read them.
+  const startReplica = (n: number) => {
+    const replicaId = `demo-${n}`;
+    const replicas = replicaCount > 1 ? { group: 'ocellus-demo', replicaId } : undefined;
+    return startServer({
+      dataDir: serverDir,
+      ...(options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {}),
+      port: n === 1 ? options.port : 0,
+      adminToken: options.adminToken ?? generated,
+      log: replicaCount > 1 ? (line) => log(`[${replicaId}] ${line}`) : log,
+      bus: options.broker
+        ? busForServer({ external: options.broker, ...(replicas ? { replicas } : {}) })
+        : busForServer({ embedded: { port: options.mqttPort } }),
+      ...(replicas ? { replica: { replicaId } } : {}),
+      fleet: { tickMs: 250 },
+    });
+  };
+  const server = await startReplica(1);
+  const others: RunningServer[] = [];
   const robots: EnrolledRobot[] = [];
   const walkers: DemoRobot[] = [];
   let rolloutId: string | null = null;
@@ -116,12 +138,18 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
       if (rolloutTimer) clearTimeout(rolloutTimer);
       await Promise.all(walkers.map((w) => w.stop()));
       await Promise.all(robots.map((r) => r.agent.stop().catch((e: unknown) => log(`${r.deviceId}: stop failed: ${(e as Error).message}`))));
+      for (const other of others) await other.close();
       await server.close();
     })();
     return stopping;
   }
 
   try {
+    for (let n = 2; n <= replicaCount; n++) {
+      const other = await startReplica(n);
+      others.push(other);
+      say(`replica demo-${n} serving ${other.url} (same store and broker as ${server.url})`);
+    }
     const { token, source } = adminTokenFor(server, options.adminToken, generated);
     const api = createApiClient(server.url, token);
     const brokerUrl = /mqtt:\/\/[^\s]+/.exec(server.bus ?? '')?.[0];
@@ -190,6 +218,7 @@ export async function startDemo(options: DemoOptions): Promise<RunningDemo> {
 
     return {
       url: server.url,
+      replicaUrls: [server.url, ...others.map((o) => o.url)],
       consoleUrl: `${server.url}/`,
       brokerUrl,
       adminToken: token,

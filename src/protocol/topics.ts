@@ -21,6 +21,20 @@ export function allDevicesFilter(channel: DeviceChannel): string {
   return `${TOPIC_ROOT}/+/${channel}`;
 }
 
+/**
+ * The same filter as an MQTT 5 shared subscription of `group` (`$share/<group>/<filter>`, MQTT 5.0 §4.8.2): the
+ * broker hands each matching message to one subscriber of the group. Group names carry no '/', '+' or '#'.
+ */
+export function sharedFilter(group: string, filter: string): string {
+  if (!SHARE_GROUP_PATTERN.test(group)) throw new RangeError(`invalid shared-subscription group ${JSON.stringify(group)}: use letters, digits, '.', '_' or '-'`);
+  return `$share/${group}/${filter}`;
+}
+
+export const SHARE_GROUP_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]{0,63}$/;
+
+/** Where replicas of the server tell each other what changed (MQTT 5, subscribed with No Local); devices neither read nor write it. */
+export const SERVER_CHANGES_TOPIC = 'ocellus/v1/servers/changes';
+
 /** Splits a device topic; null when the topic is not one of ours or the id is invalid. */
 export function parseDeviceTopic(topic: string): { deviceId: string; channel: DeviceChannel } | null {
   const parts = topic.split('/');

@@ -9,6 +9,9 @@ import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry
 import { generateSigningKeyPair } from '../protocol/signing.js';
 import { createBlobStore, createLoginGuard, loadKeyChain, loadOrCreateSigningKey, openStore, type LoginGuard, type Store } from '../store/index.js';
 import { seedAdminToken, type AdminSeed } from './admin-seed.js';
+import { createLeaseLock, createSoleLock } from '../fleet/leader-lock.js';
+import { startFleetDuties, type FleetDuties } from './fleet-duties.js';
+import { fleetChangeSchema, type FleetChange } from '../api/change-feed.js';
 
 /** What the bus hook is handed: the open store and the metrics registry, both shared with the HTTP API. */
 export interface BusContext {
@@ -28,7 +31,17 @@ export interface BusAttachment {
   onDevicesStored?(listener: (deviceIds: string[]) => void): () => void;
   /** Ends a device's live session at once (revocation, rotation). */
   disconnectDevice?(deviceId: string): Promise<'closed' | 'none' | 'external-broker'>;
+  /** Replicas: the change feed between this server and the others on the same broker. */
+  relay?: { send(change: unknown): void; onRemote(listener: (change: unknown, fromReplica: string) => void): () => void };
   close(): Promise<void>;
+}
+
+/** This server as one of several replicas: who it is in the leader lease, and how often it polls the lease. */
+export interface ReplicaOptions {
+  /** Unique among the replicas (e.g. host name and process id). */
+  replicaId: string;
+  /** How often the leader lease is renewed or tried, in ms (1,000 by default); a dead leader is replaced within about 5 polls. */
+  leaderPollMs?: number;
 }
 
 export interface StartServerOptions {
@@ -61,6 +74,12 @@ export interface StartServerOptions {
   consoleDir?: string;
   /** Serve HTTPS with this certificate and key (PEM) instead of plain HTTP. */
   tls?: { certPem: string; keyPem: string };
+  /**
+   * Run as one of several replicas on a shared store and broker: the rollout and calibration engines run only
+   * while this server holds the leader lease (src/fleet/leader-lock.ts). Without it the server is alone and
+   * always runs them. The bus should be started in replicas mode too (busForServer's `replicas`).
+   */
+  replica?: ReplicaOptions;
 }
 
 export interface RunningServer {
@@ -74,6 +93,8 @@ export interface RunningServer {
   adminSeed: AdminSeed;
   /** The bus's description (e.g. broker URL), or null without a bus. */
   bus: string | null;
+  /** Whether this server runs the fleet's engines now (always, unless it is one of several replicas). */
+  leading(): boolean;
   /** Stops the bus, the HTTP server (open connections included) and the database, in that order. */
   close(): Promise<void>;
 }
@@ -95,7 +116,10 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
   const host = options.host ?? '127.0.0.1';
   const store = openStore(options.dataDir, options.databaseUrl !== undefined ? { databaseUrl: options.databaseUrl } : {});
   let bus: BusAttachment | null = null;
-  let stopEngine: () => Promise<void> = async () => {};
+  let duties: FleetDuties | null = null;
+  const stopEngine = async () => {
+    await duties?.stop();
+  };
   try {
     const blobs = createBlobStore(options.dataDir);
     // The chain first: it finishes a key rotation a crash interrupted before the key is read.
@@ -110,10 +134,22 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     if (options.bus) bus = await options.bus({ store, metrics, log, loginGuard });
 
     const changes = createChangeFeed();
-    bus?.onDevicesStored?.((deviceIds) => changes.publish({ kind: 'devices', deviceIds }));
+    const relay = bus?.relay;
+    // Changes made here go to this server's listeners and, with replicas, to the others'; theirs come back to ours.
+    const feed = relay ? relayedFeed(changes, relay) : changes;
+    bus?.onDevicesStored?.((deviceIds) => feed.publish({ kind: 'devices', deviceIds }));
+    const remoteDevices = new Set<(deviceIds: string[]) => void>();
+    relay?.onRemote((raw, from) => {
+      const parsed = fleetChangeSchema.safeParse(raw);
+      if (!parsed.success) return log(`relay: dropped a change from replica ${from} that is not a fleet change`);
+      const change = parsed.data as FleetChange;
+      changes.publish(change);
+      // Another replica stored these devices' reports: the rollout engine judges them as if stored here.
+      if (change.kind === 'devices') for (const listener of remoteDevices) listener(change.deviceIds);
+    });
     const app = createApp({
       store,
-      changes,
+      changes: feed,
       ...(options.consoleDir !== undefined ? { consoleDir: options.consoleDir } : {}),
       blobs,
       signer,
@@ -126,32 +162,59 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     });
     // Rollouts carry on from the database: one left running by an earlier process continues here. Devices'
     // reports wake the engine, so a gate is judged as soon as its facts are stored.
-    const reports = bus?.onDevicesStored?.bind(bus);
+    const localReports = bus?.onDevicesStored?.bind(bus);
+    const reports = localReports
+      ? (listener: (deviceIds: string[]) => void) => {
+          const stopLocal = localReports(listener);
+          remoteDevices.add(listener);
+          return () => (stopLocal(), remoteDevices.delete(listener), undefined);
+        }
+      : undefined;
     const clock = options.clock ?? { now: () => new Date() };
     const { calibrationEveryMs, driftTolerance, ...rolloutTiming } = options.fleet ?? {};
-    // Drift episodes and the gate's class calibrations, refreshed on their own timer.
-    const calibration = createCalibrationEngine({
-      store,
-      clock,
+    const lock = options.replica
+      ? createLeaseLock({
+          leases: store.leaderLeases,
+          name: 'fleet-engines',
+          holder: options.replica.replicaId,
+          clock,
+          log,
+          ...(options.replica.leaderPollMs !== undefined ? { pollMs: options.replica.leaderPollMs } : {}),
+        })
+      : createSoleLock();
+    const fence = () => lock.held();
+    duties = startFleetDuties({
+      lock,
       log,
-      ...(calibrationEveryMs !== undefined ? { calibrationEveryMs } : {}),
-      ...(driftTolerance !== undefined ? { driftTolerance } : {}),
+      makeEngines: () => {
+        // Drift episodes and the gate's class calibrations, refreshed on their own timer.
+        const calibration = createCalibrationEngine({
+          store,
+          clock,
+          log,
+          fence,
+          ...(calibrationEveryMs !== undefined ? { calibrationEveryMs } : {}),
+          ...(driftTolerance !== undefined ? { driftTolerance } : {}),
+        });
+        const engine = createRolloutEngine({
+          store,
+          publisher: bus?.publisher,
+          clock,
+          calibration,
+          log,
+          fence,
+          ...(reports ? { onDevicesStored: reports } : {}),
+          ...rolloutTiming,
+        });
+        return {
+          start: () => (calibration.start(), engine.start()),
+          stop: async () => {
+            calibration.stop();
+            await engine.stop();
+          },
+        };
+      },
     });
-    const engine = createRolloutEngine({
-      store,
-      publisher: bus?.publisher,
-      clock,
-      calibration,
-      log,
-      ...(reports ? { onDevicesStored: reports } : {}),
-      ...rolloutTiming,
-    });
-    calibration.start();
-    engine.start();
-    stopEngine = async () => {
-      calibration.stop();
-      await engine.stop();
-    };
     const server = serve({
       fetch: app.fetch,
       port: options.port ?? 8080,
@@ -175,6 +238,7 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
       metrics,
       adminSeed,
       bus: attached?.description ?? null,
+      leading: () => duties?.leading() ?? false,
       close: function close() {
         closing ??= (async () => {
           await stopEngine();
@@ -195,4 +259,16 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
     store.close();
     throw e;
   }
+}
+
+/** A feed whose changes also go to the other replicas (what comes from them is published on the inner feed only). */
+function relayedFeed(inner: ReturnType<typeof createChangeFeed>, relay: NonNullable<BusAttachment['relay']>): ReturnType<typeof createChangeFeed> {
+  return {
+    publish: function publishEverywhere(change: FleetChange) {
+      inner.publish(change);
+      relay.send(change);
+    },
+    subscribe: (listener) => inner.subscribe(listener),
+    listenerCount: () => inner.listenerCount(),
+  };
 }

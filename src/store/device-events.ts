@@ -45,6 +45,13 @@ export interface DeviceEventRepository {
   /** Highest seq n such that every event 1..n of the device is stored (0 when event 1 is missing). */
   contiguousSeq(deviceId: string): number;
   setContiguousSeq(deviceId: string, seq: number): void;
+  /**
+   * The stored contiguous seq, held until the transaction ends, so replicas advancing one device's cursor take
+   * turns and the second reads what the first committed. PostgreSQL: the cursor row is made if missing and locked
+   * (SELECT … FOR UPDATE; under READ COMMITTED the next statement then sees the other's committed rows, PostgreSQL
+   * documentation, "Transaction Isolation"). SQLite: a write transaction already excludes every other writer.
+   */
+  lockContiguousSeq(deviceId: string): number;
   /** Stored seqs above a given one, ascending: the events that arrived ahead of a gap. */
   seqsAbove(deviceId: string, seq: number): number[];
   list(deviceId: string, options?: { afterSeq?: number; type?: string; limit?: number }): StoredDeviceEvent[];
@@ -69,6 +76,12 @@ export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepos
   const setCursor = db.prepare(`INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, ?)
     ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
   const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
+  const cursorLock = db.dialect === 'postgres'
+    ? {
+        ensure: db.prepare('INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, 0) ON CONFLICT DO NOTHING'),
+        read: db.prepare('SELECT contiguous_seq AS n FROM device_event_cursor WHERE device_id = ? FOR UPDATE'),
+      }
+    : null;
   const listRows = db.prepare(`SELECT * FROM device_events WHERE device_id = @deviceId AND seq > @afterSeq
     AND (CAST(@type AS TEXT) IS NULL OR type = @type) ORDER BY seq LIMIT @limit`);
   const countAll = db.prepare('SELECT COUNT(*) AS n FROM device_events');
@@ -94,6 +107,11 @@ export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepos
     },
     setContiguousSeq: function setContiguousSeq(deviceId, seq) {
       setCursor.run(deviceId, seq);
+    },
+    lockContiguousSeq: function lockContiguousSeq(deviceId) {
+      if (!cursorLock) return (cursorRow.get(deviceId) as { n: number } | undefined)?.n ?? 0;
+      cursorLock.ensure.run(deviceId);
+      return (cursorLock.read.get(deviceId) as { n: number }).n;
     },
     seqsAbove: function seqsAbove(deviceId, seq) {
       return above.all(deviceId, seq) as number[];

@@ -28,3 +28,4 @@ export type { DriftRepository, DriftRecord, DriftQuantity } from './drift.js';
 export type { RolloutRepository, RolloutRecord, RolloutDeviceRecord } from './rollouts.js';
 export type { DeviceConnectionRepository, ConnectionChange, ConnectionCause, NewConnectionChange } from './device-connections.js';
 export { CONNECTION_CAUSES } from './device-connections.js';
+export type { LeaderLeaseRepository, LeaseRecord, LeaseAttempt } from './leader-leases.js';

@@ -401,6 +401,28 @@ export const migrations: Migration[] = [
       );
     `,
   },
+  {
+    version: 7,
+    name: 'replicas: leader leases',
+    // One row per kind of work only one replica may do at a time (the fleet's rollout and calibration engines).
+    // fence grows by one at every change of holder, so a holder can tell its lease was taken meanwhile.
+    sql: `
+      CREATE TABLE leader_leases (
+        name TEXT PRIMARY KEY,
+        holder TEXT NOT NULL,
+        expires_at_ms INTEGER NOT NULL,
+        fence INTEGER NOT NULL CHECK (fence > 0)
+      );
+    `,
+    postgres: `
+      CREATE TABLE leader_leases (
+        name text PRIMARY KEY,
+        holder text NOT NULL,
+        expires_at_ms bigint NOT NULL,
+        fence bigint NOT NULL CHECK (fence > 0)
+      );
+    `,
+  },
 ];
 
 // Any constant: the key of the advisory lock that lets one process at a time migrate a PostgreSQL database.

@@ -10,6 +10,7 @@ import { createDeviceRepository, type DeviceRepository } from './devices.js';
 import { createDocumentRepository, type DocumentRepository } from './documents.js';
 import { createDriftRepository, type DriftRepository } from './drift.js';
 import { createEventRangeReader, type EventRangeReader } from './event-ranges.js';
+import { createLeaderLeaseRepository, type LeaderLeaseRepository } from './leader-leases.js';
 import { applyMigrations, migrations as defaultMigrations, type Migration } from './migrations.js';
 import { createProfileRepository, type ProfileRepository } from './profiles.js';
 import { createReleaseRepository, type ReleaseRepository } from './releases.js';
@@ -47,6 +48,8 @@ export interface Store {
   /** The rollout gate's joined reads of rollout devices, states and events. */
   readonly rolloutFacts: RolloutFactsRepository;
   readonly drift: DriftRepository;
+  /** Leases that let one replica at a time run the fleet's engines (src/fleet/leader-lock.ts). */
+  readonly leaderLeases: LeaderLeaseRepository;
   /** Runs `fn` in one transaction: every write in it lands, or none does. Nested calls join the outer one. */
   transaction<T>(fn: () => T): T;
   /**
@@ -160,6 +163,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     rollouts: createRolloutRepository(db),
     rolloutFacts: createRolloutFactsRepository(db),
     drift: createDriftRepository(db),
+    leaderLeases: createLeaderLeaseRepository(db),
     transaction: function transaction<T>(fn: () => T): T {
       return db.transaction(fn);
     },

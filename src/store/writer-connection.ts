@@ -45,8 +45,9 @@ function openSqliteWriter(location: string, busyTimeoutMs: number): SqlConnectio
   db.pragma(`busy_timeout = ${Math.max(0, Math.floor(busyTimeoutMs))}`);
   db.pragma('synchronous = FULL');
   const conn = sqliteConnection(db);
-  // The writer's transactions are deferred: it only writes, so it takes the lock at its first insert.
-  return { ...conn, transaction: <T>(fn: () => T): T => db.transaction(fn)(), get inTransaction() { return db.inTransaction; } };
+  // IMMEDIATE: the write lock is taken at BEGIN, where the busy timeout lets it wait for other connections (the
+  // main one, or another replica's on the same file) instead of failing on a read that turns into a write.
+  return { ...conn, transaction: <T>(fn: () => T): T => db.transaction(fn).immediate(), get inTransaction() { return db.inTransaction; } };
 }
 
 function openPostgresWriter(url: string, busyTimeoutMs: number): SqlConnection {

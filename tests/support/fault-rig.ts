@@ -47,9 +47,9 @@ export function startAgentHost(args: string[], hardwareFile: string): AgentProce
   return spawnTsProcess('tests/support/fault-agent-host.ts', args, 'agent host', { ...process.env, FAULT_HARDWARE_FILE: hardwareFile });
 }
 
-/** Starts `ocellus serve` as a process and waits until it prints its URL. */
-export async function startServerProcess(dataDir: string, port: number, mqttPort: number): Promise<ServerProcess> {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'serve', '--port', String(port), '--mqtt-port', String(mqttPort), '--data', dataDir], {
+/** Starts `ocellus serve` as a process (with `extraArgs`, e.g. --broker and --replicas) and waits until it prints its URL. */
+export async function startServerProcess(dataDir: string, port: number, mqttPort: number, extraArgs: readonly string[] = []): Promise<ServerProcess> {
+  const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli/main.ts', 'serve', '--port', String(port), '--mqtt-port', String(mqttPort), '--data', dataDir, ...extraArgs], {
     cwd: ROOT,
     env: { ...process.env, OCELLUS_ADMIN_TOKEN: ADMIN_TOKEN },
     stdio: ['ignore', 'pipe', 'pipe'],

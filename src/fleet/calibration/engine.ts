@@ -12,6 +12,8 @@ export interface CalibrationEngineOptions {
 export interface CalibrationEngineDeps extends CalibrationEngineOptions {
   store: Store;
   clock: { now(): Date };
+  /** True while this server may record drift episodes (it holds the leader lock); always true by default. */
+  fence?: () => boolean;
 }
 
 export interface CalibrationEngine {
@@ -40,6 +42,8 @@ export function createCalibrationEngine(deps: CalibrationEngineDeps): Calibratio
   let timer: ReturnType<typeof setInterval> | null = null;
 
   function refreshLogged() {
+    // Drift episodes are written once per fleet: only the replica holding the leader lock checks them.
+    if (deps.fence && !deps.fence()) return;
     try {
       refresh();
     } catch (e) {

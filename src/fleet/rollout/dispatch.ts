@@ -14,6 +14,8 @@ export interface DispatchDeps {
   batchSize: number;
   /** Sends the broker has not acknowledged yet above which recording waits: bounds what a large wave holds in memory. */
   maxSendsInFlight: number;
+  /** True while this server may assign (it holds the leader lock); checked before every batch is recorded. */
+  fence?: () => boolean;
   log: (line: string) => void;
   /** The time waits are counted in, in ms (the engine's scheduler: only differences count). */
   nowMs: () => number;
@@ -108,6 +110,8 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
       let failed = 0;
       if (parsed.size > PARSED_RELEASES_KEPT) parsed.clear();
       for (let i = 0; i < devices.length; i += deps.batchSize) {
+        // Fencing: a replica that lost the leader lock records nothing more; the one that took it carries on.
+        if (deps.fence && !deps.fence()) return { waitedMs, failed };
         if (i > 0) {
           const waitStart = deps.nowMs();
           await nextTurn();

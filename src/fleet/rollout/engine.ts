@@ -38,6 +38,11 @@ export interface RolloutEngineDeps extends RolloutEngineOptions {
    * device are needed only for the clock's verdicts (src/fleet/rollout/pacing.ts).
    */
   onDevicesStored?: (listener: (deviceIds: string[]) => void) => () => void;
+  /**
+   * True while this server may act on rollouts (it holds the leader lock, src/fleet/leader-lock.ts); asked before
+   * every pass and every assignment batch, so a replica that lost the lock stops at once. Always true by default.
+   */
+  fence?: () => boolean;
 }
 
 export interface RolloutEngine {
@@ -71,6 +76,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   // mixing in the process's clock would let a slow pass (a loaded machine) push the next timer pass past
   // ticks that a scheduler advanced by hand never reaches.
   const scheduler = deps.scheduler ?? systemScheduler;
+  const fence = deps.fence ?? (() => true);
   const repo = store.rollouts;
   const facts = createFactsReader(store.rolloutFacts);
   const ranges = store.eventRanges;
@@ -80,6 +86,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     repo,
     ranges,
     batchSize: deps.assignConcurrency ?? 100,
+    fence,
     maxSendsInFlight: deps.maxSendsInFlight ?? 2000,
     log,
     nowMs: () => scheduler.nowMs(),
@@ -153,6 +160,8 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     const sent = await dispatcher.dispatch(r, toAssign, false, at);
     const waitedMs = sent.waitedMs;
     failed += sent.failed;
+    // The lock may have gone while the sends were awaited: the wave is closed by whoever holds it now.
+    if (!fence()) return waitedMs;
     // The wave's counts are read when it may have closed: always on a timer pass; on a short pass when a device
     // failed or the devices left open by the last count may all have settled.
     const hint = openHint.get(waveKey);
@@ -199,6 +208,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       }
     });
     const { waitedMs } = await dispatcher.dispatch(r, toRestore, true, at);
+    if (!fence()) return waitedMs;
     const after = repo.devices(r.id).filter((d) => d.assignmentId !== null);
     if (after.every((d) => d.rollbackStatus === 'restored' || d.rollbackStatus === 'nothing-to-restore')) {
       store.transaction(() => {
@@ -224,9 +234,11 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     let waitedMs = 0;
     waveOpened = false;
     const nowMs = clock.now().getTime();
+    if (!fence()) return { busyMs: 0, moving: false, fullPassNow: false };
     const moving = repo.moving();
     if (request.kind !== 'reported') forgetAllBut(moving);
     for (const r of moving) {
+      if (!fence()) break;
       try {
         if (r.status === 'running') {
           const scope: Scope =
@@ -254,6 +266,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
 
   /** A moving rollout whose wave no pass has judged whole in its current state (or one rolling back). */
   function changed(): boolean {
+    if (!fence()) return false;
     return repo.moving().some((r) => r.status !== 'running' || judgedWhole.get(r.id) !== wholeKey(r));
   }
 
