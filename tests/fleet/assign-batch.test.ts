@@ -71,7 +71,7 @@ describe('batched assignment records', () => {
       id: 'ro-batch', releaseId: 'gh-batch-1', deviceClassId: demoDeviceClass.id, spec: {}, waveCount: 1, createdAt: at, createdBy: 'test operator',
       devices: ['gh-b-01', 'gh-b-02', 'gh-b-03'].map((deviceId) => ({ deviceId, wave: 0 })),
     });
-    const dispatcher = createAssignmentDispatcher({ store, publisher, repo, ranges: store.eventRanges, batchSize: 1, maxSendsInFlight: 10, log: () => {} });
+    const dispatcher = createAssignmentDispatcher({ store, publisher, repo, ranges: store.eventRanges, batchSize: 1, maxSendsInFlight: 10, log: () => {}, nowMs: () => performance.now() });
     await dispatcher.dispatch(r, repo.devices(r.id), false, at);
     await dispatcher.settled();
     expect(sent).toEqual(['gh-b-01']);

@@ -17,6 +17,8 @@ export interface DispatchDeps {
   /** True while this server may assign (it holds the leader lock); checked before every batch is recorded. */
   fence?: () => boolean;
   log: (line: string) => void;
+  /** The time waits are counted in, in ms (the engine's scheduler: only differences count). */
+  nowMs: () => number;
 }
 
 export interface AssignmentDispatcher {
@@ -111,10 +113,10 @@ export function createAssignmentDispatcher(deps: DispatchDeps): AssignmentDispat
         // Fencing: a replica that lost the leader lock records nothing more; the one that took it carries on.
         if (deps.fence && !deps.fence()) return { waitedMs, failed };
         if (i > 0) {
-          const waitStart = performance.now();
+          const waitStart = deps.nowMs();
           await nextTurn();
           while (sendsInFlight > deps.maxSendsInFlight && sending.size > 0) await Promise.race(sending);
-          waitedMs += performance.now() - waitStart;
+          waitedMs += deps.nowMs() - waitStart;
           // An operator may have paused or aborted the rollout while the loop turned.
           if (!stillMoving(r, rollback)) return { waitedMs, failed };
         }

@@ -7,7 +7,7 @@ import { createAssignmentDispatcher } from './dispatch.js';
 import { createFactsReader } from './facts.js';
 import { clockDelaysMs, judgeSteps, waveOutcome } from './gate.js';
 import { createPassPacer, type PassRequest, type PassResult } from './pacing.js';
-import type { Scheduler } from './scheduler.js';
+import { systemScheduler, type Scheduler } from './scheduler.js';
 import type { RolloutSpec } from './spec.js';
 
 /** The actor of changes the engine makes on its own (wave starts, gate pauses, completion). */
@@ -72,6 +72,10 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
   const { store, publisher, clock } = deps;
   const log = deps.log ?? (() => {});
   const tickMs = deps.tickMs ?? 200;
+  // Busy and waited time are counted on the timers' own clock, the one the pacer's rests are measured against:
+  // mixing in the process's clock would let a slow pass (a loaded machine) push the next timer pass past
+  // ticks that a scheduler advanced by hand never reaches.
+  const scheduler = deps.scheduler ?? systemScheduler;
   const fence = deps.fence ?? (() => true);
   const repo = store.rollouts;
   const facts = createFactsReader(store.rolloutFacts);
@@ -85,6 +89,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
     fence,
     maxSendsInFlight: deps.maxSendsInFlight ?? 2000,
     log,
+    nowMs: () => scheduler.nowMs(),
   });
   const releases = new Map<string, Release>();
   let unsubscribe: (() => void) | null = null;
@@ -225,7 +230,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
    * engine, afterwards only the devices the clock may have moved. An explicit pass judges everything.
    */
   async function pass(request: PassRequest): Promise<PassResult> {
-    const begun = performance.now();
+    const begun = scheduler.nowMs();
     let waitedMs = 0;
     waveOpened = false;
     const nowMs = clock.now().getTime();
@@ -249,7 +254,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
       }
     }
     // A wave opened by this pass has its devices assigned by a timer pass right after, not at the timer's next turn.
-    return { busyMs: Math.max(0, performance.now() - begun - waitedMs), moving: moving.length > 0, fullPassNow: waveOpened };
+    return { busyMs: Math.max(0, scheduler.nowMs() - begun - waitedMs), moving: moving.length > 0, fullPassNow: waveOpened };
   }
 
   /** Drops what the engine remembers of rollouts that stopped moving. */
@@ -267,7 +272,7 @@ export function createRolloutEngine(deps: RolloutEngineDeps): RolloutEngine {
 
   const pacer = createPassPacer({
     tickMs,
-    ...(deps.scheduler ? { scheduler: deps.scheduler } : {}),
+    scheduler,
     runPass: pass,
     reportsWake,
     changed,
