@@ -4,6 +4,8 @@
  * batches it never acknowledges, and is then killed with SIGKILL. The survivor must take all further
  * shared-subscription traffic, store every event exactly once (the devices resend what was not acked, as the
  * agent's outbox does), keep device state current and carry the rollout it leads on to the end.
+ * A state message in flight to the dead replica is lost with it; the broker publishes the dead replica's last will
+ * and the survivor reads every device's retained state again (src/bus/state-resync.ts).
  * Mosquitto 2.0 does not hand a dead shared-subscription member's unacknowledged messages to another member
  * (observed here; MQTT 5.0 §4.8.2 leaves it to the server), so nothing below waits for a redelivery.
  * Devices are simulated MQTT clients speaking the device protocol (tests/support/replica-rig.ts).
@@ -22,7 +24,8 @@ import { openStore, type Store } from '../../src/store/index.js';
 import { sqlHandle } from '../../src/store/sqlite-handle.js';
 import { MOSQUITTO_BINARY_SKIP_NOTE, mosquittoBinary, startPrivateMosquitto, type PrivateMosquitto } from '../support/bus-mosquitto-rig.js';
 import { ADMIN_TOKEN, CLASS_A, freePort, startServerProcess, type ServerProcess } from '../support/fault-rig.js';
-import { connectSimDevice, type SimDevice } from '../support/replica-rig.js';
+import { connectSimDevice, stateOf, type SimDevice } from '../support/replica-rig.js';
+import { deviceTopic } from '../../src/protocol/index.js';
 
 if (!mosquittoBinary) console.warn(`replica standby kill: ${MOSQUITTO_BINARY_SKIP_NOTE}`);
 const postgresUp = await portOpen(5432);
@@ -98,6 +101,8 @@ describe.skipIf(!mosquittoBinary)(`${backend}: the replica without the leader le
     // so every batch has been routed to one of the two replicas before the kill.
     victim.child.kill('SIGSTOP');
     for (const d of fleet) await d.sendEvents(PHASE + 1, PHASE);
+    // A state change of every device in the same moment (its last seq): some reach only the frozen replica.
+    for (const d of fleet) await d.client.publishAsync(deviceTopic(d.id, 'state'), JSON.stringify(stateOf(true, null, 2 * PHASE)), { qos: 1, retain: true });
     await victim.kill();
     expect(victim.child.signalCode).toBe('SIGKILL');
 
@@ -110,6 +115,13 @@ describe.skipIf(!mosquittoBinary)(`${backend}: the replica without the leader le
     for (const d of fleet) await d.sendEvents(2 * PHASE + 1, PHASE);
     await waitFor(() => fleet.every((d) => d.maxAck() === TOTAL), 'every device acked up to 15 by the survivor', 20_000, 50);
     console.info(`replica standby kill (${backend}): ${unackedAtKill.length} of ${ids.length} devices had batch 6–10 unacked when the standby died and resent it`);
+
+    // The stored state of every device is its latest, also where that state message was lost with the standby.
+    const storedLastSeq = () => readDb((db) => db.prepare("SELECT device_id AS id, state FROM device_state WHERE device_id LIKE 'gh-standby-%' ORDER BY device_id").all()) as Array<{ id: string; state: string | null }>;
+    await waitFor(() => storedLastSeq().every((r) => r.state !== null && (JSON.parse(r.state) as { lastSeq: number }).lastSeq === 2 * PHASE), 'every device\'s latest state stored', 15_000, 100)
+      .catch(() => undefined);
+    expect(survivor.output.some((l) => l.includes(`replica ${victim === pair[0] ? 'rep-a' : 'rep-b'} lost its broker connection`))).toBe(true);
+    expect(storedLastSeq().map((r) => ({ id: r.id, lastSeq: r.state === null ? null : (JSON.parse(r.state) as { lastSeq: number }).lastSeq }))).toEqual(ids.map((id) => ({ id, lastSeq: 2 * PHASE })));
 
     // Every event each device considers acknowledged is stored, once.
     const rows = readDb((db) => db.prepare("SELECT device_id AS id, COUNT(*) AS n, COUNT(DISTINCT seq) AS k, MIN(seq) AS lo, MAX(seq) AS hi FROM device_events WHERE device_id LIKE 'gh-standby-%' GROUP BY device_id ORDER BY device_id").all()) as Array<{ id: string; n: number; k: number; lo: number; hi: number }>;
