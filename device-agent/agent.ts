@@ -1,15 +1,17 @@
 import { mkdirSync, renameSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { decodeMessage } from '../src/protocol/decode.js';
-import { MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
+import { MAX_FRESHNESS_BYTES, MAX_PAYLOAD_BYTES } from '../src/protocol/limits.js';
 import { PROTOCOL_VERSION, eventBodySchema, type EventBody, type StateMessage } from '../src/protocol/messages.js';
 import { eventLine } from './event-lines.js';
 import { taskOf } from '../src/protocol/release.js';
+import { classFreshnessTopic } from '../src/protocol/topics.js';
 import { systemClock, type AgentClock } from './clock.js';
 import type { AgentConfig } from './config.js';
 import { startControlServer, type ControlEndpoint, type ControlServer } from './control-server.js';
 import type { ProfileDriver } from './driver.js';
 import { openEventLog, type EventLog } from './event-log.js';
+import { createFreshnessWatch, type FreshnessReport, type FreshnessWatch, type KnownRelease } from './freshness-watch.js';
 import { openLink, type Link, type MqttConnect } from './link.js';
 import { createOutbox, type Outbox } from './outbox.js';
 import { createProfileRunner, type ProfileRunner, type TaskResult } from './profile-runner.js';
@@ -62,6 +64,9 @@ export function createAgent(deps: AgentDeps): Agent {
   let releases: ReleaseStore | null = null;
   let link: Link | null = null;
   let control: ControlServer | null = null;
+  let freshness: FreshnessWatch | null = null;
+  /** The stale and expired flags last reported by a freshness event. */
+  let freshnessSaid: { stale: boolean; expired: boolean } | null = null;
   let telemetryTimer: NodeJS.Timeout | null = null;
   let stateScheduled: NodeJS.Immediate | null = null;
   const seenCommands: string[] = [];
@@ -74,6 +79,27 @@ export function createAgent(deps: AgentDeps): Agent {
     outbox!.kick();
     const line = eventLine(checked.data);
     if (line) log(`agent: ${line}`);
+  }
+
+  /** The newest release this device knows: the applied one, or one received and waiting, whichever is higher. */
+  function knownRelease(): KnownRelease {
+    const v = runner!.view();
+    const applied = v.release ? { version: v.release.version, digest: v.digest } : null;
+    if (v.pending && (!applied || v.pending.version > applied.version)) return { version: v.pending.version, digest: null };
+    return applied;
+  }
+
+  function freshnessReport(): FreshnessReport | null {
+    return freshness?.report(knownRelease()) ?? null;
+  }
+
+  /** One freshness event each time the stale or expired flag changes. */
+  function reportFreshnessChange(f: FreshnessReport | null) {
+    if (!f || (freshnessSaid && freshnessSaid.stale === f.stale && freshnessSaid.expired === f.expired)) return;
+    freshnessSaid = { stale: f.stale, expired: f.expired };
+    if (f.stale) log(`agent: a newer release (${f.latestReleaseId}, sequence ${f.latestVersion}) exists than this device was sent; it is not applied until it arrives`);
+    if (f.expired) log(`agent: the server's freshness statement expired at ${f.expiresAt}: no fresh word from the server since`);
+    emit({ type: 'freshness', stale: f.stale, expired: f.expired, latestReleaseId: f.latestReleaseId, latestVersion: f.latestVersion, expiresAt: f.expiresAt });
   }
 
   function buildState(online: boolean, offlineReason?: 'shutdown' | 'connection-lost'): StateMessage {
@@ -96,12 +122,14 @@ export function createAgent(deps: AgentDeps): Agent {
       lastSeq: events!.lastSeq(),
       releaseDigest: v.digest,
       storageFault: storageFault === null ? null : storageFault.slice(0, 500),
+      freshness: freshnessReport(),
       ...(!online && offlineReason ? { offlineReason } : {}),
     };
   }
 
   function publishState() {
     stateScheduled = null;
+    reportFreshnessChange(freshnessReport());
     link?.publishState(JSON.stringify(buildState(true)), JSON.stringify(buildState(false, 'connection-lost')));
     deps.onStateChange?.(buildState(link?.connected() ?? false));
   }
@@ -110,10 +138,27 @@ export function createAgent(deps: AgentDeps): Agent {
     stateScheduled ??= setImmediate(publishState);
   }
 
-  function onMessage(channel: 'release' | 'cmd' | 'ack', payload: Buffer) {
+  /** A freshness statement: it may mark the device stale or its word expired; it never applies anything itself. */
+  function onFreshness(payload: Buffer) {
+    if (payload.length === 0) return;
+    if (payload.length > MAX_FRESHNESS_BYTES) return log(`agent: ignored a freshness statement of ${payload.length} bytes (limit ${MAX_FRESHNESS_BYTES})`);
+    let raw: unknown;
+    try {
+      raw = JSON.parse(payload.toString('utf8'));
+    } catch (e) {
+      return log(`agent: ignored a freshness statement that is not JSON (${(e as Error).message})`);
+    }
+    const r = freshness!.offer(raw);
+    if (r.kind === 'accepted') return changed();
+    log(r.kind === 'older' ? `agent: ignored an older freshness statement (${r.detail})` : `agent: refused a freshness statement (${r.detail})`);
+  }
+
+  function onMessage(channel: 'release' | 'cmd' | 'ack' | 'freshness', payload: Buffer) {
+    if (channel === 'freshness') return onFreshness(payload);
     if (channel === 'ack') {
       const ack = decodeMessage('ack', payload);
-      if (ack.ok) outbox!.onAck(ack.value.upTo);
+      // An ack counts only for this log's epoch: one for another (a replay of an older log) numbers other events.
+      if (ack.ok && (ack.value.epoch ?? null) === events!.epoch()) outbox!.onAck(ack.value.upTo);
       return;
     }
     if (channel === 'release') {
@@ -163,11 +208,14 @@ export function createAgent(deps: AgentDeps): Agent {
         driver, clock, cache, releases, deviceId: config.deviceId,
         deviceClassId: config.deviceClassId, emit, changed, log,
       });
+      const trusted = releases;
+      freshness = createFreshnessWatch({ dir: config.dataDir, deviceClassId: config.deviceClassId, trustedKeys: () => trusted.trustedKeys(), clock, changed, log });
       emit({ type: 'agent-started', agentVersion: AGENT_VERSION });
       // restore() decides what runs before its first await, so a release arriving meanwhile is judged against it.
       const restoring = runner.restore();
       link = openLink({
         deviceId: config.deviceId, brokerUrl: config.brokerUrl, username, password: config.password,
+        freshnessTopic: classFreshnessTopic(config.deviceClassId),
         willPayload: JSON.stringify(buildState(false, 'connection-lost')), reconnectMs: config.reconnectMs, keepaliveS: config.keepaliveS, log, onMessage,
         ...(deps.mqttConnect ? { mqttConnect: deps.mqttConnect } : {}),
         onConnected: () => {
@@ -206,6 +254,7 @@ export function createAgent(deps: AgentDeps): Agent {
       if (telemetryTimer) clearInterval(telemetryTimer);
       if (stateScheduled) clearImmediate(stateScheduled);
       runner?.close();
+      freshness?.close();
       await runner?.idle();
       await releases?.settle();
       outbox?.close();

@@ -1,3 +1,4 @@
+import { randomBytes } from 'node:crypto';
 import { closeSync, existsSync, fdatasync, fstatSync, ftruncateSync, openSync, readFileSync, truncateSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
 import type { EventBody } from '../src/protocol/messages.js';
@@ -20,6 +21,8 @@ export interface EventLog {
   ack(upTo: number): void;
   lastSeq(): number;
   ackedUpTo(): number;
+  /** The log's epoch (made at random with the log, kept in `events-epoch.json`), or null for a log made before epochs. */
+  epoch(): string | null;
   /** Why events are being kept in memory only (the disk refused a write), or null when every event is on disk. */
   fault(): string | null;
   unackedCount(): number;
@@ -42,6 +45,36 @@ export interface EventLogOptions {
 function writeAll(fd: number, text: string): void {
   const bytes = Buffer.from(text, 'utf8');
   for (let at = 0; at < bytes.length; ) at += writeSync(fd, bytes, at);
+}
+
+/**
+ * The epoch of the log: read from its file, or made for a new log (no log file and no ack mark yet: a first
+ * start or a wiped data folder), written before the log's first line. A log that exists without one was
+ * made before epochs and stays in the legacy epoch (null), so its numbering goes on as the server knows it.
+ * When the disk refuses the file, the epoch lives in memory: the log's own lines most likely failed too,
+ * and the next start then makes a new log with a new epoch.
+ */
+function logEpoch(path: string, fresh: boolean, say: (line: string) => void): string | null {
+  let stored: { epoch?: unknown } | null;
+  try {
+    stored = readJsonIfExists(path) as { epoch?: unknown } | null;
+  } catch (e) {
+    stored = {};
+    say(`agent: could not read ${path} (${(e as Error).message})`);
+  }
+  if (typeof stored?.epoch === 'string' && /^[A-Za-z0-9_-]{8,64}$/.test(stored.epoch)) return stored.epoch;
+  if (!fresh) {
+    if (stored !== null) say(`agent: ${path} holds no valid epoch; the log stays in the legacy epoch`);
+    return null;
+  }
+  // 128 random bits: two logs of one device never share an epoch (common practice for random ids).
+  const epoch = randomBytes(16).toString('hex');
+  try {
+    writeFileAtomicSync(path, JSON.stringify({ epoch }));
+  } catch (e) {
+    say(`agent: could not write ${path} (${(e as Error).message}); the event log's epoch is kept in memory`);
+  }
+  return epoch;
 }
 
 /**
@@ -68,8 +101,11 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
   const write = options.write ?? writeAll;
   const logPath = join(dir, 'events.log');
   const ackPath = join(dir, 'events-acked.json');
+  const epochPath = join(dir, 'events-epoch.json');
   removeLeftover(logPath);
   removeLeftover(ackPath);
+  removeLeftover(epochPath);
+  const epoch = logEpoch(epochPath, !existsSync(logPath) && !existsSync(ackPath), say);
   const mark = readJsonIfExists(ackPath) as { ackedUpTo?: unknown } | null;
   let acked = typeof mark?.ackedUpTo === 'number' && Number.isInteger(mark.ackedUpTo) ? mark.ackedUpTo : 0;
   // pending[head..] are the unacknowledged events, oldest first; the acknowledged front is cut off now and then.
@@ -291,6 +327,7 @@ export function openEventLog(dir: string, clock: AgentClock, options: EventLogOp
     },
     lastSeq: () => last,
     ackedUpTo: () => acked,
+    epoch: () => epoch,
     fault: () => faulted,
     unackedCount: () => pending.length - head,
     settled: async function settled() {

@@ -10,7 +10,9 @@ export interface LinkOptions {
   password: string;
   /** The state to leave behind (online: false) if the connection drops; kept current as state changes. */
   willPayload: string;
-  onMessage(channel: 'release' | 'cmd' | 'ack', payload: Buffer): void;
+  onMessage(channel: 'release' | 'cmd' | 'ack' | 'freshness', payload: Buffer): void;
+  /** The device class's freshness topic, subscribed apart: a broker that refuses it leaves the device's own topics working. */
+  freshnessTopic?: string;
   onConnected(): void;
   onDisconnected(): void;
   mqttConnect?: MqttConnect;
@@ -67,6 +69,11 @@ export function openLink(options: LinkOptions): Link {
       up = true;
       options.onConnected();
     });
+    if (options.freshnessTopic) {
+      client.subscribe(options.freshnessTopic, { qos: 1 }, (err, granted) => {
+        if (err || granted?.some((g) => g.qos === 128)) log(`agent: the broker refused the freshness topic ${options.freshnessTopic}${err ? ` (${err.message})` : ''}; freshness is not watched`);
+      });
+    }
   });
   client.on('close', () => {
     if (!up) return;
@@ -77,6 +84,7 @@ export function openLink(options: LinkOptions): Link {
   client.on('message', (topic, payload) => {
     const channel = topics.get(topic);
     if (channel) options.onMessage(channel, payload);
+    else if (topic === options.freshnessTopic) options.onMessage('freshness', payload);
   });
 
   return {

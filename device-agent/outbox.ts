@@ -87,6 +87,9 @@ export function createOutbox(options: OutboxOptions): Outbox {
   const timers = options.timers ?? loopTimers;
   const maxWindow = Math.max(1, options.windowEvents ?? 2000);
   const resendEvents = Math.max(1, Math.min(options.resendEvents ?? MAX_EVENTS_PER_BATCH, maxWindow));
+  // The envelope before the events: the log's epoch (none for a legacy log), then the events array.
+  const epoch = log.epoch();
+  const envelope = epoch === null ? `{"v":${PROTOCOL_VERSION},"events":[` : `{"v":${PROTOCOL_VERSION},"epoch":${JSON.stringify(epoch)},"events":[`;
   const timeout = createResendTimeout(options.ackTimeoutMs, options.maxAckTimeoutMs ?? options.ackTimeoutMs * 16);
   let connected = false;
   /** Highest seq sent since the connection (re)started or the last ack beyond it. */
@@ -116,7 +119,7 @@ export function createOutbox(options: OutboxOptions): Outbox {
     while (left > 0) {
       const batch = log.after(upTo, Math.min(MAX_EVENTS_PER_BATCH, left), BATCH_BYTES);
       if (batch.length === 0) break;
-      options.send(`{"v":${PROTOCOL_VERSION},"events":[${batch.map((e) => e.json).join(',')}]}`);
+      options.send(`${envelope}${batch.map((e) => e.json).join(',')}]}`);
       upTo = batch[batch.length - 1]!.seq;
       left -= batch.length;
       if (fresh) messageEnds.set(upTo, timers.now());

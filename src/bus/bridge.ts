@@ -6,8 +6,9 @@ import { decodeMessage, encodeMessage } from '../protocol/decode.js';
 import { decodeEventsMessage } from '../protocol/decode-events.js';
 import { MAX_PAYLOAD_BYTES } from '../protocol/limits.js';
 import { PROTOCOL_VERSION, type CommandMessage, type StateMessage } from '../protocol/messages.js';
+import type { FreshnessPublisher } from '../protocol/freshness.js';
 import type { ReleasePublisher, SignedReleaseText } from '../protocol/release.js';
-import { allDevicesFilter, deviceTopic, parseDeviceTopic, sharedFilter } from '../protocol/topics.js';
+import { allDevicesFilter, classFreshnessTopic, deviceTopic, parseDeviceTopic, sharedFilter } from '../protocol/topics.js';
 import type { DeviceEventColumns } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import type { Store } from '../store/store.js';
@@ -19,7 +20,7 @@ import { createRejectCounter, type BridgeRejectReason } from './rejects.js';
 export interface BridgeOptions {
   /** A client logged in as the server's own account; the bridge subscribes on every (re)connect. */
   mqttClient: MqttClient;
-  store: Pick<Store, 'deviceStates' | 'deviceEvents' | 'deviceConnections' | 'devices' | 'transaction'>;
+  store: Pick<Store, 'deviceStates' | 'deviceEvents' | 'deviceEventEpochs' | 'deviceConnections' | 'devices' | 'transaction'>;
   clock: { now(): Date };
   /** Where batches are stored: by default on this thread through the store's connection; startBus hands in a worker. */
   eventWriter?: EventWriter;
@@ -47,7 +48,7 @@ export interface BridgeStats {
   rejected: Record<BridgeRejectReason, number>;
 }
 
-export interface Bridge extends ReleasePublisher {
+export interface Bridge extends ReleasePublisher, FreshnessPublisher {
   /** Sends an operator command (QoS 1, not retained) and returns its id. */
   publishCommand(deviceId: string, command: CommandMessage['command'], issuedBy: string): Promise<string>;
   /** Removes the retained release of a device (an empty retained payload), e.g. when it is withdrawn. */
@@ -66,7 +67,8 @@ export interface Bridge extends ReleasePublisher {
 /** At most this many connection changes wait for a database that keeps failing; the oldest go first. */
 const MAX_KEPT_CONNECTIONS = 10_000;
 
-type Pending = { events: Map<string, DeviceEventColumns>; states: Map<string, StateMessage>; connections: Array<[string, ConnectionSighting]> };
+/** Events are gathered per device and event-log epoch (a replay of an older epoch may arrive beside the current one). */
+type Pending = { events: Map<string, [deviceId: string, events: DeviceEventColumns]>; states: Map<string, StateMessage>; connections: Array<[string, ConnectionSighting]> };
 const emptyPending = (): Pending => ({ events: new Map(), states: new Map(), connections: [] });
 
 /**
@@ -135,9 +137,13 @@ export function createBridge(options: BridgeOptions): Bridge {
       const decoded = decodeEventsMessage(payload);
       if (!decoded.ok) return reject(decoded.reason, topic, decoded.detail);
       // Rows keep each event's JSON as the device sent it: stored without serialising it again.
-      const { events: list, texts } = decoded.value;
-      let columns = pending.events.get(where.deviceId);
-      if (!columns) pending.events.set(where.deviceId, (columns = { seqs: [], tss: [], types: [], jsons: [] }));
+      const { events: list, texts, epoch } = decoded.value;
+      const key = epoch === undefined ? where.deviceId : `${where.deviceId}/${epoch}`;
+      let columns = pending.events.get(key)?.[1];
+      if (!columns) {
+        columns = epoch === undefined ? { seqs: [], tss: [], types: [], jsons: [] } : { epoch, seqs: [], tss: [], types: [], jsons: [] };
+        pending.events.set(key, [where.deviceId, columns]);
+      }
       for (let i = 0; i < list.length; i++) {
         const e = list[i]!;
         columns.seqs.push(e.seq);
@@ -160,7 +166,7 @@ export function createBridge(options: BridgeOptions): Bridge {
     const batch = pending;
     pending = emptyPending();
     if (batch.events.size === 0 && batch.states.size === 0) return;
-    const ingest: IngestBatch = { at: clock.now().toISOString(), events: [...batch.events], states: [...batch.states], connections: batch.connections };
+    const ingest: IngestBatch = { at: clock.now().toISOString(), events: [...batch.events.values()], states: [...batch.states], connections: batch.connections };
     writing = writer
       .write(ingest)
       .then(
@@ -198,9 +204,10 @@ export function createBridge(options: BridgeOptions): Bridge {
     counts.eventsDuplicate += result.eventsDuplicate;
     counts.statesStored += result.statesStored;
     counts.connectionChanges += result.connectionChanges;
-    for (const [deviceId, upTo] of result.acks) {
+    for (const [deviceId, upTo, epoch] of result.acks) {
       // QoS 0: an ack lost on the way only makes the device resend, and a resend is acked again.
-      client.publish(deviceTopic(deviceId, 'ack'), encodeMessage({ v: PROTOCOL_VERSION, upTo }), { qos: 0 });
+      // No epoch for the legacy one: older agents check acks strictly and know no such field.
+      client.publish(deviceTopic(deviceId, 'ack'), encodeMessage(epoch === undefined ? { v: PROTOCOL_VERSION, upTo } : { v: PROTOCOL_VERSION, upTo, epoch }), { qos: 0 });
       counts.acksSent += 1;
     }
     // Listeners (live pages) run after the acks, so they never delay a device's resend window.
@@ -266,6 +273,9 @@ export function createBridge(options: BridgeOptions): Bridge {
       const message: CommandMessage = { v: PROTOCOL_VERSION, id: randomUUID(), issuedBy, command };
       await client.publishAsync(deviceTopic(deviceId, 'cmd'), encodeMessage(message), { qos: 1 });
       return message.id;
+    },
+    publishFreshness: async function publishFreshness(deviceClassId, text) {
+      await client.publishAsync(classFreshnessTopic(deviceClassId), text, { qos: 1, retain: true });
     },
     clearRelease: async function clearRelease(deviceId) {
       await client.publishAsync(deviceTopic(deviceId, 'release'), Buffer.alloc(0), { qos: 1, retain: true });

@@ -47,15 +47,16 @@ function offlineCause(hint: ConnectionSighting['hint']): ConnectionCause {
  */
 export function recordConnectionChanges(
   sightings: ReadonlyArray<[deviceId: string, seen: ConnectionSighting]>,
-  states: Pick<DeviceStateRepository, 'get'>,
+  states: Pick<DeviceStateRepository, 'summary'>,
   connections: Pick<DeviceConnectionRepository, 'insert'>,
 ): number {
   const known = new Map<string, { online: boolean; releaseId: string | null; task: string | null } | null>();
   let recorded = 0;
   for (const [deviceId, seen] of sightings) {
     if (!known.has(deviceId)) {
-      const s = states.get(deviceId);
-      known.set(deviceId, s && s.state !== null ? { online: s.online, releaseId: s.releaseId, task: s.activeTask } : null);
+      // The summary, not the state message: a batch of thousands of states would parse each stored one only to read its flag.
+      const s = states.summary(deviceId);
+      known.set(deviceId, s && s.hasState ? { online: s.online, releaseId: s.releaseId, task: s.activeTask } : null);
     }
     const before = known.get(deviceId)!;
     if (seen.online) {

@@ -1,9 +1,11 @@
 import type { StateMessage } from '../protocol/messages.js';
 import type { DeviceConnectionRepository } from '../store/device-connections.js';
+import { LEGACY_EPOCH } from '../store/device-event-epochs.js';
 import type { DeviceEventColumns, DeviceEventRepository } from '../store/device-events.js';
 import type { DeviceStateRepository } from '../store/device-state.js';
 import { recordConnectionChanges, type ConnectionSighting } from './connection-notes.js';
 import type { EventCursor } from './event-cursor.js';
+import type { EpochSpan, EventEpochs } from './event-epochs.js';
 
 /** What the bridge received in one turn of the event loop, in a form that crosses to a worker thread. */
 export interface IngestBatch {
@@ -15,13 +17,16 @@ export interface IngestBatch {
   connections?: Array<[deviceId: string, seen: ConnectionSighting]>;
 }
 
-/** What one committed batch changed: each device's new ack (highest contiguous seq), and counts. */
+/**
+ * What one committed batch changed: each device's new ack (the highest of its seqs up to which every event of
+ * its current epoch is stored, and that epoch, absent for the legacy one), and counts.
+ */
 export interface IngestResult {
-  acks: Array<[deviceId: string, upTo: number]>;
+  acks: Array<[deviceId: string, upTo: number, epoch?: string]>;
   eventsStored: number;
   eventsDuplicate: number;
   statesStored: number;
-  /** Connection changes recorded (came online, went offline). */
+  /** Connection changes recorded (came online, went offline), and notes of event logs made anew. */
   connectionChanges: number;
 }
 
@@ -30,7 +35,23 @@ export interface BatchWriter {
   states: DeviceStateRepository;
   connections: DeviceConnectionRepository;
   cursor: EventCursor;
+  epochs: EventEpochs;
   transaction<T>(fn: () => T): T;
+}
+
+/** The events of an epoch under their stored seqs (base + the device's seq); an older epoch's beyond its limit are left out. */
+function placed(columns: DeviceEventColumns, span: EpochSpan): DeviceEventColumns {
+  if (span.base === 0 && span.limit === null) return columns;
+  const out: DeviceEventColumns = { seqs: [], tss: [], types: [], jsons: [] };
+  for (let i = 0; i < columns.seqs.length; i++) {
+    const seq = columns.seqs[i]!;
+    if (span.limit !== null && seq > span.limit) continue;
+    out.seqs.push(span.base + seq);
+    out.tss.push(columns.tss[i]!);
+    out.types.push(columns.types[i]!);
+    out.jsons.push(columns.jsons[i]!);
+  }
+  return out;
 }
 
 /**
@@ -46,10 +67,18 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
     const events = [...batch.events].sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0));
     return w.transaction(() => {
       for (const [deviceId, columns] of events) {
-        const fresh = w.events.insertColumns(deviceId, columns, batch.at);
+        const epoch = columns.epoch ?? LEGACY_EPOCH;
+        const span = w.epochs.span(deviceId, epoch, batch.at);
+        if (span.started) noteRestart(w, deviceId, batch.at);
+        const stored = placed(columns, span);
+        const fresh = w.events.insertColumns(deviceId, stored, batch.at);
         result.eventsStored += fresh;
         result.eventsDuplicate += columns.seqs.length - fresh;
-        result.acks.push([deviceId, w.cursor.advance(deviceId, columns.seqs)]);
+        const contiguous = w.cursor.advance(deviceId, stored.seqs);
+        // An older epoch's replay is stored (what is missing of it) but not acked: its log is gone, and an ack
+        // would reach the device's current log, which numbers other events.
+        if (span.limit === null) result.acks.push(epoch === LEGACY_EPOCH ? [deviceId, Math.max(0, contiguous - span.base)] : [deviceId, Math.max(0, contiguous - span.base), epoch]);
+        if (span.started) result.connectionChanges += 1;
         if (!withState.has(deviceId)) w.states.touch(deviceId, batch.at);
       }
       // Before the states: a change is judged against what was stored until now.
@@ -64,6 +93,17 @@ export function writeBatch(w: BatchWriter, batch: IngestBatch): IngestResult {
     });
   } catch (e) {
     w.cursor.reset();
+    w.epochs.reset();
     throw e;
   }
+}
+
+/**
+ * A note in the device's connection record that its event log began anew (a wiped data folder, a new
+ * agent install): its events are numbered from 1 again. It keeps the online flag the server holds, so it
+ * neither opens nor closes an offline stretch.
+ */
+function noteRestart(w: BatchWriter, deviceId: string, at: string) {
+  const s = w.states.summary(deviceId);
+  w.connections.insert({ deviceId, at, online: s?.online ?? false, cause: 'event-log-restarted', releaseId: s?.releaseId ?? null, task: s?.activeTask ?? null });
 }

@@ -8,6 +8,8 @@ import type { DeviceEventRepository } from '../store/device-events.js';
 export interface EventCursor {
   /** Records stored seqs of a device and returns its new contiguous seq. Call inside the same transaction as the inserts. */
   advance(deviceId: string, storedSeqs: readonly number[]): number;
+  /** Moves a device's contiguous seq up to `seq` (a new event-log epoch starts there), dropping the gaps below it. */
+  restartAt(deviceId: string, seq: number): void;
   /** Forgets what is in memory (after a rolled-back transaction); the next advance reloads from the database. */
   reset(): void;
 }
@@ -34,6 +36,14 @@ export function createEventCursor(events: DeviceEventRepository): EventCursor {
       if (c.contiguous !== before) events.setContiguousSeq(deviceId, c.contiguous);
       return c.contiguous;
     },
+    restartAt: function restartAt(deviceId, seq) {
+      const c = load(deviceId);
+      if (seq <= c.contiguous) return;
+      c.contiguous = seq;
+      for (const s of c.ahead) if (s <= seq) c.ahead.delete(s);
+      while (c.ahead.delete(c.contiguous + 1)) c.contiguous += 1;
+      events.setContiguousSeq(deviceId, c.contiguous);
+    },
     reset: function reset() {
       cursors.clear();
     },
@@ -58,6 +68,16 @@ export function createStoredEventCursor(events: DeviceEventRepository): EventCur
       }
       if (contiguous !== before) events.setContiguousSeq(deviceId, contiguous);
       return contiguous;
+    },
+    restartAt: function restartAt(deviceId, seq) {
+      const before = events.lockContiguousSeq(deviceId);
+      if (seq <= before) return;
+      let contiguous = seq;
+      for (const s of events.seqsAbove(deviceId, seq)) {
+        if (s !== contiguous + 1) break;
+        contiguous = s;
+      }
+      events.setContiguousSeq(deviceId, contiguous);
     },
     reset: () => {},
   };

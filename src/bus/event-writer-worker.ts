@@ -2,13 +2,12 @@
 // while the main connection reads), writing the batches the bridge posts, one at a time.
 import { parentPort, workerData } from 'node:worker_threads';
 import { openEventWriterStore } from '../store/writer-connection.js';
-import { createEventCursor, createStoredEventCursor } from './event-cursor.js';
 import { writeBatch, type IngestBatch } from './event-batch.js';
+import { batchWriterOf } from './event-writer.js';
 
 const { location, busyTimeoutMs, cursorMode } = workerData as { location: string; busyTimeoutMs: number; cursorMode: 'memory' | 'stored' };
 const store = openEventWriterStore(location, busyTimeoutMs);
-const cursor = cursorMode === 'stored' ? createStoredEventCursor(store.deviceEvents) : createEventCursor(store.deviceEvents);
-const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, transaction: store.transaction };
+const writer = batchWriterOf(store, cursorMode);
 
 parentPort!.on('message', function onBatch(message: { id: number; batch: IngestBatch } | { close: true }) {
   if ('close' in message) {

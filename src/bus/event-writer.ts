@@ -2,8 +2,9 @@ import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { Store } from '../store/store.js';
+import { writeBatch, type BatchWriter, type IngestBatch, type IngestResult } from './event-batch.js';
 import { createEventCursor, createStoredEventCursor } from './event-cursor.js';
-import { writeBatch, type IngestBatch, type IngestResult } from './event-batch.js';
+import { createEventEpochs } from './event-epochs.js';
 
 /** Stores the bridge's batches; resolves after the commit, so an ack is only ever sent for stored events. */
 export interface EventWriter {
@@ -13,15 +14,24 @@ export interface EventWriter {
 }
 
 /**
- * How the writer knows each device's contiguous seq: 'memory' when this server alone stores events (read from
- * the database once per device), 'stored' when replicas share the work (read from the database every batch).
+ * How the writer knows each device's contiguous seq and event-log epochs: 'memory' when this server alone stores
+ * events (read from the database once per device), 'stored' when replicas share the work (read from the database
+ * every batch, as another replica may have stored the device's last batch or begun its new epoch).
  */
 export type CursorMode = 'memory' | 'stored';
 
-/** Writes on the calling thread, through the store's own connection. */
-export function createInlineEventWriter(store: Pick<Store, 'deviceEvents' | 'deviceStates' | 'deviceConnections' | 'transaction'>, cursorMode: CursorMode = 'memory'): EventWriter {
+/** The repositories an event writer stores a batch through, with its cursor and epochs. */
+export type WriterStore = Pick<Store, 'deviceEvents' | 'deviceEventEpochs' | 'deviceStates' | 'deviceConnections' | 'transaction'>;
+
+export function batchWriterOf(store: WriterStore, cursorMode: CursorMode = 'memory'): BatchWriter {
   const cursor = cursorMode === 'stored' ? createStoredEventCursor(store.deviceEvents) : createEventCursor(store.deviceEvents);
-  const writer = { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, transaction: store.transaction };
+  const epochs = createEventEpochs({ epochs: store.deviceEventEpochs, events: store.deviceEvents, cursor, cache: cursorMode === 'memory' });
+  return { events: store.deviceEvents, states: store.deviceStates, connections: store.deviceConnections, cursor, epochs, transaction: store.transaction };
+}
+
+/** Writes on the calling thread, through the store's own connection. */
+export function createInlineEventWriter(store: WriterStore, cursorMode: CursorMode = 'memory'): EventWriter {
+  const writer = batchWriterOf(store, cursorMode);
   return {
     kind: 'inline',
     write: async (batch) => writeBatch(writer, batch),

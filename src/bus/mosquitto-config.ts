@@ -1,24 +1,28 @@
 import { DEVICE_PUBLISH_CHANNELS, DEVICE_SUBSCRIBE_CHANNELS } from './access.js';
 import { DEFAULT_PACKET_LIMITS } from './broker.js';
-import { SERVER_CHANGES_TOPIC, TOPIC_ROOT } from '../protocol/topics.js';
+import { CLASS_TOPIC_ROOT, SERVER_CHANGES_TOPIC, TOPIC_ROOT } from '../protocol/topics.js';
 
 /**
  * The Mosquitto ACL file that gives an external broker the same isolation as the embedded one:
  * the server's account reads and writes every device topic; each device (user name = device id,
  * substituted for %u) writes only its own state and events and reads only its own release, cmd
- * and ack. Mosquitto checks a client's last will against its write rules too.
+ * and ack, and reads the device classes' freshness statements. Mosquitto checks a client's last will against
+ * its write rules too.
  */
 export function mosquittoAcl(serverUsername: string): string {
   return [
     '# Ocellus: the server account may publish and subscribe anywhere under the device tree.',
     `user ${serverUsername}`,
     `topic readwrite ${TOPIC_ROOT}/#`,
+    `topic readwrite ${CLASS_TOPIC_ROOT}/#`,
     '# Replicas of the server tell each other what changed here; devices have no rule for it, so they cannot read it.',
     `topic readwrite ${SERVER_CHANGES_TOPIC}`,
     '',
     '# Every device, logged in with its device id as user name, only within its own subtree.',
     ...DEVICE_PUBLISH_CHANNELS.map((c) => `pattern write ${TOPIC_ROOT}/%u/${c}`),
     ...DEVICE_SUBSCRIBE_CHANNELS.map((c) => `pattern read ${TOPIC_ROOT}/%u/${c}`),
+    '# Every device reads the signed freshness statements of the device classes (published by the server only).',
+    `pattern read ${CLASS_TOPIC_ROOT}/+/freshness`,
     '',
   ].join('\n');
 }

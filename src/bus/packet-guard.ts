@@ -81,6 +81,15 @@ export function guardConnection(socket: Socket, limits: PacketLimits, onOversize
       if (socket.destroyed) return callback();
       socket.write(chunk, callback);
     },
+    // Packets queued while the socket was busy go out together (one writev system call), not one write each:
+    // the server's own connection receives thousands of packets in a burst when a fleet reports at once.
+    writev(chunks: Array<{ chunk: Buffer }>, callback) {
+      if (socket.destroyed) return callback();
+      socket.cork();
+      for (let i = 0; i < chunks.length - 1; i++) socket.write(chunks[i]!.chunk);
+      socket.write(chunks[chunks.length - 1]!.chunk, callback);
+      socket.uncork();
+    },
     final(callback) {
       socket.end(callback);
     },

@@ -188,6 +188,7 @@ export function busForServer(options: Omit<BusOptions, 'store' | 'metrics' | 'lo
     });
     return {
       publisher: bus.bridge,
+      freshness: bus.bridge,
       description: `${bus.broker ? 'embedded MQTT broker' : 'external MQTT broker'} at ${bus.brokerUrl}${options.replicas ? ` (replica ${options.replicas.replicaId} of shared-subscription group ${options.replicas.group})` : ''}`,
       ...(bus.relay ? { relay: bus.relay } : {}),
       onDevicesStored: (listener: (deviceIds: string[]) => void) => bus.bridge.onStored(listener),

@@ -4,17 +4,28 @@ import { eventTexts } from './event-texts.js';
 import { MAX_EVENTS_PER_BATCH, MAX_PAYLOAD_BYTES } from './limits.js';
 import { eventsMessageSchema, type DeviceEvent } from './messages.js';
 
-/** A decoded events message: the events, and each one's JSON text as the device sent it. */
+/** A decoded events message: the events, each one's JSON text as the device sent it, and the log's epoch. */
 export interface DecodedEvents {
   events: DeviceEvent[];
   texts: string[];
+  /** Absent for agents that send none (the legacy epoch). */
+  epoch?: string;
 }
 
-/** The message's own shape (exactly `v` and a non-empty array of at most one batch of `events`), checked by hand. */
-function hasPlainShape(json: unknown): json is { v: number; events: unknown[] } {
-  if (typeof json !== 'object' || json === null || Object.keys(json).length !== 2) return false;
+const EPOCH = /^[A-Za-z0-9_-]{8,64}$/;
+
+/**
+ * The message's own shape (exactly `v`, a non-empty array of at most one batch of `events`, and optionally
+ * a well-formed `epoch`, the same pattern as eventLogEpochSchema), checked by hand; `v` itself is checked by
+ * the schema or by readPayload.
+ */
+function hasPlainShape(json: unknown): json is { v: number; events: unknown[]; epoch?: string } {
+  if (typeof json !== 'object' || json === null) return false;
+  const keys = Object.keys(json).length;
+  const epoch = (json as { epoch?: unknown }).epoch;
+  const epochOk = Object.hasOwn(json, 'epoch') ? keys === 3 && typeof epoch === 'string' && EPOCH.test(epoch) : keys === 2;
   const events = (json as { events?: unknown }).events;
-  return Object.hasOwn(json, 'v') && Array.isArray(events) && events.length >= 1 && events.length <= MAX_EVENTS_PER_BATCH;
+  return epochOk && Object.hasOwn(json, 'v') && Array.isArray(events) && events.length >= 1 && events.length <= MAX_EVENTS_PER_BATCH;
 }
 
 /**
@@ -29,13 +40,16 @@ export function decodeEventsMessage(payload: Uint8Array): Decoded<DecodedEvents>
   const read = readPayload('events', text);
   if (!read.ok) return read;
   let events: DeviceEvent[];
+  let epoch: string | undefined;
   if (hasPlainShape(read.value) && areValidDeviceEvents(read.value.events)) {
     events = read.value.events;
+    epoch = read.value.epoch;
   } else {
     const checked = checkSchema(eventsMessageSchema, read.value);
     if (!checked.ok) return checked;
     events = checked.value.events;
+    epoch = checked.value.epoch;
   }
   const texts = eventTexts(text, events.length) ?? events.map((e) => JSON.stringify(e));
-  return { ok: true, value: { events, texts } };
+  return { ok: true, value: epoch === undefined ? { events, texts } : { events, texts, epoch } };
 }

@@ -25,7 +25,7 @@ function stringEnd(text: string, open: number): number {
 const FLAT_ELEMENT = /\s*(\{(?:[^"{}[\]]|"(?:[^"\\]|\\.)*")*\})\s*(,|\])/y;
 const CLOSE = /\s*\}\s*$/y;
 
-/** The agents' own envelope, `{"v":N,"events":[` then flat events: read with one sticky regex. */
+/** The agents' own envelope, `{"v":N,"events":[` (or with `"epoch":"…",` before the events) then flat events: read with one sticky regex. */
 function flatEventTexts(text: string, from: number): string[] | null {
   const out: string[] = [];
   FLAT_ELEMENT.lastIndex = from;
@@ -46,7 +46,7 @@ function flatEventTexts(text: string, from: number): string[] | null {
  * with escapes, say) or their number is not `count`, and the caller serialises instead.
  */
 export function eventTexts(text: string, count: number): string[] | null {
-  const envelope = /^\{"v":\d+,"events":\[/.exec(text);
+  const envelope = /^\{"v":\d+,(?:"epoch":"[A-Za-z0-9_-]{8,64}",)?"events":\[/.exec(text);
   const flat = envelope ? flatEventTexts(text, envelope[0].length) : null;
   if (flat && flat.length === count) return flat;
   const out: string[] = [];

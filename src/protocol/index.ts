@@ -7,3 +7,4 @@ export * from './messages.js';
 export * from './decode.js';
 export * from './verify-release.js';
 export * from './key-rotation.js';
+export * from './freshness.js';

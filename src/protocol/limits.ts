@@ -7,5 +7,8 @@ export const MAX_PAYLOAD_BYTES = {
   ack: 1024,
 } as const;
 
+/** Largest freshness statement (with a key chain of up to 32 rotations, a few hundred bytes each). */
+export const MAX_FRESHNESS_BYTES = 64 * 1024;
+
 /** Most events one batch may carry. */
 export const MAX_EVENTS_PER_BATCH = 500;

@@ -29,6 +29,23 @@ export const stateMessageSchema = z.strictObject({
   /** Why the agent keeps events or its run state in memory only (a full disk, say); null when all is on disk. */
   storageFault: z.string().max(500).nullable().optional(),
   /**
+   * What the server's latest freshness statement for the device class says, as the agent judged it: stale when
+   * a newer release exists than any it applied or holds, expired when the statement is past its expiry (no fresh
+   * word since). Null until a statement was received; absent from older agents. Never a reason to apply anything.
+   */
+  freshness: z
+    .strictObject({
+      latestReleaseId: z.string().max(64).nullable(),
+      latestVersion: z.number().int().positive().nullable(),
+      latestDigest: z.string().regex(/^[0-9a-f]{64}$/).nullable(),
+      issuedAt: isoTimeSchema,
+      expiresAt: isoTimeSchema,
+      stale: z.boolean(),
+      expired: z.boolean(),
+    })
+    .nullable()
+    .optional(),
+  /**
    * On an offline state only: 'shutdown' when the agent published it itself before a clean disconnect,
    * 'connection-lost' in the last will the broker publishes when the connection drops. Absent from older agents.
    */
@@ -76,6 +93,15 @@ export const eventBodySchema = z.discriminatedUnion('type', [
     frameEnergyMjMean: measure,
   }),
   z.strictObject({ type: z.literal('motion'), moving: z.boolean() }),
+  /** The freshness the agent reads from the server's statement changed (stale or expired set or cleared). */
+  z.strictObject({
+    type: z.literal('freshness'),
+    stale: z.boolean(),
+    expired: z.boolean(),
+    latestReleaseId: z.string().max(64).nullable(),
+    latestVersion: z.number().int().positive().nullable(),
+    expiresAt: isoTimeSchema,
+  }),
 ]);
 export type EventBody = z.infer<typeof eventBodySchema>;
 export type EventType = EventBody['type'];
@@ -93,12 +119,19 @@ export const deviceEventSchema = z.discriminatedUnion(
   eventBodySchema.options.map((variant) => variant.extend(eventHead)) as unknown as [z.ZodObject, ...z.ZodObject[]],
 ) as unknown as z.ZodType<DeviceEvent>;
 
-/** Device → server: a batch of numbered events, oldest first. */
-export const eventsMessageSchema = z.strictObject({ v, events: z.array(deviceEventSchema).min(1).max(500) });
+/**
+ * The id of a device's event log, made at random with the log and kept with it: seqs count from 1 within
+ * one epoch, so a wiped agent (a new log, a new epoch) is told apart from a replay of its old events.
+ * Absent from agents that make none (the legacy epoch).
+ */
+export const eventLogEpochSchema = z.string().regex(/^[A-Za-z0-9_-]{8,64}$/, 'must be 8 to 64 letters, digits, "_" or "-"');
+
+/** Device → server: a batch of numbered events of one epoch, oldest first. */
+export const eventsMessageSchema = z.strictObject({ v, epoch: eventLogEpochSchema.optional(), events: z.array(deviceEventSchema).min(1).max(500) });
 export type EventsMessage = z.infer<typeof eventsMessageSchema>;
 
-/** Server → device: every event up to and including `upTo` is stored. */
-export const ackMessageSchema = z.strictObject({ v, upTo: count });
+/** Server → device: every event of the epoch (absent: the legacy epoch) up to and including `upTo` is stored. */
+export const ackMessageSchema = z.strictObject({ v, upTo: count, epoch: eventLogEpochSchema.optional() });
 export type AckMessage = z.infer<typeof ackMessageSchema>;
 
 /** Server → device: operator commands. */

@@ -43,3 +43,21 @@ export function parseDeviceTopic(topic: string): { deviceId: string; channel: De
   if (!isValidDeviceId(deviceId) || !(DEVICE_CHANNELS as readonly string[]).includes(channel)) return null;
   return { deviceId, channel: channel as DeviceChannel };
 }
+
+/** Topics of a device class (one per class, read by every device of it): the server's freshness statement. */
+export const CLASS_TOPIC_ROOT = 'ocellus/v1/class';
+
+/** Device-class ids as documents name them (src/schema/common.ts idSchema): MQTT-safe by construction. */
+const DEVICE_CLASS_ID_PATTERN = /^[a-z0-9][a-z0-9._-]{0,63}$/;
+
+/** Retained, QoS 1, published by the server only: the signed freshness statement of a device class. */
+export function classFreshnessTopic(deviceClassId: string): string {
+  if (!DEVICE_CLASS_ID_PATTERN.test(deviceClassId)) throw new RangeError(`invalid device class id ${JSON.stringify(deviceClassId)}`);
+  return `${CLASS_TOPIC_ROOT}/${deviceClassId}/freshness`;
+}
+
+/** True for the exact freshness topic of some device class (no wildcards). */
+export function isClassFreshnessTopic(topic: string): boolean {
+  const parts = topic.split('/');
+  return parts.length === 5 && `${parts[0]}/${parts[1]}/${parts[2]}` === CLASS_TOPIC_ROOT && DEVICE_CLASS_ID_PATTERN.test(parts[3]!) && parts[4] === 'freshness';
+}

@@ -46,7 +46,11 @@ function claimedReleaseId(input: unknown): string | null {
   return typeof id === 'string' && id.length <= 64 ? id : null;
 }
 
-function signerKey(signed: SignedRelease, trusted: readonly string[], acceptEarlier: boolean): { ok: true; pem: string } | { ok: false; detail: string } {
+/**
+ * The trusted key (PEM) that signed something under `keyId`: the newest trusted key (or, with acceptEarlier, any),
+ * or a key the carried chain reaches from the newest. A key the newest has replaced is refused by name.
+ */
+export function signerKey(signed: Pick<SignedRelease, 'keyId' | 'keyChain'>, trusted: readonly string[], acceptEarlier: boolean): { ok: true; pem: string } | { ok: false; detail: string } {
   const newest = trusted[trusted.length - 1]!;
   const usable = acceptEarlier ? trusted : [newest];
   const known = usable.find((pem) => keyIdOf(pem) === signed.keyId);

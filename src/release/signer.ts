@@ -1,3 +1,4 @@
+import { signFreshness, type FreshnessStatement, type SignedFreshness } from '../protocol/freshness.js';
 import type { KeyRotation } from '../protocol/key-rotation.js';
 import { keyIdOf } from '../protocol/signing.js';
 import { signRelease } from '../protocol/verify-release.js';
@@ -10,6 +11,8 @@ export interface Signer {
   /** The rotations from the first key to this one, carried with every signed release. */
   readonly keyChain: readonly KeyRotation[];
   sign(release: Release): SignedRelease;
+  /** Signs a device class's freshness statement with the same key, carrying the same chain. */
+  signFreshness(statement: FreshnessStatement): SignedFreshness;
 }
 
 export function createSigner(keys: { privateKeyPem: string; publicKeyPem: string }, keyChain: readonly KeyRotation[] = []): Signer {
@@ -19,6 +22,9 @@ export function createSigner(keys: { privateKeyPem: string; publicKeyPem: string
     keyChain,
     sign: function sign(release) {
       return signRelease(release, keys.privateKeyPem, keys.publicKeyPem, keyChain);
+    },
+    signFreshness: function signFreshnessStatement(statement) {
+      return signFreshness(statement, keys.privateKeyPem, keys.publicKeyPem, keyChain);
     },
   };
 }

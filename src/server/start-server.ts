@@ -2,7 +2,9 @@ import type { AddressInfo } from 'node:net';
 import { createServer as createHttpsServer } from 'node:https';
 import { serve, type ServerType } from '@hono/node-server';
 import { createApp, createChangeFeed, createSigner, type Clock } from '../api/index.js';
+import type { FreshnessPublisher } from '../protocol/freshness.js';
 import type { ReleasePublisher } from '../protocol/release.js';
+import { createFreshnessService, type FreshnessServiceOptions } from '../release/freshness-statements.js';
 import { createCalibrationEngine, type CalibrationEngineOptions } from '../fleet/calibration/engine.js';
 import { createRolloutEngine, type RolloutEngineOptions } from '../fleet/rollout/engine.js';
 import { createMetricsRegistry, type MetricsRegistry } from '../metrics/registry.js';
@@ -25,6 +27,8 @@ export interface BusContext {
 /** What a started bus gives back: the publisher assignments use, a description for the log, and how to stop it. */
 export interface BusAttachment {
   publisher: ReleasePublisher;
+  /** Where the periodically re-signed freshness statements of the device classes go. */
+  freshness?: FreshnessPublisher;
   /** e.g. the broker URL devices connect to; logged and returned by startServer. */
   description?: string;
   /** Calls the listener with the devices whose state or events the bus just stored; feeds the console's live updates. */
@@ -70,6 +74,8 @@ export interface StartServerOptions {
   bus?: (context: BusContext) => Promise<BusAttachment>;
   /** The rollout engine's timing (tick, calibration refresh, drift tolerance); tests shorten them. */
   fleet?: Omit<RolloutEngineOptions, 'log'> & Omit<CalibrationEngineOptions, 'log'>;
+  /** How often freshness statements are re-signed and how long each holds (1 h and 24 h by default). */
+  freshness?: Pick<FreshnessServiceOptions, 'periodMs' | 'lifetimeMs' | 'checkEveryMs'>;
   /** The built web console served on `/` (default: dist/console, built by npm install). */
   consoleDir?: string;
   /** Serve HTTPS with this certificate and key (PEM) instead of plain HTTP. */
@@ -206,10 +212,16 @@ export async function startServer(options: StartServerOptions): Promise<RunningS
           ...(reports ? { onDevicesStored: reports } : {}),
           ...rolloutTiming,
         });
+        // The freshness statements: signed with the release key, re-signed on their period while the bus runs;
+        // one replica at a time signs them, like the engines.
+        const freshness = bus?.freshness
+          ? createFreshnessService({ releases: store.releases, signer, publisher: bus.freshness, clock, log, ...options.freshness })
+          : null;
         return {
-          start: () => (calibration.start(), engine.start()),
+          start: () => (calibration.start(), engine.start(), freshness?.start()),
           stop: async () => {
             calibration.stop();
+            await freshness?.stop();
             await engine.stop();
           },
         };

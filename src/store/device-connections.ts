@@ -6,9 +6,12 @@ import type { SqlConnection } from './sql-connection.js';
  * - last-will: the broker published the device's last will (its connection dropped);
  * - clean-disconnect: the agent said it was shutting down before it disconnected;
  * - keepalive-missed: the embedded broker heard nothing within 1.5 × the keep-alive and dropped the connection;
- * - found-offline: a retained offline state found when the server subscribed (it went offline while the server was away).
+ * - found-offline: a retained offline state found when the server subscribed (it went offline while the server was away);
+ * - event-log-restarted: not a change but a note: the device's agent began a new event log (a new epoch; its data
+ *   folder was wiped or the agent installed anew), numbering its events from 1 again. It carries the online flag
+ *   the server held, so it neither opens nor closes an offline stretch.
  */
-export const CONNECTION_CAUSES = ['connected', 'reconnected', 'last-will', 'clean-disconnect', 'keepalive-missed', 'found-offline'] as const;
+export const CONNECTION_CAUSES = ['connected', 'reconnected', 'last-will', 'clean-disconnect', 'keepalive-missed', 'found-offline', 'event-log-restarted'] as const;
 export type ConnectionCause = (typeof CONNECTION_CAUSES)[number];
 
 /** One change of a device's connection as the server saw it, on the server's clock. */

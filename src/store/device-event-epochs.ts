@@ -24,8 +24,8 @@ interface Row {
 }
 
 export function createDeviceEventEpochRepository(db: SqlConnection): DeviceEventEpochRepository {
-  // Ties in base_seq (an epoch that began before any of its events was stored) are broken by start time.
-  const listRows = db.prepare('SELECT epoch, base_seq, started_at FROM device_event_epochs WHERE device_id = ? ORDER BY base_seq, started_at');
+  // Base seqs of one device strictly increase from epoch to epoch (the bus makes them so): they order the epochs.
+  const listRows = db.prepare('SELECT epoch, base_seq, started_at FROM device_event_epochs WHERE device_id = ? ORDER BY base_seq');
   const insertRow = db.prepare('INSERT INTO device_event_epochs (device_id, epoch, base_seq, started_at) VALUES (?, ?, ?, ?)');
   return {
     list: function list(deviceId) {

@@ -22,6 +22,8 @@ export interface NewDeviceEvent {
 
 /** The same events as parallel columns: cheaper to build and to post to a worker thread than one object each. */
 export interface DeviceEventColumns {
+  /** The device's event-log epoch; absent for agents that send none. */
+  epoch?: string;
   seqs: number[];
   tss: string[];
   types: string[];
@@ -52,6 +54,8 @@ export interface DeviceEventRepository {
    * documentation, "Transaction Isolation"). SQLite: a write transaction already excludes every other writer.
    */
   lockContiguousSeq(deviceId: string): number;
+  /** Highest stored seq of a device (0 when none). */
+  maxSeq(deviceId: string): number;
   /** Stored seqs above a given one, ascending: the events that arrived ahead of a gap. */
   seqsAbove(deviceId: string, seq: number): number[];
   list(deviceId: string, options?: { afterSeq?: number; type?: string; limit?: number }): StoredDeviceEvent[];
@@ -75,6 +79,7 @@ export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepos
   const cursorRow = db.prepare('SELECT contiguous_seq AS n FROM device_event_cursor WHERE device_id = ?');
   const setCursor = db.prepare(`INSERT INTO device_event_cursor (device_id, contiguous_seq) VALUES (?, ?)
     ON CONFLICT (device_id) DO UPDATE SET contiguous_seq = excluded.contiguous_seq`);
+  const highest = db.prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq DESC LIMIT 1').pluck();
   const above = db.prepare('SELECT seq FROM device_events WHERE device_id = ? AND seq > ? ORDER BY seq').pluck();
   const cursorLock = db.dialect === 'postgres'
     ? {
@@ -112,6 +117,9 @@ export function createDeviceEventRepository(db: SqlConnection): DeviceEventRepos
       if (!cursorLock) return (cursorRow.get(deviceId) as { n: number } | undefined)?.n ?? 0;
       cursorLock.ensure.run(deviceId);
       return (cursorLock.read.get(deviceId) as { n: number }).n;
+    },
+    maxSeq: function maxSeq(deviceId) {
+      return (highest.get(deviceId) as number | undefined) ?? 0;
     },
     seqsAbove: function seqsAbove(deviceId, seq) {
       return above.all(deviceId, seq) as number[];

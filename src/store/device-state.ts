@@ -46,6 +46,8 @@ export interface DeviceStateRepository {
   /** Any message from the device counts as a sign of life. */
   touch(deviceId: string, at: string): void;
   get(deviceId: string): DeviceStateRecord | null;
+  /** What get gives without the state message itself (not parsed): enough to tell a connection change. */
+  summary(deviceId: string): { online: boolean; hasState: boolean; releaseId: string | null; activeTask: string | null } | null;
   list(): DeviceStateRecord[];
   countOnline(): number;
 }
@@ -62,6 +64,7 @@ export function createDeviceStateRepository(db: SqlConnection): DeviceStateRepos
   const touchRow = db.prepare(`INSERT INTO device_state (device_id, online, last_seen_at, updated_at) VALUES (?, 0, ?, ?)
     ON CONFLICT (device_id) DO UPDATE SET last_seen_at = excluded.last_seen_at`);
   const oneRow = db.prepare('SELECT * FROM device_state WHERE device_id = ?');
+  const summaryRow = db.prepare('SELECT online, CASE WHEN state IS NULL THEN 0 ELSE 1 END AS has_state, release_id, active_task FROM device_state WHERE device_id = ?');
   const allRows = db.prepare('SELECT * FROM device_state ORDER BY device_id');
   const onlineCount = db.prepare('SELECT COUNT(*) AS n FROM device_state WHERE online = 1');
 
@@ -86,6 +89,10 @@ export function createDeviceStateRepository(db: SqlConnection): DeviceStateRepos
     get: function get(deviceId) {
       const row = oneRow.get(deviceId) as Row | undefined;
       return row ? toRecord(row) : null;
+    },
+    summary: function summary(deviceId) {
+      const row = summaryRow.get(deviceId) as { online: number; has_state: number; release_id: string | null; active_task: string | null } | undefined;
+      return row ? { online: row.online === 1, hasState: row.has_state === 1, releaseId: row.release_id, activeTask: row.active_task } : null;
     },
     list: function list() {
       return (allRows.all() as Row[]).map(toRecord);

@@ -40,6 +40,8 @@ export interface ReleaseRepository {
   /** The stored release, or null; throws naming the release when its stored text no longer reads as a signed release. */
   get(id: string): ReleaseRecord | null;
   list(filter?: { deviceClassId?: string }): ReleaseRecord[];
+  /** The highest-sequence release of every device class that has one, by class id. */
+  latestByClass(): ReleaseRecord[];
 }
 
 /** Readings kept per release id (a rollout reads its release for every batch); a bounded number, oldest dropped first. */
@@ -53,6 +55,10 @@ export function createReleaseRepository(db: SqlConnection): ReleaseRepository {
   const oneRow = db.prepare('SELECT * FROM releases WHERE id = ?');
   const allRows = db.prepare('SELECT * FROM releases ORDER BY device_class_id, version');
   const classRows = db.prepare('SELECT * FROM releases WHERE device_class_id = ? ORDER BY version');
+  const latestRows = db.prepare(`SELECT r.* FROM releases r
+    JOIN (SELECT device_class_id, MAX(version) AS v FROM releases GROUP BY device_class_id) m
+      ON m.device_class_id = r.device_class_id AND m.v = r.version
+    ORDER BY r.device_class_id`);
   const cache = new Map<string, ReleaseRecord>();
 
   function toRecord(row: Row): ReleaseRecord {
@@ -101,6 +107,9 @@ export function createReleaseRepository(db: SqlConnection): ReleaseRepository {
     list: function list(filter = {}) {
       const rows = filter.deviceClassId ? classRows.all(filter.deviceClassId) : allRows.all();
       return (rows as Row[]).map(toRecord);
+    },
+    latestByClass: function latestByClass() {
+      return (latestRows.all() as Row[]).map(toRecord);
     },
   };
 }

@@ -4,6 +4,7 @@ import { join } from 'node:path';
 import { createAuditRepository, type AuditRepository } from './audit.js';
 import { loadOrCreateDeviceSecretKey } from './device-secret-key.js';
 import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
+import { createDeviceEventEpochRepository, type DeviceEventEpochRepository } from './device-event-epochs.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
 import { createDeviceRepository, type DeviceRepository } from './devices.js';
@@ -40,6 +41,8 @@ export interface Store {
   /** The bus bridge's records: each device's latest retained state, and the events devices sent. */
   readonly deviceStates: DeviceStateRepository;
   readonly deviceEvents: DeviceEventRepository;
+  /** Each device's event-log epochs (a wiped agent's new log is a new epoch). */
+  readonly deviceEventEpochs: DeviceEventEpochRepository;
   /** Each device's connection changes as the server saw them (online, offline and why). */
   readonly deviceConnections: DeviceConnectionRepository;
   /** Reads of a device's events by time range and type (history, calibration, rollouts). */
@@ -158,6 +161,7 @@ export function openStore(dataDir: string, options: OpenStoreOptions = {}): Stor
     audit: createAuditRepository(db),
     deviceStates: createDeviceStateRepository(db),
     deviceEvents: createDeviceEventRepository(db),
+    deviceEventEpochs: createDeviceEventEpochRepository(db),
     deviceConnections: createDeviceConnectionRepository(db),
     eventRanges: createEventRangeReader(db),
     rollouts: createRolloutRepository(db),

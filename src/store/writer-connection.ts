@@ -1,5 +1,6 @@
 import Database from 'better-sqlite3';
 import { createDeviceConnectionRepository, type DeviceConnectionRepository } from './device-connections.js';
+import { createDeviceEventEpochRepository, type DeviceEventEpochRepository } from './device-event-epochs.js';
 import { createDeviceEventRepository, type DeviceEventRepository } from './device-events.js';
 import { createDeviceStateRepository, type DeviceStateRepository } from './device-state.js';
 import { openPgSyncConnection } from './pg-sync-connection.js';
@@ -8,6 +9,7 @@ import { sqliteConnection, type SqlConnection } from './sql-connection.js';
 /** The repositories an event writer needs, on a connection of its own. */
 export interface EventWriterStore {
   readonly deviceEvents: DeviceEventRepository;
+  readonly deviceEventEpochs: DeviceEventEpochRepository;
   readonly deviceStates: DeviceStateRepository;
   readonly deviceConnections: DeviceConnectionRepository;
   transaction<T>(fn: () => T): T;
@@ -31,6 +33,7 @@ export function openEventWriterStore(location: string, busyTimeoutMs: number): E
   const conn = /^postgres(ql)?:\/\//i.test(location) ? openPostgresWriter(location, busyTimeoutMs) : openSqliteWriter(location, busyTimeoutMs);
   return {
     deviceEvents: createDeviceEventRepository(conn),
+    deviceEventEpochs: createDeviceEventEpochRepository(conn),
     deviceStates: createDeviceStateRepository(conn),
     deviceConnections: createDeviceConnectionRepository(conn),
     transaction: <T>(fn: () => T): T => conn.transaction(fn),

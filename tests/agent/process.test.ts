@@ -6,7 +6,7 @@ import { agentSuite } from '../support/agent-suite.js';
 import { runAgentCommand, spawnAgent, type AgentProcess } from '../support/agent-process-rig.js';
 import { callControl } from '../../device-agent/control-client.js';
 import type { ControlEndpoint } from '../../device-agent/control-server.js';
-import { readFileSync } from 'node:fs';
+import { readFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
 import { sqliteHandle } from '../../src/store/sqlite-handle.js';
 
@@ -96,5 +96,34 @@ describe('agent as a process (embedded broker)', () => {
     const seqs = sqliteHandle(suite.bus.store).prepare('SELECT seq FROM device_events WHERE device_id = ? ORDER BY seq').pluck().all(s.id) as number[];
     expect(seqs).toEqual(Array.from({ length: state.lastSeq }, (_v, i) => i + 1));
     expect(suite.storedEvents(s.id).filter((e) => e.type === 'motion')).toHaveLength(450);
+  });
+
+  it('keeps the events of an agent whose data folder was wiped, under a new event-log epoch', async () => {
+    const s = setUp('wiped');
+    const cursor = () => sqliteHandle(suite.bus.store).prepare('SELECT contiguous_seq FROM device_event_cursor WHERE device_id = ?').pluck().get(s.id) as number | undefined;
+    const first = await s.start();
+    await suite.bus.bridge.publishRelease(s.id, signedReleaseText(sign(demoRelease('rel-w1', 1, tasks))));
+    await waitFor(() => suite.bus.bridge.deviceStates.get(s.id)?.activeTask === 'rows', 'rows applied');
+    const before = (await callControl(s.endpoint(), 'GET', '/state')).body as { lastSeq: number };
+    await waitFor(() => cursor() === before.lastSeq, 'the first log acked');
+    expect(await first.stop()).toBe(0);
+    rmSync(s.dataDir, { recursive: true, force: true });
+    // The wiped agent numbers from 1 again; the retained release is applied anew.
+    const second = await s.start();
+    await waitFor(() => suite.storedEvents(s.id).filter((e) => e.type === 'agent-started').length === 2, 'the new log’s first event stored');
+    await waitFor(() => suite.storedEvents(s.id).filter((e) => e.type === 'release-applied').length === 2, 'the re-applied release stored');
+    const after = (await callControl(s.endpoint(), 'GET', '/state')).body as { lastSeq: number };
+    await waitFor(() => cursor() === before.lastSeq + after.lastSeq, 'the new log acked');
+    const all = suite.storedEvents(s.id);
+    expect(all).toHaveLength(before.lastSeq + after.lastSeq);
+    // Each log's own numbering is kept in its events: 1.. in the first, 1.. again in the second.
+    expect(all.map((e) => e.seq)).toEqual([...Array.from({ length: before.lastSeq }, (_v, i) => i + 1), ...Array.from({ length: after.lastSeq }, (_v, i) => i + 1)]);
+    expect(suite.bus.store.deviceEventEpochs.list(s.id).map((e) => e.baseSeq)).toEqual([0, before.lastSeq]);
+    expect(suite.bus.store.deviceConnections.latest(s.id, 20).filter((c) => c.cause === 'event-log-restarted')).toHaveLength(1);
+    // The agent took the server's acks (they carry its epoch): on a clean stop its mark covers every event.
+    expect(await second.stop()).toBe(0);
+    const epochFile = JSON.parse(readFileSync(join(s.dataDir, 'events-epoch.json'), 'utf8')) as { epoch: string };
+    expect(epochFile.epoch).toBe(suite.bus.store.deviceEventEpochs.list(s.id)[1]!.epoch);
+    expect(JSON.parse(readFileSync(join(s.dataDir, 'events-acked.json'), 'utf8'))).toEqual({ ackedUpTo: after.lastSeq });
   });
 });

@@ -1,7 +1,7 @@
 import mqtt, { type MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startEmbeddedBroker, type EmbeddedBroker } from '../../src/bus/broker.js';
-import { deviceTopic } from '../../src/protocol/index.js';
+import { classFreshnessTopic, deviceTopic } from '../../src/protocol/index.js';
 
 // Topic isolation is checked on the embedded broker: the system Mosquitto on 1883 runs its default
 // configuration (anonymous access), so it cannot show per-device ACLs.
@@ -88,6 +88,26 @@ describe('embedded broker', () => {
       check();
     });
     expect(received).toEqual([`${deviceTopic('dev-a', 'cmd')}=marker`]);
+    await watcher.endAsync();
+  });
+
+  it('lets a device read a device class’s freshness statement, by its exact topic only, and never publish one', async () => {
+    const a = await connectAs('dev-a', passwords['dev-a']!);
+    expect(await grantsOf(a, [classFreshnessTopic('gh-rowcam-a'), 'ocellus/v1/class/+/freshness', 'ocellus/v1/class/gh-rowcam-a/#'])).toEqual([1, 128, 128]);
+    const closed = new Promise<void>((resolve) => a.once('close', () => resolve()));
+    a.publish(classFreshnessTopic('gh-rowcam-a'), 'forged statement', { qos: 1, retain: true });
+    await closed;
+    const watcher = await connectAs(server.username, server.password);
+    const received: string[] = [];
+    watcher.on('message', (topic, payload) => received.push(`${topic}=${payload.toString()}`));
+    await watcher.subscribeAsync(classFreshnessTopic('gh-rowcam-a'), { qos: 1 });
+    await watcher.publishAsync(classFreshnessTopic('gh-rowcam-a'), 'marker', { qos: 1 });
+    await new Promise<void>((resolve) => {
+      const check = () => (received.length > 0 ? resolve() : setTimeout(check, 10));
+      check();
+    });
+    expect(received).toEqual([`${classFreshnessTopic('gh-rowcam-a')}=marker`]);
+    await watcher.publishAsync(classFreshnessTopic('gh-rowcam-a'), Buffer.alloc(0), { qos: 1, retain: true });
     await watcher.endAsync();
   });
 });

@@ -1,7 +1,7 @@
 import { connect as tcpConnect } from 'node:net';
 import mqtt, { type MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { deviceTopic } from '../../src/protocol/index.js';
+import { classFreshnessTopic, deviceTopic } from '../../src/protocol/index.js';
 import { tempDir, waitFor } from '../support/agent-fixtures.js';
 import { MOSQUITTO_BINARY_SKIP_NOTE, mosquittoBinary, startPrivateMosquitto, type PrivateMosquitto } from '../support/bus-mosquitto-rig.js';
 
@@ -60,6 +60,24 @@ describe.skipIf(!mosquittoBinary)('Mosquitto with the Ocellus ACL (private broke
     await a.publishAsync(deviceTopic('dev-a', 'events'), 'own', { qos: 1 });
     await waitFor(() => seen.length > 0, 'own events delivered');
     expect(seen).toEqual([`${deviceTopic('dev-a', 'events')}=own`]);
+  });
+
+  it("delivers the class's freshness statement to a device, and passes on nothing a device publishes there", async () => {
+    const topic = classFreshnessTopic('gh-rowcam-a');
+    const a = await as('dev-a');
+    const got: string[] = [];
+    a.on('message', (t, payload) => got.push(`${t}=${payload.toString()}`));
+    await a.subscribeAsync(topic, { qos: 1 });
+    const server = await as('ocellus-server');
+    const seen: string[] = [];
+    server.on('message', (t, payload) => seen.push(`${t}=${payload.toString()}`));
+    await server.subscribeAsync(topic, { qos: 1 });
+    // Mosquitto drops a publish its ACL refuses without closing the connection (MQTT 3.1.1 has no refusal for it).
+    await a.publishAsync(topic, 'forged', { qos: 1 });
+    await server.publishAsync(topic, 'signed', { qos: 1 });
+    await waitFor(() => got.length >= 1 && seen.length >= 1, 'the statement delivered');
+    expect(got).toEqual([`${topic}=signed`]);
+    expect(seen).toEqual([`${topic}=signed`]);
   });
 
   it("forces the client id to the user name: dev-a's credentials under client id dev-b leave dev-b online", async () => {

@@ -19,6 +19,16 @@ const PRESETS: Array<{ label: string; spanMs: number }> = [
 ];
 
 /** One robot: what it reports, the profiles it ran over a chosen window, its events, measured against predicted. */
+type Freshness = NonNullable<NonNullable<DeviceDetail['reportedState']>['freshness']>;
+
+/** What the robot read from the server's latest freshness statement, in a few words. */
+function freshnessText(f: Freshness | null | undefined): string {
+  if (!f) return 'no statement received';
+  if (f.expired) return `no fresh word since ${dateTime(f.expiresAt)}`;
+  if (f.stale) return `behind: ${f.latestReleaseId ?? 'a release'} (sequence ${f.latestVersion ?? '?'}) exists`;
+  return `up to date as of ${dateTime(f.issuedAt)}`;
+}
+
 export function DevicePage({ deviceId }: { deviceId: string }) {
   const { api, can } = useSession();
   const [win, setWinState] = useState<{ fromMs: number; toMs: number }>(() => {
@@ -111,6 +121,10 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
             <dd>{s?.pending ? `${s.pending.releaseId}: ${s.pending.reason}` : '—'}</dd>
           </div>
           <div>
+            <dt>Freshness</dt>
+            <dd title={s?.freshness ? `statement issued ${dateTime(s.freshness.issuedAt)}, holds until ${dateTime(s.freshness.expiresAt)}` : undefined}>{freshnessText(s?.freshness)}</dd>
+          </div>
+          <div>
             <dt>Moving</dt>
             <dd>{s ? (s.moving ? 'yes' : 'no') : '—'}</dd>
           </div>
@@ -119,6 +133,18 @@ export function DevicePage({ deviceId }: { deviceId: string }) {
             <dd title={dateTime(d.lastSeenAt)}>{ago(d.lastSeenAt)}</dd>
           </div>
         </dl>
+        {s?.freshness?.stale && (
+          <p class="note note-warn">
+            A newer release of this class, {s.freshness.latestReleaseId ?? 'unnamed'} (sequence {s.freshness.latestVersion ?? '?'}), exists than the robot runs or holds: it
+            was not sent to it. A staged rollout holds robots back on purpose; otherwise assign it or look for what withholds it. The robot applies nothing until the
+            release itself arrives.
+          </p>
+        )}
+        {s?.freshness?.expired && (
+          <p class="note note-warn">
+            The robot has heard no fresh word from the server since {dateTime(s.freshness.expiresAt)}: it cannot tell whether newer releases exist.
+          </p>
+        )}
         {s?.refused && (
           <p class="note note-fail">
             <span aria-hidden="true">✕ </span>The robot refused {s.refused.releaseId ?? 'a release'}: {s.refused.reason}
