@@ -8,6 +8,8 @@ export interface ChangeRelay {
   send(change: unknown): void;
   /** Calls `listener` with each change another replica sent; returns the unsubscribe. */
   onRemote(listener: (change: unknown, fromReplica: string) => void): () => void;
+  /** Calls `listener` when the broker announces that another replica's connection was lost (its last will). */
+  onReplicaLost(listener: (replicaId: string) => void): () => void;
   /** Settles once the broker has answered the subscription. */
   subscribed(): Promise<void>;
   close(): void;
@@ -15,6 +17,11 @@ export interface ChangeRelay {
 
 /** The largest relayed change accepted, in bytes: a change names what changed, never carries documents. */
 const MAX_CHANGE_BYTES = 64 * 1024;
+
+/** What a replica's last will carries on SERVER_CHANGES_TOPIC: the broker publishes it when the replica's connection is lost. */
+export function replicaLostWill(replicaId: string): string {
+  return JSON.stringify({ from: replicaId, lost: true });
+}
 
 /**
  * A change feed between replicas over the broker they share: every replica publishes its changes to
@@ -27,18 +34,30 @@ export function createChangeRelay(options: { client: MqttClient; replicaId: stri
   const { client, replicaId } = options;
   const log = options.log ?? (() => {});
   const listeners = new Set<(change: unknown, fromReplica: string) => void>();
+  const lostListeners = new Set<(replicaId: string) => void>();
   let markSubscribed!: () => void;
   const first = new Promise<void>((resolve) => (markSubscribed = resolve));
 
   function onMessage(topic: string, payload: Buffer) {
     if (topic !== SERVER_CHANGES_TOPIC || payload.length > MAX_CHANGE_BYTES) return;
-    let message: { from?: unknown; change?: unknown };
+    let message: { from?: unknown; change?: unknown; lost?: unknown };
     try {
       message = JSON.parse(payload.toString('utf8')) as typeof message;
     } catch {
       return log('relay: dropped a change message that is not JSON');
     }
-    if (typeof message.from !== 'string' || message.from === replicaId || message.change === undefined) return;
+    if (typeof message.from !== 'string' || message.from === replicaId) return;
+    if (message.lost === true) {
+      for (const listener of [...lostListeners]) {
+        try {
+          listener(message.from);
+        } catch (e) {
+          log(`relay: a replica-lost listener failed: ${(e as Error).message}`);
+        }
+      }
+      return;
+    }
+    if (message.change === undefined) return;
     for (const listener of [...listeners]) {
       try {
         listener(message.change, message.from);
@@ -69,6 +88,10 @@ export function createChangeRelay(options: { client: MqttClient; replicaId: stri
     onRemote: function onRemote(listener) {
       listeners.add(listener);
       return () => void listeners.delete(listener);
+    },
+    onReplicaLost: function onReplicaLost(listener) {
+      lostListeners.add(listener);
+      return () => void lostListeners.delete(listener);
     },
     subscribed: () => first,
     close: function close() {

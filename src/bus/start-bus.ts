@@ -8,7 +8,9 @@ import { startEmbeddedBroker, type BrokerTls, type EmbeddedBroker } from './brok
 import { createKeepaliveNotes } from './connection-notes.js';
 import type { PacketLimits } from './packet-guard.js';
 import { createInlineEventWriter, startWorkerEventWriter } from './event-writer.js';
-import { createChangeRelay, type ChangeRelay } from './change-relay.js';
+import { createChangeRelay, replicaLostWill, type ChangeRelay } from './change-relay.js';
+import { resyncRetainedStates } from './state-resync.js';
+import { SERVER_CHANGES_TOPIC } from '../protocol/topics.js';
 
 export interface BusOptions {
   store: Store;
@@ -104,6 +106,8 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     clean: true,
     // Shared subscriptions and No Local are MQTT 5 (MQTT 5.0 §4.8.2, §3.8.3.1).
     ...(options.replicas ? { protocolVersion: 5 as const, clientId: `ocellus-server-${options.replicas.replicaId}-${randomBytes(3).toString('hex')}` } : {}),
+    // A replica that dies takes the messages the broker had handed it; its will tells the others to read the states again.
+    ...(options.replicas ? { will: { topic: SERVER_CHANGES_TOPIC, payload: Buffer.from(replicaLostWill(options.replicas.replicaId)), qos: 1 as const, retain: false } } : {}),
     reconnectPeriod: 1000,
     connectTimeout: 10_000,
   });
@@ -122,6 +126,10 @@ export async function startBus(options: BusOptions): Promise<Bus> {
     ...(options.replicas ? { shareGroup: options.replicas.group } : {}),
   });
   const relay = options.replicas ? createChangeRelay({ client, replicaId: options.replicas.replicaId, log }) : null;
+  relay?.onReplicaLost((lost) => {
+    log(`bus: replica ${lost} lost its broker connection; reading every device's retained state again`);
+    void resyncRetainedStates(client, log);
+  });
   await relay?.subscribed();
   // Devices wait at the door until the bridge listens, so the first batch after a restart is not published into nothing.
   await bridge.subscribed();

@@ -1,14 +1,15 @@
 /**
  * The change feed between replicas over a private Mosquitto (MQTT 5): a change sent by one replica reaches the
  * others once and never comes back to its sender (No Local, MQTT 5.0 §3.8.3.1); a message that is not one of
- * ours is dropped with a log line.
+ * ours is dropped with a log line. A replica whose connection breaks is announced to the others by its last will,
+ * which the broker publishes on an abnormal disconnect (MQTT 5.0 §3.1.2.5), and not on a clean one.
  */
 import mqtt from 'mqtt';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createChangeRelay } from '../../src/bus/change-relay.js';
+import { createChangeRelay, replicaLostWill } from '../../src/bus/change-relay.js';
 import { SERVER_CHANGES_TOPIC } from '../../src/protocol/topics.js';
 import { waitFor } from '../support/agent-fixtures.js';
 import { MOSQUITTO_BINARY_SKIP_NOTE, mosquittoBinary, startPrivateMosquitto, type PrivateMosquitto } from '../support/bus-mosquitto-rig.js';
@@ -53,6 +54,36 @@ describe.skipIf(!mosquittoBinary)('change relay between replicas', () => {
       a.close();
       b.close();
       await Promise.all([ca.endAsync(), cb.endAsync()]);
+    }
+  });
+
+  it('announces a replica whose connection broke (its will), not one that disconnected cleanly', async () => {
+    const connectAs = (id: string, replicaId: string) => mqtt.connectAsync(broker.url, {
+      clientId: id, protocolVersion: 5, reconnectPeriod: 0,
+      will: { topic: SERVER_CHANGES_TOPIC, payload: Buffer.from(replicaLostWill(replicaId)), qos: 1, retain: false },
+    });
+    const [ca, cb, cc] = await Promise.all([connectAs('lost-a', 'rep-a'), connectAs('lost-b', 'rep-b'), connectAs('lost-c', 'rep-c')]);
+    const a = createChangeRelay({ client: ca, replicaId: 'rep-a' });
+    await a.subscribed();
+    const lost: string[] = [];
+    const changes: unknown[] = [];
+    a.onReplicaLost((id) => lost.push(id));
+    a.onRemote((change) => changes.push(change));
+    try {
+      // rep-c stops cleanly (DISCONNECT: no will); rep-b's socket is torn down as a killed process's would be.
+      await cc.endAsync();
+      cb.stream.destroy();
+      await waitFor(() => lost.length === 1, 'the will of replica B at replica A', 10_000);
+      // A change sent after both, answered in order: no announcement for rep-c is on its way.
+      const cd = await mqtt.connectAsync(broker.url, { clientId: 'lost-d', protocolVersion: 5, reconnectPeriod: 0 });
+      await cd.publishAsync(SERVER_CHANGES_TOPIC, JSON.stringify({ from: 'rep-d', change: { kind: 'devices', deviceIds: ['gh-a-02'] } }), { qos: 1 });
+      await waitFor(() => changes.length === 1, 'the later change at replica A', 10_000);
+      await cd.endAsync();
+      expect(lost).toEqual(['rep-b']);
+      expect(changes).toEqual([{ kind: 'devices', deviceIds: ['gh-a-02'] }]);
+    } finally {
+      a.close();
+      await ca.endAsync();
     }
   });
 });
