@@ -1,6 +1,7 @@
 export { openStore, isPostgresUrl } from './store.js';
 export type { Store, OpenStoreOptions } from './store.js';
-export { migrations, applyMigrations } from './migrations.js';
+export { migrations } from './migrations.js';
+export { applyMigrations } from './apply-migrations.js';
 export type { Migration } from './migrations.js';
 export { createBlobStore, sweepTmp, TMP_SWEEP_AGE_MS } from './blobs.js';
 export type { BlobStore, BlobStoreOptions, BlobPutResult, BlobPutExpectation } from './blobs.js';

@@ -12,7 +12,8 @@ import { createDocumentRepository, type DocumentRepository } from './documents.j
 import { createDriftRepository, type DriftRepository } from './drift.js';
 import { createEventRangeReader, type EventRangeReader } from './event-ranges.js';
 import { createLeaderLeaseRepository, type LeaderLeaseRepository } from './leader-leases.js';
-import { applyMigrations, migrations as defaultMigrations, type Migration } from './migrations.js';
+import { applyMigrations } from './apply-migrations.js';
+import { migrations as defaultMigrations, type Migration } from './migrations.js';
 import { createProfileRepository, type ProfileRepository } from './profiles.js';
 import { createReleaseRepository, type ReleaseRepository } from './releases.js';
 import { createRolloutFactsRepository, type RolloutFactsRepository } from './rollout-facts.js';
